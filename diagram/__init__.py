@@ -1,0 +1,3 @@
+"""limbchart: graded leg-artery maps from arterial duplex findings."""
+
+__version__ = "0.1.0"

@@ -1,0 +1,116 @@
+"""What assessment computes from a study: the typed value handed to layout and to the JSON results."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+
+from diagram.anatomy import Side
+from diagram.study import Study
+
+
+@dataclass(frozen=True)
+class Span:
+    """A stretch of one segment, in cm from its start and as fractions of its nominal length."""
+
+    segment: str
+    start_cm: float
+    end_cm: float
+    start_frac: float
+    end_frac: float
+
+
+@dataclass(frozen=True)
+class Reference:
+    """The upstream PSV a velocity ratio was computed against, and where it came from."""
+
+    psv: float
+    source: str  # "proximal_psv" (given with the sample) or "segment" (found by walking the tree)
+    segment: str | None  # the segment whose sample was used, when walked
+    diseased: bool = False  # the reference segment itself carries a stenosis below 50%
+
+    def describe(self) -> str:
+        """Return a short explanation of the basis, for the results and the sheet."""
+        if self.source == "proximal_psv":
+            return f"proximal PSV {self.psv:g} cm/s given with the sample"
+        return f"PSV {self.psv:g} cm/s in {self.segment} (nearest non-stenotic upstream sample)"
+
+
+@dataclass(frozen=True)
+class LesionResult:
+    """One lesion graded, with the stretch of vessel it covers."""
+
+    index: int  # position in the study file's lesion list of that limb
+    side: Side
+    at: str
+    band: str
+    psv: float | None
+    edv: float | None
+    vr: float | None
+    vr_source: str  # "computed", "measured" (vr given), "none"
+    reference: Reference | None
+    length_cm: float | None  # as given; None when the file gives none
+    from_cm: float
+    occluded: bool
+    reconstitutes: str | None
+    reconstitution: Span | None  # the point where flow returns (a zero-length span), if known
+    spans: tuple[Span, ...]
+    basis: str  # why this band: the rule of the criteria set that matched
+
+
+@dataclass(frozen=True)
+class SegmentResult:
+    """One segment graded: worst of its own sample and every lesion that touches it."""
+
+    side: Side
+    segment: str
+    band: str
+    psv: float | None
+    edv: float | None
+    vr: float | None
+    reference: Reference | None
+    waveform: str | None
+    lesions: tuple[int, ...]  # indices of the lesions that touch it
+    basis: str
+    assessed: bool  # False when nothing was recorded or it was marked not assessed
+
+
+@dataclass(frozen=True)
+class Finding:
+    """A warning about the measurements, with a stable code."""
+
+    code: str
+    side: Side | None
+    segment: str | None
+    message: str
+
+
+@dataclass(frozen=True)
+class LimbResult:
+    """One leg graded."""
+
+    side: Side
+    segments: Mapping[str, SegmentResult]
+    lesions: tuple[LesionResult, ...]
+
+
+@dataclass(frozen=True)
+class BandDef:
+    """One band of a criteria set, as the legend and the results name it."""
+
+    id: str
+    label: str
+    rank: int  # higher is worse; not-assessed is -1
+
+
+@dataclass(frozen=True)
+class Assessment:
+    """Everything computed from one study."""
+
+    study: Study
+    criteria_name: str
+    criteria_title: str
+    criteria_source: str
+    bands: tuple[BandDef, ...]  # in legend order, mildest first, not-assessed last
+    limbs: Mapping[Side, LimbResult]
+    warnings: tuple[Finding, ...] = field(default=())

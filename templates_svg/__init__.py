@@ -1,0 +1,1 @@
+"""The shipped map templates (SVG artwork, read as data, never executed)."""
