@@ -1,0 +1,307 @@
+"""Criteria sets: band thresholds as data files, each number with its published source.
+
+A criteria file lists bands mildest first. A band applies when its ``when`` conditions hold
+(``vr_min`` and/or ``psv_min``, combined with ``match: all`` (default) or ``any``); the worst band
+that applies wins, so a value on a boundary belongs to the higher band. A band with
+``occlusion: true`` is the band for an occluded vessel. ``not-assessed`` is built in.
+"""
+
+from __future__ import annotations
+
+import difflib
+import math
+from dataclasses import dataclass
+from functools import lru_cache
+from importlib import resources
+from pathlib import Path
+from typing import Any
+
+from diagram.errors import CriteriaError, Problem
+
+NOT_ASSESSED = "not-assessed"
+_MAX_BYTES = 256 * 1024
+_BAND_KEYS = ("id", "label", "when", "occlusion", "source")
+_WHEN_KEYS = ("vr_min", "psv_min", "match")
+_TOP_KEYS = ("format", "name", "title", "kind", "source", "lesion_floor", "bands")
+
+
+@dataclass(frozen=True)
+class BandRule:
+    """One band of a criteria set."""
+
+    id: str
+    label: str
+    rank: int  # 0 for the mildest; higher is worse
+    vr_min: float | None = None
+    psv_min: float | None = None  # cm/s
+    match: str = "all"
+    occlusion: bool = False
+    source: str = ""
+
+    def applies(self, vr: float | None, psv: float | None) -> bool:
+        """Return True when this band's conditions hold for the measurements."""
+        tests = []
+        if self.vr_min is not None:
+            tests.append(vr is not None and vr >= self.vr_min)
+        if self.psv_min is not None:
+            tests.append(psv is not None and psv >= self.psv_min)
+        if not tests:
+            return True
+        return all(tests) if self.match == "all" else any(tests)
+
+    def describe(self) -> str:
+        """Return the band's rule in words, e.g. ``Vr >= 2.0``."""
+        parts = []
+        if self.vr_min is not None:
+            parts.append(f"Vr >= {self.vr_min:g}")
+        if self.psv_min is not None:
+            parts.append(f"PSV >= {self.psv_min:g} cm/s")
+        if self.occlusion:
+            return "occlusion recorded"
+        if not parts:
+            return "below every threshold"
+        return (" and " if self.match == "all" else " or ").join(parts)
+
+
+@dataclass(frozen=True)
+class Criteria:
+    """A validated criteria set."""
+
+    name: str
+    title: str
+    kind: str
+    source: str
+    lesion_floor: str | None
+    bands: tuple[BandRule, ...]  # mildest first; occlusion band included
+    origin: str  # "shipped" or the path of a lab's file
+
+    @property
+    def band_ids(self) -> tuple[str, ...]:
+        """Return every band id of the set, with not-assessed last."""
+        return (*(b.id for b in self.bands), NOT_ASSESSED)
+
+    def band(self, band_id: str) -> BandRule:
+        """Return the band with this id."""
+        for b in self.bands:
+            if b.id == band_id:
+                return b
+        raise KeyError(band_id)
+
+    def rank(self, band_id: str) -> int:
+        """Return a band's severity rank; not-assessed ranks below every band."""
+        return -1 if band_id == NOT_ASSESSED else self.band(band_id).rank
+
+    @property
+    def occlusion_band(self) -> BandRule:
+        """Return the band for an occluded vessel."""
+        return next(b for b in self.bands if b.occlusion)
+
+    def needs(self) -> frozenset[str]:
+        """Return the measurements the set's thresholds use (``vr``, ``psv``)."""
+        out = set()
+        for b in self.bands:
+            if b.vr_min is not None:
+                out.add("vr")
+            if b.psv_min is not None:
+                out.add("psv")
+        return frozenset(out)
+
+    def grade(self, vr: float | None, psv: float | None, *, lesion: bool) -> BandRule | None:
+        """Return the worst band that applies, or None when no needed measurement is present."""
+        present = {"vr": vr is not None, "psv": psv is not None}
+        if not any(present[m] for m in self.needs()):
+            return None
+        found = next(
+            (b for b in reversed(self.bands) if not b.occlusion and b.applies(vr, psv)), None
+        )
+        if found is None:
+            return None
+        if lesion and self.lesion_floor is not None:
+            floor = self.band(self.lesion_floor)
+            if found.rank < floor.rank:
+                return floor
+        return found
+
+
+def shipped_names() -> tuple[str, ...]:
+    """Return the names of the criteria sets shipped with the package."""
+    folder = resources.files("diagram.criteria")
+    return tuple(sorted(p.name[:-5] for p in folder.iterdir() if p.name.endswith(".yaml")))
+
+
+def load_criteria(name_or_path: str, *, relative_to: Path | None = None) -> Criteria:
+    """Return a shipped criteria set by name, or a lab's own set from a file path."""
+    if name_or_path in shipped_names():
+        text = (resources.files("diagram.criteria") / f"{name_or_path}.yaml").read_text("utf-8")
+        return _cached_parse(text, f"criteria/{name_or_path}.yaml", "shipped")
+    path = Path(name_or_path)
+    if relative_to is not None and not path.is_absolute():
+        path = relative_to / path
+    if not path.suffix and not path.exists():
+        hint = difflib.get_close_matches(name_or_path, shipped_names(), n=1)
+        raise CriteriaError(
+            [
+                Problem(
+                    str(name_or_path),
+                    None,
+                    "exam.criteria",
+                    repr(name_or_path),
+                    f"is neither a shipped criteria set ({', '.join(shipped_names())}) nor a file.",
+                    f"did you mean {hint[0]}?" if hint else None,
+                )
+            ]
+        )
+    try:
+        data = path.read_bytes()
+    except OSError as exc:
+        raise CriteriaError(
+            [Problem(str(path), None, "", None, f"cannot be read: {exc.strerror}.")]
+        ) from None
+    if len(data) > _MAX_BYTES:
+        raise CriteriaError(
+            [Problem(str(path), None, "", None, f"is larger than {_MAX_BYTES} bytes.")]
+        )
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError:
+        raise CriteriaError([Problem(str(path), None, "", None, "is not UTF-8 text.")]) from None
+    return _cached_parse(text, str(path), str(path))
+
+
+@lru_cache(maxsize=32)
+def _cached_parse(text: str, file: str, origin: str) -> Criteria:
+    return parse_criteria(text, file, origin)
+
+
+def _is_number(v: Any) -> bool:
+    return isinstance(v, int | float) and not isinstance(v, bool) and math.isfinite(v)
+
+
+def parse_criteria(text: str, file: str, origin: str) -> Criteria:
+    """Validate a criteria file's text and return the set; every problem is reported at once."""
+    import yaml
+
+    problems: list[Problem] = []
+
+    def bad(line: int | None, field: str, value: Any, rule: str, hint: str | None = None) -> None:
+        shown = None if value is None else repr(value)
+        problems.append(Problem(file, line, field, shown, rule, hint))
+
+    try:
+        # Refuse anchors and aliases before anything is built: they are how a YAML bomb expands.
+        for event in yaml.parse(text, Loader=yaml.SafeLoader):
+            if isinstance(event, yaml.AliasEvent) or getattr(event, "anchor", None):
+                line = event.start_mark.line + 1
+                raise CriteriaError(
+                    [Problem(file, line, "", None, "must not use YAML anchors or aliases.")]
+                )
+        node = yaml.compose(text, Loader=yaml.SafeLoader)
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        line = mark.line + 1 if mark is not None else None
+        raise CriteriaError([Problem(file, line, "", None, "is not valid YAML.")]) from None
+    if node is None or not isinstance(node, yaml.MappingNode):
+        raise CriteriaError([Problem(file, 1, "", None, "must be a mapping of criteria fields.")])
+    lines = {k.value: k.start_mark.line + 1 for k, _ in node.value}
+    raw = yaml.safe_load(text)
+
+    for key in raw:
+        if key not in _TOP_KEYS:
+            near = difflib.get_close_matches(str(key), _TOP_KEYS, n=1)
+            bad(lines.get(key), str(key), None, "is not a criteria field.",
+                f"did you mean {near[0]}?" if near else None)
+    if raw.get("format") != 1:
+        bad(lines.get("format"), "format", raw.get("format"), "must be 1.")
+    for key in ("name", "title", "source"):
+        if not isinstance(raw.get(key), str) or not raw.get(key):
+            bad(lines.get(key, 1), key, raw.get(key), "must be a non-empty text.")
+    kind = raw.get("kind", "native")
+    if kind not in ("native", "stent", "graft"):
+        bad(lines.get("kind"), "kind", kind, "must be one of native, stent, graft.")
+
+    band_nodes = next((v for k, v in node.value if k.value == "bands"), None)
+    bands: list[BandRule] = []
+    raw_bands = raw.get("bands")
+    if not isinstance(raw_bands, list) or not raw_bands or not isinstance(band_nodes, yaml.SequenceNode):
+        bad(lines.get("bands", 1), "bands", None, "must be a non-empty list of bands.")
+        raw_bands = []
+    seen: set[str] = set()
+    last_vr = -math.inf
+    for i, rb in enumerate(raw_bands):
+        bline = band_nodes.value[i].start_mark.line + 1 if band_nodes is not None else None
+        where = f"bands[{i}]"
+        if not isinstance(rb, dict):
+            bad(bline, where, None, "must be a mapping with id, label and when.")
+            continue
+        for key in rb:
+            if key not in _BAND_KEYS:
+                near = difflib.get_close_matches(str(key), _BAND_KEYS, n=1)
+                bad(bline, f"{where}.{key}", None, "is not a band field.",
+                    f"did you mean {near[0]}?" if near else None)
+        bid, label = rb.get("id"), rb.get("label")
+        if not isinstance(bid, str) or not bid or bid == NOT_ASSESSED:
+            bad(bline, f"{where}.id", bid, f"must be a text other than {NOT_ASSESSED}.")
+            continue
+        if bid in seen:
+            bad(bline, f"{where}.id", bid, "is used by an earlier band.")
+        seen.add(bid)
+        if not isinstance(label, str) or not label:
+            bad(bline, f"{where}.label", label, "must be a non-empty text.")
+        when = rb.get("when", {})
+        occlusion = rb.get("occlusion", False)
+        if not isinstance(occlusion, bool):
+            bad(bline, f"{where}.occlusion", occlusion, "must be true or false.")
+            occlusion = False
+        if not isinstance(when, dict):
+            bad(bline, f"{where}.when", when, "must be a mapping of vr_min, psv_min, match.")
+            when = {}
+        for key in when:
+            if key not in _WHEN_KEYS:
+                near = difflib.get_close_matches(str(key), _WHEN_KEYS, n=1)
+                bad(bline, f"{where}.when.{key}", None, "is not a condition.",
+                    f"did you mean {near[0]}?" if near else None)
+        vr_min, psv_min = when.get("vr_min"), when.get("psv_min")
+        for key, val, hi in (("vr_min", vr_min, 50.0), ("psv_min", psv_min, 800.0)):
+            if val is not None and (not _is_number(val) or not 0 < val <= hi):
+                bad(bline, f"{where}.when.{key}", val, f"must be a number above 0 and at most {hi:g}.")
+        match = when.get("match", "all")
+        if match not in ("all", "any"):
+            bad(bline, f"{where}.when.match", match, "must be all or any.")
+        if not occlusion and _is_number(vr_min):
+            if vr_min <= last_vr:
+                bad(bline, f"{where}.when.vr_min", vr_min,
+                    "must be higher than the vr_min of the milder bands before it.")
+            last_vr = vr_min
+        bands.append(
+            BandRule(
+                id=bid,
+                label=str(label),
+                rank=len(bands),
+                vr_min=float(vr_min) if _is_number(vr_min) else None,
+                psv_min=float(psv_min) if _is_number(psv_min) else None,
+                match=match if match in ("all", "any") else "all",
+                occlusion=occlusion,
+                source=str(rb.get("source", "")),
+            )
+        )
+    if raw_bands and sum(b.occlusion for b in bands) != 1:
+        bad(lines.get("bands"), "bands", None, "must hold exactly one band with occlusion: true.")
+    if bands and bands[-1:] and not bands[-1].occlusion and any(b.occlusion for b in bands):
+        bad(lines.get("bands"), "bands", None, "must list the occlusion band last (the worst).")
+    floor = raw.get("lesion_floor")
+    if floor is not None and floor not in seen:
+        near = difflib.get_close_matches(str(floor), sorted(seen), n=1)
+        bad(lines.get("lesion_floor"), "lesion_floor", floor, "must be one of the set's band ids.",
+            f"did you mean {near[0]}?" if near else None)
+    if problems:
+        raise CriteriaError(sorted(problems, key=lambda p: (p.line or 0, p.field)))
+    return Criteria(
+        name=raw["name"],
+        title=raw["title"],
+        kind=kind,
+        source=" ".join(str(raw["source"]).split()),
+        lesion_floor=floor,
+        bands=tuple(bands),
+        origin=origin,
+    )
+

@@ -1,0 +1,107 @@
+"""The ``limbchart`` command line: parse options, call the API, turn tool errors into exit status 2.
+
+No domain logic lives here. Heavy libraries are imported by the commands that need them, so that
+``limbchart --help`` stays fast.
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+from pathlib import Path
+from typing import Any
+
+import click
+
+from diagram import __version__
+from diagram.errors import DiagramError
+
+CAUTION = (
+    "Schematic aid for the report - not a substitute for the images or the interpreting "
+    "physician's judgement. Criteria must be validated locally; follow local protocols and "
+    "licensed practice."
+)
+
+
+@click.group(
+    context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100},
+    epilog=CAUTION,
+)
+@click.version_option(__version__, prog_name="limbchart")
+def cli() -> None:
+    """Draw graded leg-artery maps from arterial duplex findings.
+
+    Reads a study file (YAML or JSON), computes velocity ratios and stenosis bands with a
+    published criteria set, and draws the bilateral map as SVG, PDF or PNG.
+    """
+
+
+@cli.command()
+@click.argument("study", type=click.Path(dir_okay=False, path_type=Path))
+@click.option("-o", "--output", required=True, type=click.Path(path_type=Path),
+              help="Output file; the format follows its suffix (.svg .pdf .png .json).")
+@click.option("--format", "fmt", type=click.Choice(["svg", "pdf", "png", "json"]),
+              help="Force the output format whatever the suffix.")
+@click.option("--page", type=click.Choice(["a4", "letter", "map"]), default="a4", show_default=True,
+              help="Page size, or 'map' for the map and legend alone.")
+@click.option("--template", type=click.Path(dir_okay=False, path_type=Path),
+              help="A lab's own map template (SVG); the shipped bilateral map by default.")
+@click.option("--criteria", metavar="NAME|PATH",
+              help="Criteria set to grade with, instead of the one the study names.")
+@click.option("--dpi", type=click.FloatRange(36, 1200), default=150, show_default=True,
+              help="Resolution of PNG output.")
+def draw(study: Path, output: Path, fmt: str | None, page: str, template: Path | None,
+         criteria: str | None, dpi: float) -> None:
+    """Draw the map of one STUDY file to OUTPUT."""
+    from diagram.export import ExportOptions, export, format_for
+    from diagram.load import load_study
+    from diagram.pipeline import draw as draw_study
+
+    chosen = format_for(output, fmt)  # refuse a bad format before any work
+    drawing = draw_study(load_study(study), page=page, template=template, criteria=criteria)
+    written = export(drawing, output, chosen, ExportOptions(png_dpi=dpi))
+    click.echo(f"wrote {written}", err=True)
+
+
+@cli.command()
+@click.argument("study", type=click.Path(dir_okay=False, path_type=Path))
+@click.option("--json", "as_json", is_flag=True, help="Print the results document as JSON.")
+@click.option("--criteria", metavar="NAME|PATH",
+              help="Criteria set to grade with, instead of the one the study names.")
+def check(study: Path, as_json: bool, criteria: str | None) -> None:
+    """Validate a STUDY file and print its computed grading."""
+    from diagram.load import load_study
+    from diagram.pipeline import assess_study
+    from diagram.summary import results_document, results_table
+
+    assessment = assess_study(load_study(study), criteria=criteria)
+    if as_json:
+        click.echo(json.dumps(results_document(assessment, version=__version__), indent=2))
+    else:
+        click.echo(results_table(assessment))
+        click.echo(f"\n{CAUTION}")
+
+
+@cli.command()
+def schema() -> None:
+    """Print the JSON Schema of the study file."""
+    from diagram.load import study_schema
+
+    click.echo(json.dumps(study_schema(), indent=2))
+
+
+def main(args: list[str] | None = None, prog_name: str | None = None) -> None:
+    """Run the command line; a tool error prints one line per problem and exits with status 2."""
+    try:
+        result: Any = cli.main(args=args, prog_name=prog_name or "limbchart", standalone_mode=False)
+    except DiagramError as exc:
+        for line in exc.lines():
+            click.echo(line, err=True)
+        sys.exit(exc.exit_code)
+    except click.exceptions.Abort:
+        click.echo("interrupted", err=True)
+        sys.exit(130)
+    except click.ClickException as exc:
+        exc.show()
+        sys.exit(exc.exit_code)
+    sys.exit(result if isinstance(result, int) else 0)
