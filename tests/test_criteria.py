@@ -1,0 +1,90 @@
+"""Criteria files: the shipped set loads; a lab's file with mistakes gets one line per problem."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+from diagram.criteria import load_criteria, parse_criteria, shipped_names
+from diagram.errors import CriteriaError
+
+GOOD = """\
+format: 1
+name: lab-example
+title: Example lab set
+kind: native
+source: lab validation 2026 (fictional)
+lesion_floor: mild
+bands:
+  - {id: none, label: None, when: {}}
+  - {id: mild, label: Mild, when: {vr_min: 1.5}}
+  - {id: severe, label: Severe, when: {vr_min: 2.5, psv_min: 250, match: any}}
+  - {id: occluded, label: Occluded, occlusion: true}
+"""
+
+
+def test_shipped_sets_are_listed_and_load() -> None:
+    assert "native" in shipped_names()
+    for name in shipped_names():
+        assert load_criteria(name).origin == "shipped"
+
+
+def test_lab_file_is_read_and_graded_with_any_match(tmp_path: Path) -> None:
+    path = tmp_path / "lab.yaml"
+    path.write_text(GOOD)
+    c = load_criteria(str(path))
+    assert c.name == "lab-example" and c.origin == str(path)
+    grade = c.grade
+    assert grade(1.0, 100, lesion=False).id == "none"  # type: ignore[union-attr]
+    assert grade(1.0, 100, lesion=True).id == "mild"  # type: ignore[union-attr]
+    assert grade(1.2, 260, lesion=False).id == "severe"  # type: ignore[union-attr]
+    assert grade(2.5, 100, lesion=False).id == "severe"  # type: ignore[union-attr]
+
+
+@pytest.mark.parametrize(
+    ("change", "expected"),
+    [
+        (("vr_min: 1.5", "vr_min: 'x'"),
+         "lab.yaml:9: bands[1].when.vr_min: 'x' must be a number above 0 and at most 50."),
+        (("vr_min: 1.5", "vr_min: 3.0"),
+         "lab.yaml:10: bands[2].when.vr_min: 2.5 must be higher than the vr_min of the milder "
+         "bands before it."),
+        (("lesion_floor: mild", "lesion_floor: mlid"),
+         "lab.yaml:6: lesion_floor: 'mlid' must be one of the set's band ids. (did you mean mild?)"),
+        (("when: {vr_min: 1.5}", "wen: {vr_min: 1.5}"),
+         "lab.yaml:9: bands[1].wen: is not a band field. (did you mean when?)"),
+        (("format: 1", "format: 2"), "lab.yaml:1: format: 2 must be 1."),
+        (("occlusion: true", "occlusion: false"),
+         "lab.yaml:7: bands: must hold exactly one band with occlusion: true."),
+        (("id: mild,", "id: none,"), "lab.yaml:9: bands[1].id: 'none' is used by an earlier band."),
+        (("match: any", "match: either"), "lab.yaml:10: bands[2].when.match: 'either' must be all or any."),
+    ],
+)
+def test_lab_file_mistakes(tmp_path: Path, change: tuple[str, str], expected: str) -> None:
+    path = tmp_path / "lab.yaml"
+    path.write_text(GOOD.replace(*change, 1))
+    with pytest.raises(CriteriaError) as err:
+        load_criteria(str(path))
+    lines = [str(p).replace(str(tmp_path) + "/", "") for p in err.value.problems]
+    assert expected in lines
+
+
+def test_several_mistakes_reported_at_once() -> None:
+    text = GOOD.replace("format: 1", "format: 3").replace("title: Example lab set", "title: ''")
+    with pytest.raises(CriteriaError) as err:
+        parse_criteria(text, "lab.yaml", "lab.yaml")
+    assert [p.field for p in err.value.problems] == ["format", "title"]
+
+
+def test_yaml_alias_is_refused_before_expansion() -> None:
+    bomb = "a: &a [x, x]\nb: &b [*a, *a]\nc: [*b, *b]\n"
+    with pytest.raises(CriteriaError) as err:
+        parse_criteria(bomb, "bomb.yaml", "bomb.yaml")
+    assert "anchors or aliases" in str(err.value)
+
+
+def test_unknown_shipped_name_gets_a_hint() -> None:
+    with pytest.raises(CriteriaError) as err:
+        load_criteria("natve")
+    assert "(did you mean native?)" in str(err.value)

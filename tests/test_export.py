@@ -1,0 +1,115 @@
+"""Export: format registry, atomic writes, binary outputs read back with independent tools."""
+
+from __future__ import annotations
+
+import io
+import json
+import os
+from pathlib import Path
+
+import pytest
+
+from diagram.errors import ExportError
+from diagram.export import Drawing, ExportOptions, export, format_for, render_bytes, write_atomic
+
+SVG = (
+    '<svg xmlns="http://www.w3.org/2000/svg" width="100mm" height="40mm" viewBox="0 0 283 113">'
+    '<rect x="10" y="10" width="60" height="60" fill="#333"/>'
+    '<text x="80" y="50" font-family="DejaVu Sans" font-size="14">PSV 385 &lt;50%</text></svg>'
+)
+DRAWING = Drawing(svg=SVG, results={"results_format": 1, "warnings": []})
+
+
+@pytest.mark.parametrize(
+    ("name", "forced", "fmt"),
+    [("a.svg", None, "svg"), ("a.PDF", None, "pdf"), ("a.png", None, "png"),
+     ("a.json", None, "json"), ("a.out", "pdf", "pdf"), ("a.pdf", "svg", "svg")],
+)
+def test_format_from_suffix_or_forced(name: str, forced: str | None, fmt: str) -> None:
+    assert format_for(Path(name), forced) == fmt
+
+
+@pytest.mark.parametrize("name", ["a.docx", "a"])
+def test_unknown_format_is_refused(name: str) -> None:
+    with pytest.raises(ExportError, match="is not one of svg, pdf, png, json"):
+        format_for(Path(name))
+
+
+def test_pdf_reads_back_with_pypdf_and_embeds_the_shipped_font(tmp_path: Path) -> None:
+    from pypdf import PdfReader
+
+    out = export(DRAWING, tmp_path / "m.pdf")
+    data = out.read_bytes()
+    assert data[:5] == b"%PDF-"
+    reader = PdfReader(io.BytesIO(data))
+    assert len(reader.pages) == 1
+    assert "PSV 385 <50%" in reader.pages[0].extract_text()
+    fonts = {
+        str(f["/BaseFont"])
+        for page in reader.pages
+        for f in page["/Resources"]["/Font"].values()  # type: ignore[index]
+    }
+    assert any(f.endswith("DejaVuSans") for f in fonts), fonts
+    # 100 mm x 40 mm page
+    box = reader.pages[0].mediabox
+    assert float(box.width) == pytest.approx(100 / 25.4 * 72, abs=0.5)
+
+
+def test_png_is_opaque_and_sized_by_dpi(tmp_path: Path) -> None:
+    from PIL import Image
+
+    for dpi, width in ((96, 378), (192, 756)):  # 100 mm at 96 and 192 dpi
+        data = render_bytes(DRAWING, "png", ExportOptions(png_dpi=dpi))
+        assert data[:8] == b"\x89PNG\r\n\x1a\n"
+        img = Image.open(io.BytesIO(data))
+        assert abs(img.width - width) <= 1
+        assert img.convert("RGBA").getpixel((1, 1)) == (255, 255, 255, 255)
+
+
+def test_json_round_trips(tmp_path: Path) -> None:
+    out = export(DRAWING, tmp_path / "r.json")
+    assert json.loads(out.read_text()) == DRAWING.results
+
+
+def test_svg_is_written_as_given(tmp_path: Path) -> None:
+    assert export(DRAWING, tmp_path / "m.svg").read_text() == SVG
+
+
+def test_existing_file_replaced_only_by_a_complete_one(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    target = tmp_path / "m.pdf"
+    target.write_bytes(b"old")
+
+    class Boom(Exception):
+        pass
+
+    def failing_writer(drawing: Drawing, options: ExportOptions) -> bytes:
+        raise Boom
+
+    from diagram import export as export_mod
+
+    monkeypatch.setitem(export_mod.WRITERS, "pdf", failing_writer)
+    with pytest.raises(Boom):
+        export(DRAWING, target)
+    assert target.read_bytes() == b"old"
+    assert sorted(os.listdir(tmp_path)) == ["m.pdf"]
+
+
+def test_write_into_missing_folder_or_onto_a_folder_is_a_clear_error(tmp_path: Path) -> None:
+    with pytest.raises(ExportError, match="does not exist"):
+        write_atomic(tmp_path / "nope" / "m.svg", b"x")
+    with pytest.raises(ExportError, match="is a folder"):
+        write_atomic(tmp_path, b"x")
+    assert os.listdir(tmp_path) == []
+
+
+@pytest.mark.skipif(os.geteuid() == 0, reason="root can write to a read-only folder")
+def test_unwritable_folder_leaves_nothing(tmp_path: Path) -> None:
+    tmp_path.chmod(0o500)
+    try:
+        with pytest.raises(ExportError, match="cannot be written"):
+            write_atomic(tmp_path / "m.svg", b"x")
+    finally:
+        tmp_path.chmod(0o700)
+    assert os.listdir(tmp_path) == []
