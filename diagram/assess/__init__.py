@@ -4,7 +4,9 @@ from __future__ import annotations
 
 from pathlib import Path
 
+from diagram.anatomy import Side
 from diagram.assess.grading import grade_limbs
+from diagram.assess.indices import limb_indices, pressure_findings
 from diagram.assess.results import Assessment, BandDef
 from diagram.criteria import NOT_ASSESSED, Criteria, load_criteria
 from diagram.errors import CriteriaError, Problem, StudyError
@@ -28,7 +30,9 @@ def resolve_criteria(study: Study, override: str | None = None) -> Criteria:
     except CriteriaError as exc:
         if override is None and len(exc.problems) == 1 and exc.problems[0].field == "exam.criteria":
             p = exc.problems[0]
-            raise StudyError([Problem(study.source, None, p.field, p.value, p.rule, p.hint)]) from None
+            raise StudyError(
+                [Problem(study.source, None, p.field, p.value, p.rule, p.hint)]
+            ) from None
         raise
 
 
@@ -36,6 +40,8 @@ def assess(study: Study, *, criteria: Criteria | None = None) -> Assessment:
     """Grade every segment and lesion of the study with its criteria set."""
     crit = criteria or resolve_criteria(study)
     limbs, findings = grade_limbs(study, crit)
+    indices = {side: limb_indices(study.pressures, side) for side in (Side.RIGHT, Side.LEFT)}
+    findings.extend(pressure_findings(study.pressures, indices))
     return Assessment(
         study=study,
         criteria_name=crit.name,
@@ -43,5 +49,6 @@ def assess(study: Study, *, criteria: Criteria | None = None) -> Assessment:
         criteria_source=crit.source,
         bands=band_defs(crit),
         limbs=limbs,
+        indices=indices,
         warnings=tuple(findings),
     )

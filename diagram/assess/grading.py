@@ -16,7 +16,9 @@ from diagram.criteria import NOT_ASSESSED, Criteria
 from diagram.errors import Problem, StudyError
 from diagram.study import Flow, Lesion, Limb, Sample, Study, Waveform
 
-FOCAL_LENGTH_CM = 1.0  # drawn extent of a stenosis whose length is not given (common practice: focal)
+FOCAL_LENGTH_CM = (
+    1.0  # drawn extent of a stenosis whose length is not given (common practice: focal)
+)
 _EPS = 1e-9
 
 
@@ -80,15 +82,23 @@ def lesion_spans(lesion: Lesion) -> tuple[tuple[Span, ...], Span | None]:
 
 def _span(segment: str, start_cm: float, end_cm: float) -> Span:
     length = SEGMENTS[segment].length_cm
-    return Span(segment, round(start_cm, 3), round(end_cm, 3),
-                round(start_cm / length, 6), round(end_cm / length, 6))
+    return Span(
+        segment,
+        round(start_cm, 3),
+        round(end_cm, 3),
+        round(start_cm / length, 6),
+        round(end_cm / length, 6),
+    )
 
 
 def _has_data(s: Sample) -> bool:
-    return any(
-        v is not None
-        for v in (s.psv, s.edv, s.vr, s.waveform, s.flow, s.plaque, s.band, s.proximal_psv)
-    ) or s.occluded
+    return (
+        any(
+            v is not None
+            for v in (s.psv, s.edv, s.vr, s.waveform, s.flow, s.plaque, s.band, s.proximal_psv)
+        )
+        or s.occluded
+    )
 
 
 class _LimbGrader:
@@ -158,36 +168,53 @@ class _LimbGrader:
         given = sample.band
         if given is not None and given not in self.criteria.band_ids:
             self.problems.append(
-                Problem(self.study.source, sample.line, f"{what}.band", repr(given),
-                        f"is not a band of the criteria set {self.criteria.name} "
-                        f"({', '.join(self.criteria.band_ids)}).")
+                Problem(
+                    self.study.source,
+                    sample.line,
+                    f"{what}.band",
+                    repr(given),
+                    f"is not a band of the criteria set {self.criteria.name} "
+                    f"({', '.join(self.criteria.band_ids)}).",
+                )
             )
             given = None
         if rule is not None:
             basis = f"{rule.describe()} ({self.criteria.name})"
             if given is not None and given != rule.id:
-                self.findings.append(Finding(
-                    "band-disagrees", self.side, segment,
-                    f"{what}: band given as {given} but the velocities give {rule.id}; "
-                    f"the map shows {rule.id}.",
-                ))
+                self.findings.append(
+                    Finding(
+                        "band-disagrees",
+                        self.side,
+                        segment,
+                        f"{what}: band given as {given} but the velocities give {rule.id}; "
+                        f"the map shows {rule.id}.",
+                    )
+                )
             return rule.id, basis, vr, vr_source, ref
         if given is not None:
             return given, "band given by hand", vr, vr_source, ref
         if lesion:
             if sample.psv is not None:
-                self.findings.append(Finding(
-                    "no-reference", self.side, segment,
-                    f"{what}: no upstream PSV to compute Vr; give proximal_psv or a band.",
-                ))
+                self.findings.append(
+                    Finding(
+                        "no-reference",
+                        self.side,
+                        segment,
+                        f"{what}: no upstream PSV to compute Vr; give proximal_psv or a band.",
+                    )
+                )
             return NOT_ASSESSED, "no velocity ratio and no band given", vr, vr_source, ref
         if not _has_data(sample):
             return NOT_ASSESSED, "nothing recorded", None, "none", None
         if sample.waveform is Waveform.ABSENT or sample.flow is Flow.ABSENT:
-            self.findings.append(Finding(
-                "absent-flow-ungraded", self.side, segment,
-                f"{what}: flow recorded as absent but not marked occluded; left ungraded.",
-            ))
+            self.findings.append(
+                Finding(
+                    "absent-flow-ungraded",
+                    self.side,
+                    segment,
+                    f"{what}: flow recorded as absent but not marked occluded; left ungraded.",
+                )
+            )
             return NOT_ASSESSED, "absent flow, occlusion not recorded", vr, vr_source, ref
         normal = self.criteria.bands[0]
         return normal.id, "no lesion recorded", vr, vr_source, ref
@@ -208,16 +235,33 @@ class _LimbGrader:
         band, basis, vr, vr_source, ref = self.grade_sample(les, les.at, lesion=True, what=what)
         spans, point = self.lesion_geometry[index]
         if point is not None and les.reconstitutes and point.segment != les.reconstitutes:
-            self.findings.append(Finding(
-                "reconstitution-mismatch", self.side, les.at,
-                f"{what}: the occlusion's length ends in {point.segment} but it is said to "
-                f"reconstitute in {les.reconstitutes}; the map marks the end of the length given.",
-            ))
+            self.findings.append(
+                Finding(
+                    "reconstitution-mismatch",
+                    self.side,
+                    les.at,
+                    f"{what}: the occlusion's length ends in {point.segment} but it is said to "
+                    f"reconstitute in {les.reconstitutes}; the map marks the end of the length "
+                    "given.",
+                )
+            )
         return LesionResult(
-            index=index, side=self.side, at=les.at, band=band, psv=les.psv, edv=les.edv,
-            vr=vr, vr_source=vr_source, reference=ref, length_cm=les.length_cm,
-            from_cm=les.from_cm or 0.0, occluded=les.occluded, reconstitutes=les.reconstitutes,
-            reconstitution=point, spans=spans, basis=basis,
+            index=index,
+            side=self.side,
+            at=les.at,
+            band=band,
+            psv=les.psv,
+            edv=les.edv,
+            vr=vr,
+            vr_source=vr_source,
+            reference=ref,
+            length_cm=les.length_cm,
+            from_cm=les.from_cm or 0.0,
+            occluded=les.occluded,
+            reconstitutes=les.reconstitutes,
+            reconstitution=point,
+            spans=spans,
+            basis=basis,
         )
 
     def grade_segment(self, seg: str) -> SegmentResult:
@@ -238,11 +282,17 @@ class _LimbGrader:
                 assessed = True
         self.bands[seg] = band
         return SegmentResult(
-            side=self.side, segment=seg, band=band,
-            psv=finding.psv if finding else None, edv=finding.edv if finding else None,
-            vr=vr, reference=ref,
+            side=self.side,
+            segment=seg,
+            band=band,
+            psv=finding.psv if finding else None,
+            edv=finding.edv if finding else None,
+            vr=vr,
+            reference=ref,
             waveform=finding.waveform.value if finding and finding.waveform else None,
-            lesions=touching, basis=basis, assessed=assessed,
+            lesions=touching,
+            basis=basis,
+            assessed=assessed,
         )
 
 
@@ -252,8 +302,9 @@ def grade_limbs(study: Study, criteria: Criteria) -> tuple[dict[Side, LimbResult
     findings: list[Finding] = []
     problems: list[Problem] = []
     # The distal aorta is unpaired: a sample given under one limb is the reference for both.
-    aorta = next((study.limb(s).segments["AO"] for s in Side if "AO" in study.limb(s).segments),
-                 None)
+    aorta = next(
+        (study.limb(s).segments["AO"] for s in Side if "AO" in study.limb(s).segments), None
+    )
     for side in (Side.RIGHT, Side.LEFT):
         limb = study.limb(side)
         if aorta is not None and "AO" not in limb.segments:

@@ -1,4 +1,4 @@
-"""What assessment computes from a study: the typed value handed to layout and to the JSON results."""
+"""What assessment computes from a study: the typed value handed to layout and to the results."""
 
 from __future__ import annotations
 
@@ -95,6 +95,24 @@ class LimbResult:
 
 
 @dataclass(frozen=True)
+class LimbIndices:
+    """Pressure indices of one leg, each with the figures it was computed from."""
+
+    side: Side
+    ankle_mmhg: float | None  # the higher of PT and DP
+    brachial_mmhg: float | None  # the higher brachial pressure
+    abi: float | None
+    abi_category: str | None
+    abi_severity: str | None  # "severe" / "mild-moderate" within abnormal
+    abi_basis: str
+    tbi: float | None
+    tbi_category: str | None
+    tbi_basis: str
+    ischaemia_grade: int | None
+    ischaemia_basis: str
+
+
+@dataclass(frozen=True)
 class BandDef:
     """One band of a criteria set, as the legend and the results name it."""
 
@@ -113,4 +131,5 @@ class Assessment:
     criteria_source: str
     bands: tuple[BandDef, ...]  # in legend order, mildest first, not-assessed last
     limbs: Mapping[Side, LimbResult]
+    indices: Mapping[Side, LimbIndices] = field(default_factory=dict)
     warnings: tuple[Finding, ...] = field(default=())

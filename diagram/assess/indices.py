@@ -1,0 +1,180 @@
+"""Pressure indices per leg: ABI and its category, TBI, the WIfI ischaemia grade, arm difference.
+
+Every threshold below is a table row with its published source (clinical-values.md).
+"""
+
+from __future__ import annotations
+
+from decimal import ROUND_HALF_UP, Decimal
+
+from diagram.anatomy import Side
+from diagram.assess.results import Finding, LimbIndices
+from diagram.study import Pressures
+
+# ABI categories, 2016 AHA/ACC PAD guideline (Gerhard-Herman MD et al., Circulation
+# 2017;135:e726): <= 0.90 abnormal, 0.91-0.99 borderline, 1.00-1.40 normal, > 1.40
+# noncompressible. (upper bound inclusive, category) on the ABI rounded to two decimals.
+ABI_CATEGORIES: tuple[tuple[float, str], ...] = (
+    (0.90, "abnormal"),
+    (0.99, "borderline"),
+    (1.40, "normal"),
+    (float("inf"), "noncompressible"),
+)
+# Severity within abnormal: <= 0.40 severe, 0.41-0.90 mild-moderate (Sukul D et al., JACC
+# Cardiovasc Interv 2017).
+ABI_SEVERE_MAX = 0.40
+# TBI <= 0.70 abnormal (2016 AHA/ACC; cut-off from memory).
+TBI_ABNORMAL_MAX = 0.70
+# WIfI ischaemia grade (Mills JL et al., J Vasc Surg 2014;59:220; grades 1-3 confirmed, grade 0
+# from memory): lower bounds for grades 0, 1, 2; below the last bound is grade 3.
+WIFI_ABI = ((0.80, 0), (0.60, 1), (0.40, 2))  # ABI >= bound
+WIFI_ANKLE = ((100.0, 0), (70.0, 1), (50.0, 2))  # ankle > 100 grade 0; 70-100 grade 1; 50-<70 2
+WIFI_TOE = ((60.0, 0), (40.0, 1), (30.0, 2))  # toe pressure >= bound, mmHg
+# CLTI haemodynamic thresholds (ESC/ESVS 2017; Global Vascular Guidelines 2019).
+CLTI_ANKLE_BELOW = 50.0
+CLTI_ABI_BELOW = 0.40
+CLTI_TOE_BELOW = 30.0
+# Inter-arm systolic difference (Clark CE et al., Lancet 2012;379:905).
+ARM_DIFF_NOTE = 10.0
+ARM_DIFF_FLAG = 15.0
+
+
+def round2(value: float) -> float:
+    """Round to two decimals, halves up (an index is reported to two decimals)."""
+    return float(Decimal(repr(value)).quantize(Decimal("0.01"), rounding=ROUND_HALF_UP))
+
+
+def abi_category(abi: float) -> str:
+    """Return the 2016 AHA/ACC category of an ABI already rounded to two decimals."""
+    return next(cat for upper, cat in ABI_CATEGORIES if abi <= upper)
+
+
+def _grade(value: float, table: tuple[tuple[float, int], ...], *, strict_first: bool) -> int:
+    for i, (bound, grade) in enumerate(table):
+        if value > bound if (strict_first and i == 0) else value >= bound:
+            return grade
+    return 3
+
+
+def limb_indices(pressures: Pressures, side: Side) -> LimbIndices:
+    """Compute ABI, TBI and the ischaemia grade of one leg from what was measured."""
+    limb = pressures.limb(side)
+    arms = [p for p in (pressures.brachial_right, pressures.brachial_left) if p is not None]
+    brachial = max(arms) if arms else None
+    ankles = [p for p in (limb.pt, limb.dp) if p is not None]
+    ankle = max(ankles) if ankles else None
+    arm_note = "" if len(arms) == 2 else " (one arm measured)"
+
+    abi = category = severity = None
+    if ankle is not None and brachial is not None and brachial > 0:
+        abi = round2(ankle / brachial)
+        category = abi_category(abi)
+        if category == "abnormal":
+            severity = "severe" if abi <= ABI_SEVERE_MAX else "mild-moderate"
+        which = "PT" if limb.pt == ankle else "DP"
+        abi_basis = f"{which} {ankle:g} / brachial {brachial:g} mmHg{arm_note}"
+    elif ankle is None:
+        abi_basis = "no ankle pressure"
+    else:
+        abi_basis = "no brachial pressure"
+
+    tbi = tbi_category = None
+    if limb.toe is not None and brachial is not None and brachial > 0:
+        tbi = round2(limb.toe / brachial)
+        tbi_category = "abnormal" if tbi <= TBI_ABNORMAL_MAX else "normal"
+        tbi_basis = f"toe {limb.toe:g} / brachial {brachial:g} mmHg{arm_note}"
+    else:
+        tbi_basis = "no toe pressure" if limb.toe is None else "no brachial pressure"
+
+    reliable_ankle = category != "noncompressible"
+    grades: list[tuple[int, str]] = []
+    if abi is not None and reliable_ankle:
+        grades.append((_grade(abi, WIFI_ABI, strict_first=False), f"ABI {abi:.2f}"))
+    if ankle is not None and reliable_ankle:
+        grades.append((_grade(ankle, WIFI_ANKLE, strict_first=True), f"ankle {ankle:g} mmHg"))
+    if limb.toe is not None:
+        grades.append((_grade(limb.toe, WIFI_TOE, strict_first=False), f"toe {limb.toe:g} mmHg"))
+    if grades:
+        grade = max(g for g, _ in grades)
+        ischaemia_basis = "worst of " + ", ".join(f"{b} (grade {g})" for g, b in grades)
+        if not reliable_ankle:
+            ischaemia_basis += "; ankle pressure not used (noncompressible)"
+    else:
+        grade, ischaemia_basis = None, "no ankle or toe pressure"
+    return LimbIndices(
+        side,
+        ankle,
+        brachial,
+        abi,
+        category,
+        severity,
+        abi_basis,
+        tbi,
+        tbi_category,
+        tbi_basis,
+        grade,
+        ischaemia_basis,
+    )
+
+
+def pressure_findings(pressures: Pressures, indices: dict[Side, LimbIndices]) -> list[Finding]:
+    """Return warnings: arm difference, noncompressible vessels, CLTI-range pressures."""
+    out: list[Finding] = []
+    r, left = pressures.brachial_right, pressures.brachial_left
+    if r is not None and left is not None:
+        diff = abs(r - left)
+        if diff >= ARM_DIFF_FLAG:
+            out.append(
+                Finding(
+                    "arm-difference",
+                    None,
+                    None,
+                    f"brachial pressures differ by {diff:g} mmHg (>= 15): possible "
+                    "subclavian stenosis; the ABI uses the higher arm.",
+                )
+            )
+        elif diff >= ARM_DIFF_NOTE:
+            out.append(
+                Finding(
+                    "arm-difference-minor",
+                    None,
+                    None,
+                    f"brachial pressures differ by {diff:g} mmHg (>= 10); the ABI "
+                    "uses the higher arm.",
+                )
+            )
+    for side, ix in indices.items():
+        if ix.abi_category == "noncompressible":
+            out.append(
+                Finding(
+                    "noncompressible",
+                    side,
+                    None,
+                    f"ABI {ix.abi:.2f} > 1.40: vessels noncompressible; rely on the "
+                    "TBI" + ("." if ix.tbi is not None else " (no toe pressure)."),
+                )
+            )
+        low = []
+        if ix.abi is not None and ix.abi_category != "noncompressible" and ix.abi < CLTI_ABI_BELOW:
+            low.append(f"ABI {ix.abi:.2f} < 0.40")
+        if (
+            ix.ankle_mmhg is not None
+            and ix.abi_category != "noncompressible"
+            and ix.ankle_mmhg < CLTI_ANKLE_BELOW
+        ):
+            low.append(f"ankle {ix.ankle_mmhg:g} < 50 mmHg")
+        toe = pressures.limb(side).toe
+        if toe is not None and toe < CLTI_TOE_BELOW:
+            low.append(f"toe {toe:g} < 30 mmHg")
+        if low:
+            out.append(
+                Finding(
+                    "clti-pressure",
+                    side,
+                    None,
+                    "pressures in the range of chronic limb-threatening ischaemia: "
+                    + ", ".join(low)
+                    + ".",
+                )
+            )
+    return out

@@ -1,0 +1,155 @@
+"""Pressure indices: ABI, TBI, WIfI ischaemia grade, arm difference, CLTI thresholds."""
+
+from __future__ import annotations
+
+import pytest
+
+from diagram.anatomy import Side
+from diagram.assess.indices import abi_category, limb_indices, pressure_findings, round2
+from diagram.study import LimbPressures, Pressures
+
+
+def pressures(
+    right: tuple[float | None, float | None] = (142.0, 140.0),
+    left: tuple[float | None, float | None, float | None] = (None, None, None),
+) -> Pressures:
+    pt, dp, toe = left
+    return Pressures(
+        brachial_right=right[0], brachial_left=right[1], left=LimbPressures(pt=pt, dp=dp, toe=toe)
+    )
+
+
+def test_worked_example_abi_086_abnormal() -> None:
+    # clinical-values.md worked example (own arithmetic; method 2016 AHA/ACC PAD guideline):
+    # brachial R 140 / L 132, PT 120, DP 110 -> 120/140 = 0.857 -> 0.86, abnormal
+    p = Pressures(brachial_right=140, brachial_left=132, left=LimbPressures(pt=120, dp=110))
+    ix = limb_indices(p, Side.LEFT)
+    assert (ix.abi, ix.abi_category, ix.abi_severity) == (0.86, "abnormal", "mild-moderate")
+    assert ix.abi_basis == "PT 120 / brachial 140 mmHg"
+
+
+# 2016 AHA/ACC PAD guideline (Gerhard-Herman 2017): <= 0.90 abnormal, 0.91-0.99 borderline,
+# 1.00-1.40 normal, > 1.40 noncompressible.
+@pytest.mark.parametrize(
+    ("abi", "category"),
+    [
+        (0.89, "abnormal"),
+        (0.90, "abnormal"),
+        (0.91, "borderline"),
+        (0.99, "borderline"),
+        (1.00, "normal"),
+        (1.40, "normal"),
+        (1.41, "noncompressible"),
+    ],
+)
+def test_abi_category_boundaries(abi: float, category: str) -> None:
+    assert abi_category(abi) == category
+
+
+@pytest.mark.parametrize(
+    ("ankle", "abi", "severity"),
+    [(40, 0.40, "severe"), (41, 0.41, "mild-moderate")],  # Sukul D et al., JACC CI 2017
+)
+def test_abi_severity_boundary(ankle: float, abi: float, severity: str) -> None:
+    ix = limb_indices(pressures((100, 100), (ankle, None, None)), Side.LEFT)
+    assert (ix.abi, ix.abi_severity) == (abi, severity)
+
+
+def test_abi_rounds_half_up_to_two_decimals() -> None:
+    assert round2(0.855) == 0.86 and round2(0.8549) == 0.85  # common practice: two decimals
+
+
+# TBI = toe / higher brachial; <= 0.70 abnormal (2016 AHA/ACC; cut-off from memory)
+@pytest.mark.parametrize(("toe", "category"), [(69, "abnormal"), (70, "abnormal"), (71, "normal")])
+def test_tbi_boundary(toe: float, category: str) -> None:
+    ix = limb_indices(pressures((100, 90), (None, None, toe)), Side.LEFT)
+    assert ix.tbi == toe / 100 and ix.tbi_category == category
+
+
+# WIfI ischaemia grade (Mills JL et al., J Vasc Surg 2014;59:220): grades 1-3 confirmed,
+# grade 0 from memory. Each measure alone, brachial 100 so that ABI = ankle / 100.
+@pytest.mark.parametrize(
+    ("left", "grade"),
+    [
+        ((101, None, None), 0),  # ABI 1.01, ankle > 100
+        ((100, None, None), 1),  # ankle 100 is grade 1 (70-100), ABI 1.00 grade 0: worst wins
+        ((80, None, None), 1),  # ABI 0.80 grade 0, ankle 80 grade 1
+        ((79, None, None), 1),  # ABI 0.79
+        ((70, None, None), 1),  # ankle 70 (70-100)
+        ((69, None, None), 2),  # ankle 69 (50-70), ABI 0.69 grade 1
+        ((60, None, None), 2),
+        ((59, None, None), 2),  # ABI 0.59
+        ((50, None, None), 2),  # ankle 50, ABI 0.50
+        ((49, None, None), 3),  # ankle < 50
+        ((None, None, 60), 0),  # toe >= 60
+        ((None, None, 59), 1),
+        ((None, None, 40), 1),
+        ((None, None, 39), 2),
+        ((None, None, 30), 2),
+        ((None, None, 29), 3),
+    ],
+)
+def test_wifi_ischaemia_grade(left: tuple[float | None, ...], grade: int) -> None:
+    pt, dp, toe = left
+    ix = limb_indices(pressures((100, 100), (pt, dp, toe)), Side.LEFT)
+    assert ix.ischaemia_grade == grade
+
+
+def test_noncompressible_uses_toe_only_and_points_to_tbi() -> None:
+    p = pressures((120, 120), (200, 190, 50))  # ABI 1.67
+    ix = limb_indices(p, Side.LEFT)
+    assert ix.abi_category == "noncompressible"
+    assert ix.ischaemia_grade == 1 and "not used" in ix.ischaemia_basis  # toe 50 -> grade 1
+    codes = [f.code for f in pressure_findings(p, {Side.LEFT: ix})]
+    assert codes == ["noncompressible"]
+
+
+@pytest.mark.parametrize(
+    ("arms", "codes"),
+    [  # Clark CE et al., Lancet 2012;379:905: >= 10 noted, >= 15 flagged
+        ((140, 131), []),
+        ((140, 130), ["arm-difference-minor"]),
+        ((140, 126), ["arm-difference-minor"]),
+        ((140, 125), ["arm-difference"]),
+    ],
+)
+def test_inter_arm_difference(arms: tuple[float, float], codes: list[str]) -> None:
+    assert [f.code for f in pressure_findings(pressures(arms), {})] == codes
+
+
+@pytest.mark.parametrize(
+    ("left", "flagged"),
+    [  # ESC/ESVS 2017, GVG 2019: ankle < 50, ABI < 0.40, toe < 30
+        ((50, None, 30), False),
+        ((49, None, None), True),
+        ((None, None, 29), True),
+    ],
+)
+def test_clti_thresholds(left: tuple[float | None, ...], flagged: bool) -> None:
+    p = pressures((125, 125), left)  # type: ignore[arg-type]
+    ix = limb_indices(p, Side.LEFT)
+    codes = [f.code for f in pressure_findings(p, {Side.LEFT: ix})]
+    assert ("clti-pressure" in codes) is flagged
+
+
+@pytest.mark.parametrize(
+    ("p", "abi_basis", "tbi_basis"),
+    [
+        (Pressures(), "no ankle pressure", "no toe pressure"),
+        (
+            Pressures(left=LimbPressures(pt=90, toe=50)),
+            "no brachial pressure",
+            "no brachial pressure",
+        ),
+        (
+            Pressures(brachial_left=120, left=LimbPressures(dp=90)),
+            "DP 90 / brachial 120 mmHg (one arm measured)",
+            "no toe pressure",
+        ),
+    ],
+)
+def test_missing_pressures_say_what_could_not_be_computed(
+    p: Pressures, abi_basis: str, tbi_basis: str
+) -> None:
+    ix = limb_indices(p, Side.LEFT)
+    assert (ix.abi_basis, ix.tbi_basis) == (abi_basis, tbi_basis)
