@@ -78,9 +78,7 @@ _TREE: tuple[tuple[str, str, Level, str | None, str | None, float], ...] = (
     ("PLA", "plantar arteries", Level.PEDAL, "PTA-D", None, 6.0),
 )
 
-SEGMENTS: dict[str, SegmentDef] = {
-    row[0]: SegmentDef(*row) for row in _TREE
-}
+SEGMENTS: dict[str, SegmentDef] = {row[0]: SegmentDef(*row) for row in _TREE}
 SEGMENT_IDS: tuple[str, ...] = tuple(SEGMENTS)
 UNPAIRED: frozenset[str] = frozenset({"AO"})
 

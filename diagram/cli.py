@@ -38,20 +38,52 @@ def cli() -> None:
 
 @cli.command()
 @click.argument("study", type=click.Path(dir_okay=False, path_type=Path))
-@click.option("-o", "--output", required=True, type=click.Path(path_type=Path),
-              help="Output file; the format follows its suffix (.svg .pdf .png .json).")
-@click.option("--format", "fmt", type=click.Choice(["svg", "pdf", "png", "json"]),
-              help="Force the output format whatever the suffix.")
-@click.option("--page", type=click.Choice(["a4", "letter", "map"]), default="a4", show_default=True,
-              help="Page size, or 'map' for the map and legend alone.")
-@click.option("--template", type=click.Path(dir_okay=False, path_type=Path),
-              help="A lab's own map template (SVG); the shipped bilateral map by default.")
-@click.option("--criteria", metavar="NAME|PATH",
-              help="Criteria set to grade with, instead of the one the study names.")
-@click.option("--dpi", type=click.FloatRange(36, 1200), default=150, show_default=True,
-              help="Resolution of PNG output.")
-def draw(study: Path, output: Path, fmt: str | None, page: str, template: Path | None,
-         criteria: str | None, dpi: float) -> None:
+@click.option(
+    "-o",
+    "--output",
+    required=True,
+    type=click.Path(path_type=Path),
+    help="Output file; the format follows its suffix (.svg .pdf .png .json).",
+)
+@click.option(
+    "--format",
+    "fmt",
+    type=click.Choice(["svg", "pdf", "png", "json"]),
+    help="Force the output format whatever the suffix.",
+)
+@click.option(
+    "--page",
+    type=click.Choice(["a4", "letter", "map"]),
+    default="a4",
+    show_default=True,
+    help="Page size, or 'map' for the map and legend alone.",
+)
+@click.option(
+    "--template",
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="A lab's own map template (SVG); the shipped bilateral map by default.",
+)
+@click.option(
+    "--criteria",
+    metavar="NAME|PATH",
+    help="Criteria set to grade with, instead of the one the study names.",
+)
+@click.option(
+    "--dpi",
+    type=click.FloatRange(36, 1200),
+    default=150,
+    show_default=True,
+    help="Resolution of PNG output.",
+)
+def draw(
+    study: Path,
+    output: Path,
+    fmt: str | None,
+    page: str,
+    template: Path | None,
+    criteria: str | None,
+    dpi: float,
+) -> None:
     """Draw the map of one STUDY file to OUTPUT."""
     from diagram.export import ExportOptions, export, format_for
     from diagram.load import load_study
@@ -66,8 +98,11 @@ def draw(study: Path, output: Path, fmt: str | None, page: str, template: Path |
 @cli.command()
 @click.argument("study", type=click.Path(dir_okay=False, path_type=Path))
 @click.option("--json", "as_json", is_flag=True, help="Print the results document as JSON.")
-@click.option("--criteria", metavar="NAME|PATH",
-              help="Criteria set to grade with, instead of the one the study names.")
+@click.option(
+    "--criteria",
+    metavar="NAME|PATH",
+    help="Criteria set to grade with, instead of the one the study names.",
+)
 def check(study: Path, as_json: bool, criteria: str | None) -> None:
     """Validate a STUDY file and print its computed grading."""
     from diagram.load import load_study

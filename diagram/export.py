@@ -82,9 +82,9 @@ def _png(drawing: Drawing, options: ExportOptions) -> bytes:
 
 
 def _json(drawing: Drawing, options: ExportOptions) -> bytes:
-    return (json.dumps(drawing.results, indent=2, sort_keys=False, ensure_ascii=False) + "\n").encode(
-        "utf-8"
-    )
+    return (
+        json.dumps(drawing.results, indent=2, sort_keys=False, ensure_ascii=False) + "\n"
+    ).encode("utf-8")
 
 
 WRITERS: dict[str, Writer] = {"svg": _svg, "pdf": _pdf, "png": _png, "json": _json}

@@ -20,8 +20,13 @@ def _num(value: float | None) -> float | int | None:
 def _ref(ref: Reference | None) -> dict[str, Any] | None:
     if ref is None:
         return None
-    return {"psv": _num(ref.psv), "source": ref.source, "segment": ref.segment,
-            "diseased": ref.diseased, "basis": ref.describe()}
+    return {
+        "psv": _num(ref.psv),
+        "source": ref.source,
+        "segment": ref.segment,
+        "diseased": ref.diseased,
+        "basis": ref.describe(),
+    }
 
 
 def _span(span: Span) -> dict[str, Any]:
@@ -30,20 +35,34 @@ def _span(span: Span) -> dict[str, Any]:
 
 def _segment(r: SegmentResult) -> dict[str, Any]:
     return {
-        "band": r.band, "psv": _num(r.psv), "edv": _num(r.edv), "vr": _num(r.vr),
-        "reference": _ref(r.reference), "waveform": r.waveform, "basis": r.basis,
-        "assessed": r.assessed, "lesions": list(r.lesions),
+        "band": r.band,
+        "psv": _num(r.psv),
+        "edv": _num(r.edv),
+        "vr": _num(r.vr),
+        "reference": _ref(r.reference),
+        "waveform": r.waveform,
+        "basis": r.basis,
+        "assessed": r.assessed,
+        "lesions": list(r.lesions),
     }
 
 
 def _lesion(r: LesionResult) -> dict[str, Any]:
     return {
-        "at": r.at, "band": r.band, "psv": _num(r.psv), "edv": _num(r.edv), "vr": _num(r.vr),
-        "vr_source": r.vr_source, "reference": _ref(r.reference), "from_cm": _num(r.from_cm),
-        "length_cm": _num(r.length_cm), "occluded": r.occluded,
+        "at": r.at,
+        "band": r.band,
+        "psv": _num(r.psv),
+        "edv": _num(r.edv),
+        "vr": _num(r.vr),
+        "vr_source": r.vr_source,
+        "reference": _ref(r.reference),
+        "from_cm": _num(r.from_cm),
+        "length_cm": _num(r.length_cm),
+        "occluded": r.occluded,
         "reconstitutes": r.reconstitutes,
         "reconstitution": _span(r.reconstitution) if r.reconstitution else None,
-        "extent": [_span(s) for s in r.spans], "basis": r.basis,
+        "extent": [_span(s) for s in r.spans],
+        "basis": r.basis,
     }
 
 
@@ -52,21 +71,28 @@ def results_document(assessment: Assessment, *, version: str) -> dict[str, Any]:
     return {
         "results_format": RESULTS_FORMAT,
         "tool": {"name": "limbchart", "version": version},
-        "criteria": {"name": assessment.criteria_name, "title": assessment.criteria_title,
-                     "source": assessment.criteria_source},
+        "criteria": {
+            "name": assessment.criteria_name,
+            "title": assessment.criteria_title,
+            "source": assessment.criteria_source,
+        },
         "bands": [{"id": b.id, "label": b.label} for b in assessment.bands],
         "limbs": {
             side.value: {
-                "segments": {
-                    seg: _segment(limb.segments[seg]) for seg in anatomy.SEGMENT_IDS
-                },
+                "segments": {seg: _segment(limb.segments[seg]) for seg in anatomy.SEGMENT_IDS},
                 "lesions": [_lesion(les) for les in limb.lesions],
             }
-            for side, limb in sorted(assessment.limbs.items(), key=lambda kv: kv[0].value != "right")
+            for side, limb in sorted(
+                assessment.limbs.items(), key=lambda kv: kv[0].value != "right"
+            )
         },
         "warnings": [
-            {"code": w.code, "side": w.side.value if w.side else None, "segment": w.segment,
-             "message": w.message}
+            {
+                "code": w.code,
+                "side": w.side.value if w.side else None,
+                "segment": w.segment,
+                "message": w.message,
+            }
             for w in assessment.warnings
         ],
     }
@@ -92,13 +118,18 @@ def results_table(assessment: Assessment) -> str:
             where = f"{les.at} lesion {les.index + 1}"
             if les.length_cm is not None:
                 where += f" ({les.length_cm:g} cm)"
-            rows.append((side.value, where, les.band, _fmt(les.psv), _fmt(les.edv),
-                         _fmt(les.vr), les.basis))
+            rows.append(
+                (side.value, where, les.band, _fmt(les.psv), _fmt(les.edv), _fmt(les.vr), les.basis)
+            )
     widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]) - 1)]
-    lines = ["  ".join(c.ljust(w) for c, w in zip(r[:-1], widths, strict=False)) + "  " + r[-1]
-             for r in rows]
+    lines = [
+        "  ".join(c.ljust(w) for c, w in zip(r[:-1], widths, strict=False)) + "  " + r[-1]
+        for r in rows
+    ]
     unassessed = [
-        f"{side.value} {seg}" for side in Side for seg in anatomy.SEGMENT_IDS
+        f"{side.value} {seg}"
+        for side in Side
+        for seg in anatomy.SEGMENT_IDS
         if not assessment.limbs[side].segments[seg].assessed
     ]
     out = [f"criteria: {assessment.criteria_title} ({assessment.criteria_name})", *lines]

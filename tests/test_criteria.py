@@ -45,20 +45,33 @@ def test_lab_file_is_read_and_graded_with_any_match(tmp_path: Path) -> None:
 @pytest.mark.parametrize(
     ("change", "expected"),
     [
-        (("vr_min: 1.5", "vr_min: 'x'"),
-         "lab.yaml:9: bands[1].when.vr_min: 'x' must be a number above 0 and at most 50."),
-        (("vr_min: 1.5", "vr_min: 3.0"),
-         "lab.yaml:10: bands[2].when.vr_min: 2.5 must be higher than the vr_min of the milder "
-         "bands before it."),
-        (("lesion_floor: mild", "lesion_floor: mlid"),
-         "lab.yaml:6: lesion_floor: 'mlid' must be one of the set's band ids. (did you mean mild?)"),
-        (("when: {vr_min: 1.5}", "wen: {vr_min: 1.5}"),
-         "lab.yaml:9: bands[1].wen: is not a band field. (did you mean when?)"),
+        (
+            ("vr_min: 1.5", "vr_min: 'x'"),
+            "lab.yaml:9: bands[1].when.vr_min: 'x' must be a number above 0 and at most 50.",
+        ),
+        (
+            ("vr_min: 1.5", "vr_min: 3.0"),
+            "lab.yaml:10: bands[2].when.vr_min: 2.5 must be higher than the vr_min of the milder "
+            "bands before it.",
+        ),
+        (
+            ("lesion_floor: mild", "lesion_floor: mlid"),
+            "lab.yaml:6: lesion_floor: 'mlid' must be one of the set's band ids. (did you mean mild?)",
+        ),
+        (
+            ("when: {vr_min: 1.5}", "wen: {vr_min: 1.5}"),
+            "lab.yaml:9: bands[1].wen: is not a band field. (did you mean when?)",
+        ),
         (("format: 1", "format: 2"), "lab.yaml:1: format: 2 must be 1."),
-        (("occlusion: true", "occlusion: false"),
-         "lab.yaml:7: bands: must hold exactly one band with occlusion: true."),
+        (
+            ("occlusion: true", "occlusion: false"),
+            "lab.yaml:7: bands: must hold exactly one band with occlusion: true.",
+        ),
         (("id: mild,", "id: none,"), "lab.yaml:9: bands[1].id: 'none' is used by an earlier band."),
-        (("match: any", "match: either"), "lab.yaml:10: bands[2].when.match: 'either' must be all or any."),
+        (
+            ("match: any", "match: either"),
+            "lab.yaml:10: bands[2].when.match: 'either' must be all or any.",
+        ),
     ],
 )
 def test_lab_file_mistakes(tmp_path: Path, change: tuple[str, str], expected: str) -> None:

@@ -22,8 +22,14 @@ DRAWING = Drawing(svg=SVG, results={"results_format": 1, "warnings": []})
 
 @pytest.mark.parametrize(
     ("name", "forced", "fmt"),
-    [("a.svg", None, "svg"), ("a.PDF", None, "pdf"), ("a.png", None, "png"),
-     ("a.json", None, "json"), ("a.out", "pdf", "pdf"), ("a.pdf", "svg", "svg")],
+    [
+        ("a.svg", None, "svg"),
+        ("a.PDF", None, "pdf"),
+        ("a.png", None, "png"),
+        ("a.json", None, "json"),
+        ("a.out", "pdf", "pdf"),
+        ("a.pdf", "svg", "svg"),
+    ],
 )
 def test_format_from_suffix_or_forced(name: str, forced: str | None, fmt: str) -> None:
     assert format_for(Path(name), forced) == fmt

@@ -13,8 +13,9 @@ from diagram.study import Exam, Lesion, Limb, Patient, Pressures, SegmentFinding
 
 def make_study(right: Limb | None = None, left: Limb | None = None) -> Study:
     limbs = {s: lb for s, lb in ((Side.RIGHT, right), (Side.LEFT, left)) if lb is not None}
-    return Study(source="t.yaml", patient=Patient(), exam=Exam(), pressures=Pressures(),
-                 limbs=limbs)
+    return Study(
+        source="t.yaml", patient=Patient(), exam=Exam(), pressures=Pressures(), limbs=limbs
+    )
 
 
 def seg(id_: str, **kw: object) -> tuple[str, SegmentFinding]:
@@ -139,13 +140,18 @@ def test_occlusion_runs_on_and_marks_every_segment_it_covers() -> None:
     limb = Limb(
         side=Side.RIGHT,
         segments=dict([seg("CFA", psv=100)]),
-        lesions=(Lesion(at="SFA-P", from_cm=6, occluded=True, length_cm=21,
-                        reconstitutes="POP-AK"),),
+        lesions=(
+            Lesion(at="SFA-P", from_cm=6, occluded=True, length_cm=21, reconstitutes="POP-AK"),
+        ),
     )
     a = assess(make_study(right=limb))
     segs = a.limbs[Side.RIGHT].segments
     assert [segs[s].band for s in ("SFA-P", "SFA-M", "SFA-D", "POP-AK")] == [
-        "occluded", "occluded", "occluded", "not-assessed"]
+        "occluded",
+        "occluded",
+        "occluded",
+        "not-assessed",
+    ]
     les = a.limbs[Side.RIGHT].lesions[0]
     assert les.reconstitution is not None
     assert (les.reconstitution.segment, les.reconstitution.start_cm) == ("POP-AK", 0.0)
@@ -156,8 +162,10 @@ def test_worst_lesion_sets_the_segment_band() -> None:
     limb = Limb(
         side=Side.LEFT,
         segments=dict([seg("CFA", psv=100), seg("SFA-P", psv=100)]),
-        lesions=(Lesion(at="SFA-M", psv=150, length_cm=1),
-                 Lesion(at="SFA-M", from_cm=5, psv=420, length_cm=1)),
+        lesions=(
+            Lesion(at="SFA-M", psv=150, length_cm=1),
+            Lesion(at="SFA-M", from_cm=5, psv=420, length_cm=1),
+        ),
     )
     r = assess(make_study(left=limb)).limbs[Side.LEFT].segments["SFA-M"]
     assert r.band == "75-99" and r.lesions == (0, 1)
@@ -170,8 +178,10 @@ def test_worst_lesion_sets_the_segment_band() -> None:
         (Lesion(at="SFA-M", from_cm=3, length_cm=4), [("SFA-M", 3.0, 7.0)]),
         (Lesion(at="SFA-M", from_cm=7, length_cm=4), [("SFA-M", 7.0, 9.0), ("SFA-D", 0.0, 2.0)]),
         (Lesion(at="SFA-M", psv=200), [("SFA-M", 0.0, 1.0)]),  # no length: focal 1 cm
-        (Lesion(at="POP-BK", occluded=True, reconstitutes="PER-P"),
-         [("POP-BK", 0.0, 7.0), ("TPT", 0.0, 3.0)]),  # follows the tree into the branch
+        (
+            Lesion(at="POP-BK", occluded=True, reconstitutes="PER-P"),
+            [("POP-BK", 0.0, 7.0), ("TPT", 0.0, 3.0)],
+        ),  # follows the tree into the branch
         (Lesion(at="SFA-D", occluded=True), [("SFA-D", 0.0, 9.0)]),
     ],
 )
@@ -194,5 +204,9 @@ def test_shipped_native_set_matches_the_reference_thresholds() -> None:
     c = load_criteria("native")
     # Jager 1985 / Polak 2004 (clinical-values.md, confirmed secondary)
     assert [(b.id, b.vr_min) for b in c.bands if not b.occlusion] == [
-        ("normal", None), ("lt50", 1.3), ("50-74", 2.0), ("75-99", 4.0)]
+        ("normal", None),
+        ("lt50", 1.3),
+        ("50-74", 2.0),
+        ("75-99", 4.0),
+    ]
     assert c.band_ids[-1] == "not-assessed"

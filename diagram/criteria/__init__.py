@@ -208,8 +208,13 @@ def parse_criteria(text: str, file: str, origin: str) -> Criteria:
     for key in raw:
         if key not in _TOP_KEYS:
             near = difflib.get_close_matches(str(key), _TOP_KEYS, n=1)
-            bad(lines.get(key), str(key), None, "is not a criteria field.",
-                f"did you mean {near[0]}?" if near else None)
+            bad(
+                lines.get(key),
+                str(key),
+                None,
+                "is not a criteria field.",
+                f"did you mean {near[0]}?" if near else None,
+            )
     if raw.get("format") != 1:
         bad(lines.get("format"), "format", raw.get("format"), "must be 1.")
     for key in ("name", "title", "source"):
@@ -222,7 +227,11 @@ def parse_criteria(text: str, file: str, origin: str) -> Criteria:
     band_nodes = next((v for k, v in node.value if k.value == "bands"), None)
     bands: list[BandRule] = []
     raw_bands = raw.get("bands")
-    if not isinstance(raw_bands, list) or not raw_bands or not isinstance(band_nodes, yaml.SequenceNode):
+    if (
+        not isinstance(raw_bands, list)
+        or not raw_bands
+        or not isinstance(band_nodes, yaml.SequenceNode)
+    ):
         bad(lines.get("bands", 1), "bands", None, "must be a non-empty list of bands.")
         raw_bands = []
     seen: set[str] = set()
@@ -236,8 +245,13 @@ def parse_criteria(text: str, file: str, origin: str) -> Criteria:
         for key in rb:
             if key not in _BAND_KEYS:
                 near = difflib.get_close_matches(str(key), _BAND_KEYS, n=1)
-                bad(bline, f"{where}.{key}", None, "is not a band field.",
-                    f"did you mean {near[0]}?" if near else None)
+                bad(
+                    bline,
+                    f"{where}.{key}",
+                    None,
+                    "is not a band field.",
+                    f"did you mean {near[0]}?" if near else None,
+                )
         bid, label = rb.get("id"), rb.get("label")
         if not isinstance(bid, str) or not bid or bid == NOT_ASSESSED:
             bad(bline, f"{where}.id", bid, f"must be a text other than {NOT_ASSESSED}.")
@@ -258,19 +272,33 @@ def parse_criteria(text: str, file: str, origin: str) -> Criteria:
         for key in when:
             if key not in _WHEN_KEYS:
                 near = difflib.get_close_matches(str(key), _WHEN_KEYS, n=1)
-                bad(bline, f"{where}.when.{key}", None, "is not a condition.",
-                    f"did you mean {near[0]}?" if near else None)
+                bad(
+                    bline,
+                    f"{where}.when.{key}",
+                    None,
+                    "is not a condition.",
+                    f"did you mean {near[0]}?" if near else None,
+                )
         vr_min, psv_min = when.get("vr_min"), when.get("psv_min")
         for key, val, hi in (("vr_min", vr_min, 50.0), ("psv_min", psv_min, 800.0)):
             if val is not None and (not _is_number(val) or not 0 < val <= hi):
-                bad(bline, f"{where}.when.{key}", val, f"must be a number above 0 and at most {hi:g}.")
+                bad(
+                    bline,
+                    f"{where}.when.{key}",
+                    val,
+                    f"must be a number above 0 and at most {hi:g}.",
+                )
         match = when.get("match", "all")
         if match not in ("all", "any"):
             bad(bline, f"{where}.when.match", match, "must be all or any.")
         if not occlusion and _is_number(vr_min):
             if vr_min <= last_vr:
-                bad(bline, f"{where}.when.vr_min", vr_min,
-                    "must be higher than the vr_min of the milder bands before it.")
+                bad(
+                    bline,
+                    f"{where}.when.vr_min",
+                    vr_min,
+                    "must be higher than the vr_min of the milder bands before it.",
+                )
             last_vr = vr_min
         bands.append(
             BandRule(
@@ -291,8 +319,13 @@ def parse_criteria(text: str, file: str, origin: str) -> Criteria:
     floor = raw.get("lesion_floor")
     if floor is not None and floor not in seen:
         near = difflib.get_close_matches(str(floor), sorted(seen), n=1)
-        bad(lines.get("lesion_floor"), "lesion_floor", floor, "must be one of the set's band ids.",
-            f"did you mean {near[0]}?" if near else None)
+        bad(
+            lines.get("lesion_floor"),
+            "lesion_floor",
+            floor,
+            "must be one of the set's band ids.",
+            f"did you mean {near[0]}?" if near else None,
+        )
     if problems:
         raise CriteriaError(sorted(problems, key=lambda p: (p.line or 0, p.field)))
     return Criteria(
@@ -304,4 +337,3 @@ def parse_criteria(text: str, file: str, origin: str) -> Criteria:
         bands=tuple(bands),
         origin=origin,
     )
-
