@@ -126,9 +126,9 @@ def _build_aliases() -> dict[str, str]:
     for level_word, seg_id in (("AK", "POP-AK"), ("BK", "POP-BK")):
         for pop in ("POP", "popliteal"):
             aliases[_norm(f"{pop} {level_word}")] = seg_id
-        words = "above knee" if level_word == "AK" else "below knee"
-        aliases[_norm(f"popliteal {words}")] = seg_id
-        aliases[_norm(f"{words} popliteal")] = seg_id
+        phrase = "above knee" if level_word == "AK" else "below knee"
+        aliases[_norm(f"popliteal {phrase}")] = seg_id
+        aliases[_norm(f"{phrase} popliteal")] = seg_id
     return aliases
 
 

@@ -52,6 +52,7 @@ class Sample:
     angle: float | None = None  # insonation angle, degrees
     prf_hz: float | None = None  # pulse repetition frequency, Hz
     f0_mhz: float | None = None  # transmitted frequency, MHz
+    shift_hz: float | None = None  # peak systolic Doppler shift, Hz (PSV computed from it)
     waveform: Waveform | None = None
     flow: Flow | None = None
     plaque: Plaque | None = None

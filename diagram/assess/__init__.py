@@ -7,6 +7,7 @@ from pathlib import Path
 from diagram.anatomy import Side
 from diagram.assess.grading import grade_limbs
 from diagram.assess.indices import limb_indices, pressure_findings
+from diagram.assess.quality import quality_findings, with_shift_velocities
 from diagram.assess.results import Assessment, BandDef
 from diagram.criteria import NOT_ASSESSED, Criteria, load_criteria
 from diagram.errors import CriteriaError, Problem, StudyError
@@ -39,8 +40,11 @@ def resolve_criteria(study: Study, override: str | None = None) -> Criteria:
 def assess(study: Study, *, criteria: Criteria | None = None) -> Assessment:
     """Grade every segment and lesion of the study with its criteria set."""
     crit = criteria or resolve_criteria(study)
-    limbs, findings = grade_limbs(study, crit)
+    study, findings = with_shift_velocities(study)
+    limbs, grading_findings = grade_limbs(study, crit)
+    findings.extend(grading_findings)
     indices = {side: limb_indices(study.pressures, side) for side in (Side.RIGHT, Side.LEFT)}
+    findings.extend(quality_findings(study, limbs, crit))
     findings.extend(pressure_findings(study.pressures, indices))
     return Assessment(
         study=study,

@@ -12,7 +12,7 @@ from decimal import ROUND_HALF_UP, Decimal
 from diagram import anatomy
 from diagram.anatomy import SEGMENTS, Side
 from diagram.assess.results import Finding, LesionResult, LimbResult, Reference, SegmentResult, Span
-from diagram.criteria import NOT_ASSESSED, Criteria
+from diagram.criteria import NOT_ASSESSED, Criteria, significant_rank
 from diagram.errors import Problem, StudyError
 from diagram.study import Flow, Lesion, Limb, Sample, Study, Waveform
 
@@ -133,13 +133,7 @@ class _LimbGrader:
         return None
 
     def _significant_rank(self) -> int:
-        """Rank of the first band at or above which a reference sample counts as stenotic."""
-        graded = [b for b in self.criteria.bands if not b.occlusion]
-        floor = self.criteria.lesion_floor
-        # the band after the floor (native: 50-74) is the first haemodynamically significant one
-        if floor is not None:
-            return self.criteria.rank(floor) + 1
-        return graded[1].rank if len(graded) > 1 else 1
+        return significant_rank(self.criteria)
 
     def ratio(self, sample: Sample, segment: str) -> tuple[float | None, str, Reference | None]:
         """Return (Vr, how it was obtained, reference used)."""
@@ -147,6 +141,7 @@ class _LimbGrader:
             return round_vr(sample.vr), "measured", None
         if sample.psv is None:
             return None, "none", None
+        ref: Reference | None
         if sample.proximal_psv is not None:
             ref = Reference(sample.proximal_psv, "proximal_psv", None)
         else:

@@ -123,6 +123,17 @@ class Criteria:
         return found
 
 
+def significant_rank(criteria: Criteria) -> int:
+    """Return the rank from which a band counts as haemodynamically significant.
+
+    That is the band after the lesion floor (native: 50-74), else the second band.
+    """
+    if criteria.lesion_floor is not None:
+        return criteria.rank(criteria.lesion_floor) + 1
+    graded = [b for b in criteria.bands if not b.occlusion]
+    return graded[1].rank if len(graded) > 1 else 1
+
+
 def shipped_names() -> tuple[str, ...]:
     """Return the names of the criteria sets shipped with the package."""
     folder = resources.files("diagram.criteria")
@@ -191,13 +202,13 @@ def parse_criteria(text: str, file: str, origin: str) -> Criteria:
         # Refuse anchors and aliases before anything is built: they are how a YAML bomb expands.
         for event in yaml.parse(text, Loader=yaml.SafeLoader):
             if isinstance(event, yaml.AliasEvent) or getattr(event, "anchor", None):
-                line = event.start_mark.line + 1
+                at: Any = event.start_mark
                 raise CriteriaError(
-                    [Problem(file, line, "", None, "must not use YAML anchors or aliases.")]
+                    [Problem(file, at.line + 1, "", None, "must not use YAML anchors or aliases.")]
                 )
         node = yaml.compose(text, Loader=yaml.SafeLoader)
     except yaml.YAMLError as exc:
-        mark = getattr(exc, "problem_mark", None)
+        mark: Any = getattr(exc, "problem_mark", None)
         line = mark.line + 1 if mark is not None else None
         raise CriteriaError([Problem(file, line, "", None, "is not valid YAML.")]) from None
     if node is None or not isinstance(node, yaml.MappingNode):
@@ -279,7 +290,8 @@ def parse_criteria(text: str, file: str, origin: str) -> Criteria:
                     "is not a condition.",
                     f"did you mean {near[0]}?" if near else None,
                 )
-        vr_min, psv_min = when.get("vr_min"), when.get("psv_min")
+        vr_min: Any = when.get("vr_min")
+        psv_min: Any = when.get("psv_min")
         for key, val, hi in (("vr_min", vr_min, 50.0), ("psv_min", psv_min, 800.0)):
             if val is not None and (not _is_number(val) or not 0 < val <= hi):
                 bad(
