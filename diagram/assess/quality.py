@@ -116,7 +116,8 @@ def _sample_checks(side: Side, what: str, seg: str, s: Sample) -> list[Finding]:
             )
         )
     if s.prf_hz is not None and s.f0_mhz is not None and angle < 90:
-        limit = nyquist_velocity(s.prf_hz, s.f0_mhz, angle)
+        # rounded to 0.1 cm/s so that a PSV equal to the stated limit is not flagged
+        limit = round(nyquist_velocity(s.prf_hz, s.f0_mhz, angle), 1)
         if s.psv is not None and s.psv > limit:
             out.append(
                 Finding(
