@@ -9,6 +9,7 @@ changed on the way in is a segment alias, resolved to its canonical id.
 
 from __future__ import annotations
 
+import dataclasses
 import datetime as dt
 import difflib
 import functools
@@ -37,6 +38,7 @@ from diagram.study import (
     Patient,
     Plaque,
     Pressures,
+    Sample,
     SegmentFinding,
     Stent,
     Study,
@@ -182,13 +184,18 @@ def _screen_events(events: Iterator[yaml.Event]) -> None:
             raise _Refused(line, f"holds more than {MAX_NODES} values.")
         if event.anchor is not None:
             sign = "*" if isinstance(event, yaml.AliasEvent) else "&"
-            raise _Refused(line, f"uses a YAML anchor or alias ({sign}{event.anchor}): anchors and "
-                           "aliases are not allowed in a study file; write each value out.")
+            raise _Refused(
+                line,
+                f"uses a YAML anchor or alias ({sign}{event.anchor}): anchors and "
+                "aliases are not allowed in a study file; write each value out.",
+            )
         tag = getattr(event, "tag", None)
         if tag is not None:
             tag = re.sub(r"^tag:yaml\.org,2002:", "!!", tag)
-            raise _Refused(line, f"uses an explicit YAML tag ({tag}): tags are not allowed; "
-                           "quote text instead.")
+            raise _Refused(
+                line,
+                f"uses an explicit YAML tag ({tag}): tags are not allowed; quote text instead.",
+            )
         if isinstance(event, yaml.CollectionStartEvent):
             depth += 1
             if depth > MAX_DEPTH:
@@ -209,10 +216,15 @@ def _yaml_value(node: yaml.Node, loc: Loc, out: _Parsed, ctor: Any) -> object:
             key = key_node.value  # keys as written: `no:` stays the text "no"
             if key in mapping:
                 first = out.lines[(*loc, key)]
-                out.problems.append(Problem(
-                    "", line, _dotted((*loc, key)), None,
-                    f"is given twice (first on line {first}): give each key once.",
-                ))
+                out.problems.append(
+                    Problem(
+                        "",
+                        line,
+                        _dotted((*loc, key)),
+                        None,
+                        f"is given twice (first on line {first}): give each key once.",
+                    )
+                )
                 continue
             out.lines[(*loc, key)] = line
             mapping[key] = _yaml_value(value_node, (*loc, key), out, ctor)
@@ -226,9 +238,15 @@ def _yaml_value(node: yaml.Node, loc: Loc, out: _Parsed, ctor: Any) -> object:
     try:
         value: object = ctor.construct_object(node)
     except ValueError:
-        out.problems.append(Problem(
-            "", out.lines[loc], _dotted(loc), node.value[:40], "is not a number this tool can read."
-        ))
+        out.problems.append(
+            Problem(
+                "",
+                out.lines[loc],
+                _dotted(loc),
+                node.value[:40],
+                "is not a number this tool can read.",
+            )
+        )
         return None
     return value
 
@@ -305,11 +323,16 @@ def _parse_json(text: str) -> _Parsed:
             mapping: dict[str, object] = {}
             for key, item in at.value:
                 if key in mapping:
-                    parsed.problems.append(Problem(
-                        "", bisect_right(starts, item.start) + 1, _dotted((*loc, key)), None,
-                        f"is given twice (first on line {parsed.lines[(*loc, key)]}): "
-                        "give each key once.",
-                    ))
+                    parsed.problems.append(
+                        Problem(
+                            "",
+                            bisect_right(starts, item.start) + 1,
+                            _dotted((*loc, key)),
+                            None,
+                            f"is given twice (first on line {parsed.lines[(*loc, key)]}): "
+                            "give each key once.",
+                        )
+                    )
                     continue
                 mapping[key] = unwrap(item, (*loc, key))
             return mapping
@@ -325,7 +348,7 @@ def _parse_json(text: str) -> _Parsed:
 
 # --- checks -----------------------------------------------------------------------------------
 
-_SAMPLE_VELOCITIES = ("psv", "edv", "vr", "proximal_psv")
+_MEASURED = ("psv", "edv", "vr", "proximal_psv", "shift_hz")  # none of them where no flow
 _TYPE_RULES = {
     "number": "must be a number",
     "integer": "must be a whole number",
@@ -406,8 +429,9 @@ class _Checker:
         number = _number(value)
         return _num(number) if number is not None else repr(value)
 
-    def report(self, loc: Loc, rule: str, value: object = _NO_VALUE, *,
-               hint: str | None = None) -> None:
+    def report(
+        self, loc: Loc, rule: str, value: object = _NO_VALUE, *, hint: str | None = None
+    ) -> None:
         if any(loc[:end] in self.bad for end in range(len(loc) + 1)):
             return  # one problem per value, none inside a value already refused
         line = self.line(loc)
@@ -495,6 +519,8 @@ class _Checker:
         raw = self.parsed.raw.get(loc, "")
         if isinstance(value, bool) and raw.lower() in _YAML_BOOLEAN_WORDS:
             advice = "quote text" if expected == "string" else f"give a {expected}"
+            if _private(loc):  # say it without echoing the value
+                return f"YAML reads yes, no, on and off as true or false; {advice}"
             return f"YAML reads {raw} as {str(value).lower()}; {advice}"
         if expected == "number" and isinstance(value, str):
             text = value.strip()
@@ -521,8 +547,12 @@ class _Checker:
         elif self.parsed.kind == "yaml" and isinstance(value, int | float):
             raw = self.parsed.raw.get(loc, "")
             if raw and not isinstance(value, bool) and not _PLAIN_DECIMAL.fullmatch(raw):
-                self.report(loc, "must be written as a plain decimal number.", value,
-                            hint=f"YAML 1.1 reads {raw} as {_num(value)}")
+                self.report(
+                    loc,
+                    "must be written as a plain decimal number.",
+                    value,
+                    hint=f"YAML 1.1 reads {raw} as {_num(value)}",
+                )
 
     def date(self, loc: Loc, text: str) -> None:
         try:
@@ -539,8 +569,12 @@ class _Checker:
         seg = anatomy.resolve(name)
         if seg is None:
             close = anatomy.suggest(name)
-            self.report(loc, "is not a segment id or alias.", name if shown else _NO_VALUE,
-                        hint=f"did you mean {close}?" if close else None)
+            self.report(
+                loc,
+                "is not a segment id or alias.",
+                name if shown else _NO_VALUE,
+                hint=f"did you mean {close}?" if close else None,
+            )
         return seg
 
     def limbs(self, limbs: dict[str, object]) -> None:
@@ -557,8 +591,11 @@ class _Checker:
                     loc = (*base, "segments", key)
                     seg = self.segment(loc, key, shown=False)
                     if seg is not None and seg in first:
-                        self.report(loc, f"names the same segment as {first[seg][-1]!r} "
-                                    f"(line {self.line(first[seg])}): give each segment once.")
+                        self.report(
+                            loc,
+                            f"names the same segment as {first[seg][-1]!r} "
+                            f"(line {self.line(first[seg])}): give each segment once.",
+                        )
                     elif seg is not None:
                         first[seg] = loc
                     if seg == "AO":
@@ -578,9 +615,12 @@ class _Checker:
             sides = sorted(aorta, key=lambda s: self.line(aorta[s][0]) or 0)
             other = aorta[sides[0]][0]
             for loc in aorta[sides[1]]:
-                self.report(loc, f"is refused: the aorta is unpaired and is already under "
-                            f"limbs.{sides[0]} (line {self.line(other)}); record AO under one "
-                            "limb only.")
+                self.report(
+                    loc,
+                    f"is refused: the aorta is unpaired and is already under "
+                    f"limbs.{sides[0]} (line {self.line(other)}); record AO under one "
+                    "limb only.",
+                )
 
     @staticmethod
     def items(limb: dict[str, object], key: str) -> list[dict[str, object]]:
@@ -590,12 +630,17 @@ class _Checker:
     def sample(self, loc: Loc, sample: dict[str, object], noun: str) -> None:
         psv, edv = _number(sample.get("psv")), _number(sample.get("edv"))
         if psv is not None and edv is not None and edv > psv:
-            self.report((*loc, "edv"), f"is above the PSV ({_num(psv)}): EDV cannot exceed PSV.",
-                        sample["edv"])
-        for flag, why in (("occluded", f"an occluded {noun} has no velocity"),
-                          ("not_assessed", f"a {noun} not assessed has no measurements")):
+            self.report(
+                (*loc, "edv"),
+                f"is above the PSV ({_num(psv)}): EDV cannot exceed PSV.",
+                sample["edv"],
+            )
+        for flag, why in (
+            ("occluded", f"an occluded {noun} has no velocity"),
+            ("not_assessed", f"a {noun} not assessed has no measurements"),
+        ):
             if sample.get(flag) is True:
-                for key in _SAMPLE_VELOCITIES if flag == "not_assessed" else ("psv", "edv"):
+                for key in _MEASURED if flag == "not_assessed" else ("psv", "edv", "shift_hz"):
                     if key in sample:
                         self.report((*loc, key), f"is refused: {why}.", sample[key])
 
@@ -604,15 +649,22 @@ class _Checker:
         nominal = anatomy.SEGMENTS[seg].length_cm
         start = _number(item.get("from_cm"))
         if start is not None and start > nominal and (*loc, "from_cm") not in self.bad:
-            self.report((*loc, "from_cm"), f"is beyond the end of {seg} "
-                        f"(nominal length {_num(nominal)} cm).", item["from_cm"])
+            self.report(
+                (*loc, "from_cm"),
+                f"is beyond the end of {seg} (nominal length {_num(nominal)} cm).",
+                item["from_cm"],
+            )
             return
         length = _number(item.get("length_cm"))
         remaining = anatomy.remaining_length_cm(seg, start or 0.0)
         if length is not None and length > remaining:
             where = f"{seg} at {_num(start)} cm" if start else f"the start of {seg}"
-            self.report((*loc, "length_cm"), f"is longer than the limb: {_num(remaining)} cm "
-                        f"remain below {where} (nominal lengths).", item["length_cm"])
+            self.report(
+                (*loc, "length_cm"),
+                f"is longer than the limb: {_num(remaining)} cm "
+                f"remain below {where} (nominal lengths).",
+                item["length_cm"],
+            )
 
     def lesion(self, loc: Loc, lesion: dict[str, object]) -> str | None:
         self.sample(loc, lesion, "lesion")
@@ -625,11 +677,18 @@ class _Checker:
         if target is None:
             return seg
         if lesion.get("occluded") is not True:
-            self.report((*loc, "reconstitutes"), "is refused: only an occluded lesion "
-                        "reconstitutes.", lesion["reconstitutes"], hint="add occluded: true")
+            self.report(
+                (*loc, "reconstitutes"),
+                "is refused: only an occluded lesion reconstitutes.",
+                lesion["reconstitutes"],
+                hint="add occluded: true",
+            )
         elif seg is not None and not anatomy.is_downstream(target, seg):
-            self.report((*loc, "reconstitutes"), f"is not downstream of {seg}, where the "
-                        "occlusion starts.", lesion["reconstitutes"])
+            self.report(
+                (*loc, "reconstitutes"),
+                f"is not downstream of {seg}, where the occlusion starts.",
+                lesion["reconstitutes"],
+            )
         return seg
 
     def stent(self, loc: Loc, stent: dict[str, object]) -> None:
@@ -637,11 +696,18 @@ class _Checker:
         end = self.segment((*loc, "to"), stent.get("to"))
         if start is not None:
             self.extent(loc, start, stent)
-        if start is not None and end is not None and end != start and (
-            not anatomy.is_downstream(end, start)
+        if (
+            start is not None
+            and end is not None
+            and end != start
+            and (not anatomy.is_downstream(end, start))
         ):
-            self.report((*loc, "to"), f"is not on one path downstream of {start}: a stent runs "
-                        "from a segment down to the same or a downstream one.", stent["to"])
+            self.report(
+                (*loc, "to"),
+                f"is not on one path downstream of {start}: a stent runs "
+                "from a segment down to the same or a downstream one.",
+                stent["to"],
+            )
 
 
 # --- building the study -----------------------------------------------------------------------
@@ -655,18 +721,25 @@ def _date(value: Any) -> dt.date | None:
     return None if value is None else dt.date.fromisoformat(value)
 
 
+_ENUMS: dict[str, type[Waveform | Flow | Plaque]] = {
+    "waveform": Waveform,
+    "flow": Flow,
+    "plaque": Plaque,
+}
+_FLAGS_AND_TEXT = ("occluded", "not_assessed", "band", "comment")
+
+
 def _sample_fields(item: dict[str, Any], line: int | None) -> dict[str, Any]:
-    fields: dict[str, Any] = {key: _float(item.get(key)) for key in (
-        "psv", "edv", "vr", "proximal_psv", "angle", "prf_hz", "f0_mhz")}
-    for key, enum in (("waveform", Waveform), ("flow", Flow), ("plaque", Plaque)):
-        fields[key] = enum(item[key]) if key in item else None
-    fields.update(
-        occluded=item.get("occluded", False),
-        not_assessed=item.get("not_assessed", False),
-        band=item.get("band"),
-        comment=item.get("comment"),
-        line=line,
-    )
+    """Return every Sample field from a checked mapping: numbers as floats, words as enums."""
+    fields: dict[str, Any] = {"line": line}
+    for name in (f.name for f in dataclasses.fields(Sample) if f.name != "line"):
+        if name not in item:
+            continue
+        value = item[name]
+        if name in _ENUMS:
+            fields[name] = _ENUMS[name](value)
+        else:
+            fields[name] = value if name in _FLAGS_AND_TEXT else float(value)
     return fields
 
 

@@ -1,0 +1,480 @@
+"""Study loading: every invalid fixture gives its exact lines; valid files give exact values."""
+
+from __future__ import annotations
+
+import datetime as dt
+import subprocess
+import sys
+from pathlib import Path
+
+import jsonschema
+import pytest
+
+from diagram import anatomy
+from diagram.anatomy import Side
+from diagram.errors import StudyError
+from diagram.load import MAX_BYTES, load_study, load_study_text, study_schema
+from diagram.study import (
+    Exam,
+    Flow,
+    Graft,
+    Lesion,
+    Limb,
+    LimbPressures,
+    Patient,
+    Plaque,
+    Pressures,
+    SegmentFinding,
+    Stent,
+    Study,
+    Waveform,
+)
+
+ROOT = Path(__file__).resolve().parent.parent
+INVALID = sorted(
+    p.relative_to(ROOT).as_posix()
+    for p in (ROOT / "tests/data/invalid").iterdir()
+    if p.suffix != ".expected"
+)
+VALID = sorted(p.relative_to(ROOT).as_posix() for p in (ROOT / "tests/data/valid").iterdir())
+
+
+@pytest.fixture(autouse=True)
+def _at_root(monkeypatch: pytest.MonkeyPatch) -> None:
+    """Run from the repository root so that messages show the relative paths the tests pass."""
+    monkeypatch.chdir(ROOT)
+
+
+def problems(path: str) -> list[str]:
+    """Return the lines of the StudyError; any other exception fails the test with its traceback."""
+    with pytest.raises(StudyError) as caught:
+        load_study(path)
+    return caught.value.lines()
+
+
+def problems_text(text: str, name: str = "mem.yaml") -> list[str]:
+    with pytest.raises(StudyError) as caught:
+        load_study_text(text, name, Path(name).suffix)
+    return caught.value.lines()
+
+
+# --- invalid fixtures -------------------------------------------------------------------------
+
+
+def test_the_invalid_folder_covers_the_contract() -> None:
+    assert len(INVALID) >= 24
+    for path in INVALID:
+        assert (ROOT / path).with_suffix(".expected").is_file(), path
+
+
+@pytest.mark.parametrize("path", INVALID)
+def test_invalid_fixture_gives_its_expected_lines(path: str) -> None:
+    expected = (ROOT / path).with_suffix(".expected").read_text("utf-8").splitlines()
+    assert expected, "an .expected file lists at least one problem"
+    lines = problems(path)
+    assert lines == expected
+    numbered = [int(line.split(":")[1]) for line in lines if line.split(":")[1].isdigit()]
+    assert numbered == sorted(numbered), "problems are reported in file order"
+
+
+@pytest.mark.parametrize("path", INVALID)
+def test_invalid_fixture_from_memory_gives_the_same_lines(path: str) -> None:
+    data = (ROOT / path).read_bytes()
+    if len(data) > MAX_BYTES or b"\0" in data:
+        pytest.skip("not text")
+    expected = (ROOT / path).with_suffix(".expected").read_text("utf-8").splitlines()
+    with pytest.raises(StudyError) as caught:
+        load_study_text(data.decode("utf-8"), path, Path(path).suffix)
+    assert caught.value.lines() == expected
+
+
+def test_every_problem_of_a_file_is_reported_at_once() -> None:
+    lines = problems("tests/data/invalid/many_problems.yaml")
+    assert [line.split(":")[1] for line in lines] == ["3", "7", "8", "12", "16", "18"]
+
+
+def test_patient_identifiers_are_never_echoed() -> None:
+    text = "\n".join(problems("tests/data/invalid/patient_identifiers.yaml"))
+    for secret in ("1234567", "14.03.1948", "99887766", "1.2.840.0099.1", "'F'", "'no'", "no as"):
+        assert secret not in text
+    assert "patient.birth_date: must be a date written YYYY-MM-DD." in text
+
+
+# --- files refused as a whole -------------------------------------------------------------------
+
+
+def test_binary_file_is_refused(tmp_path: Path) -> None:
+    path = tmp_path / "scan.yaml"
+    path.write_bytes(b"format: 1\nnotes: x\x00\x01\x02\xff\n")
+    assert problems(str(path)) == [
+        f"{path}:2: (file): is a binary file (it holds NUL bytes), not a YAML or JSON study."
+    ]
+
+
+def test_undecodable_utf8_is_refused(tmp_path: Path) -> None:
+    path = tmp_path / "latin1.yaml"
+    path.write_bytes("format: 1\nnotes: café\n".encode("latin-1"))
+    assert problems(str(path)) == [f"{path}:2: (file): is not UTF-8 text (byte 0xe9)."]
+
+
+@pytest.mark.parametrize(
+    ("size", "accepted"),
+    [(MAX_BYTES - 1, True), (MAX_BYTES, True), (MAX_BYTES + 1, False), (3 * MAX_BYTES, False)],
+)
+def test_size_limit_is_2_mb(tmp_path: Path, size: int, accepted: bool) -> None:
+    # common practice: a study file is a few kilobytes; 2 MB bounds the work of a hostile file
+    head = b'format: 1\nnotes: "'
+    path = tmp_path / "big.yaml"
+    path.write_bytes(head + b"x" * (size - len(head) - 2) + b'"\n')
+    assert path.stat().st_size == size
+    if accepted:
+        assert load_study(path).notes is not None
+    else:
+        assert problems(str(path)) == [
+            f"{path}: (file): is over the 2 MB size limit for a study file (2097152 bytes)."
+        ]
+
+
+def test_missing_file_is_a_problem_not_a_traceback(tmp_path: Path) -> None:
+    path = tmp_path / "absent.yaml"
+    assert problems(str(path)) == [f"{path}: (file): cannot be read: No such file or directory."]
+
+
+@pytest.mark.parametrize(
+    ("text", "name", "expected"),
+    [
+        ("[" * 21 + "]" * 21, "deep.json", "deep.json:1: (file): is nested deeper than 20 levels."),
+        ("[" * 100_000 + "]" * 100_000, "deeper.json",
+         "deeper.json:1: (file): is nested deeper than 20 levels."),
+        ("notes: " + "[" * 21 + "]" * 21, "deep.yaml",
+         "deep.yaml:1: (file): is nested deeper than 20 levels."),
+        ("[" + ",".join(["1"] * 10_000) + "]", "wide.json",
+         "wide.json:1: (file): holds more than 10000 values."),
+        ("notes: [" + ",".join(["1"] * 10_000) + "]", "wide.yaml",
+         "wide.yaml:1: (file): holds more than 10000 values."),
+        ("format: 1\nnotes: *x\n", "alias.yaml",
+         "alias.yaml:2: (file): uses a YAML anchor or alias (*x): anchors and aliases are not "
+         "allowed in a study file; write each value out."),
+        ('{"format": 1, "psv": 1' + "0" * 5000 + "}", "huge.json",
+         "huge.json: (file): is not valid JSON: Exceeds the limit (4300 digits) for integer "
+         "string conversion: value has 5001 digits; use sys.set_int_max_str_digits() to "
+         "increase the limit."),
+    ],
+)
+def test_hostile_structure_is_refused_before_building(text: str, name: str, expected: str) -> None:
+    assert problems_text(text, name) == [expected]
+
+
+def test_nesting_at_the_limit_is_parsed() -> None:
+    # 20 levels: the root mapping and 19 lists; then only the ordinary problems
+    text = "notes: " + "[" * 19 + "]" * 19
+    assert problems_text(text) == [
+        "mem.yaml:1: format: is required.",
+        "mem.yaml:1: notes: must be text.",
+    ]
+
+
+def test_a_whitespace_only_text_is_empty() -> None:
+    assert problems_text(" \n\t\n") == ["mem.yaml: (file): is empty."]
+
+
+# --- boundaries ----------------------------------------------------------------------------------
+
+
+def one_segment(sample: str, segment: str = "CFA") -> str:
+    return f"format: 1\nlimbs:\n  right:\n    segments:\n      {segment}: {{{sample}}}\n"
+
+
+@pytest.mark.parametrize(
+    ("sample", "rule"),
+    [
+        # common practice: no human artery shows a PSV or EDV above 800 cm/s
+        ("psv: 799.9", None),
+        ("psv: 800", None),
+        ("psv: 800.1", "800.1 is refused: PSV above 800 cm/s is not physiological."),
+        ("psv: 800, edv: 800", None),
+        ("psv: 800, edv: 801", "801 is refused: EDV above 800 cm/s is not physiological."),
+        ("psv: 0", None),
+        ("psv: -0.1", "-0.1 must not be negative."),
+        # an EDV above the PSV cannot happen in one cardiac cycle (common practice)
+        ("psv: 120, edv: 120", None),
+        ("psv: 120, edv: 120.5", "120.5 is above the PSV (120): EDV cannot exceed PSV."),
+        # the insonation angle is measured between beam and flow, 0 to 90 degrees (physics)
+        ("angle: 0", None),
+        ("angle: 90", None),
+        ("angle: 90.5", "90.5 must be between 0 and 90 degrees."),
+        ("angle: -1", "-1 must be between 0 and 90 degrees."),
+        ("vr: 0.01", None),
+        ("vr: 0", "0 must be greater than 0."),
+        ("psv: true", "true must be a number."),
+        ("occluded: 1", "1 must be true or false."),
+    ],
+)
+def test_sample_value_boundaries(sample: str, rule: str | None) -> None:
+    text = one_segment(sample)
+    if rule is None:
+        load_study_text(text, "mem.yaml", ".yaml")
+        return
+    lines = problems_text(text)
+    assert len(lines) == 1
+    assert lines[0].startswith("mem.yaml:5: limbs.right.segments.CFA.")
+    assert lines[0].endswith(f": {rule}")
+
+
+@pytest.mark.parametrize(
+    ("value", "accepted"),
+    [(0, True), (399.9, True), (400, True), (400.1, False), (-1, False)],
+)
+def test_pressure_boundaries(value: float, accepted: bool) -> None:
+    # common practice: no limb systolic pressure above 400 mmHg
+    text = f"format: 1\npressures:\n  left: {{toe: {value}}}\n"
+    if accepted:
+        assert load_study_text(text, "p.yaml", ".yaml").pressures.left.toe == value
+    else:
+        assert len(problems_text(text)) == 1
+
+
+@pytest.mark.parametrize(
+    ("at", "from_cm", "length_cm", "accepted"),
+    [
+        # nominal lengths from anatomy.py (from memory): SFA-M 9 cm; SFA-M to the plantar arch
+        # along the posterior tibial: 9+9+9+7+3+30+6 = 73 cm
+        ("SFA-M", 9, 0.5, True),
+        ("SFA-M", 9.01, 0.5, False),
+        ("SFA-M", 0, 73, True),
+        ("SFA-M", 0, 73.01, False),
+        ("SFA-M", 3, 70, True),
+        ("SFA-M", 3, 70.5, False),
+        ("PER-D", 0, 7.5, True),  # the peroneal ends at PER-D
+        ("PER-D", 0, 7.6, False),
+    ],
+)
+def test_lesion_extent_boundaries(
+    at: str, from_cm: float, length_cm: float, accepted: bool
+) -> None:
+    assert anatomy.remaining_length_cm("SFA-M") == 73
+    text = (
+        "format: 1\nlimbs:\n  left:\n    lesions:\n"
+        f"      - {{at: {at}, from_cm: {from_cm}, length_cm: {length_cm}}}\n"
+    )
+    if accepted:
+        study = load_study_text(text, "l.yaml", ".yaml")
+        assert study.limb(Side.LEFT).lesions[0].length_cm == length_cm
+    else:
+        assert len(problems_text(text)) == 1
+
+
+@pytest.mark.parametrize(
+    ("start", "end", "accepted"),
+    [
+        ("SFA-D", "SFA-D", True),
+        ("SFA-D", "POP-AK", True),
+        ("POP-BK", "ATA-P", True),  # a branch below the start is on one path
+        ("POP-AK", "SFA-D", False),
+        ("PTA-P", "PER-P", False),  # siblings
+    ],
+)
+def test_stent_runs_down_one_path(start: str, end: str, accepted: bool) -> None:
+    text = f"format: 1\nlimbs:\n  left:\n    stents: [{{from: {start}, to: {end}}}]\n"
+    if accepted:
+        stent = load_study_text(text, "s.yaml", ".yaml").limb(Side.LEFT).stents[0]
+        assert (stent.from_, stent.to, stent.line) == (start, end, 4)
+    else:
+        assert len(problems_text(text)) == 1
+
+
+@pytest.mark.parametrize(
+    ("at", "target", "accepted"),
+    [("POP-AK", "POP-BK", True), ("POP-AK", "PER-D", True), ("POP-AK", "POP-AK", False),
+     ("POP-AK", "SFA-D", False), ("ATA-P", "PTA-P", False)],
+)
+def test_reconstitution_is_strictly_downstream(at: str, target: str, accepted: bool) -> None:
+    text = (
+        "format: 1\nlimbs:\n  left:\n    lesions:\n"
+        f"      - {{at: {at}, occluded: true, reconstitutes: {target}}}\n"
+    )
+    if accepted:
+        lesion = load_study_text(text, "r.yaml", ".yaml").limb(Side.LEFT).lesions[0]
+        assert lesion.reconstitutes == target
+    else:
+        assert len(problems_text(text)) == 1
+
+
+@pytest.mark.parametrize(
+    ("written", "accepted"),
+    [("2026-11-20", True), ("2024-02-29", True), ("2026-02-29", False), ("2026-13-01", False),
+     ("2026-1-5", False), ("2026-11-20 10:30:00", False), ("20261120", False)],
+)
+def test_dates_are_iso_calendar_dates_in_yaml_and_json(written: str, accepted: bool) -> None:
+    for text, name in ((f"format: 1\nexam:\n  date: {written}\n", "d.yaml"),
+                       (f'{{"format": 1, "exam": {{"date": "{written}"}}}}', "d.json")):
+        if accepted:
+            study = load_study_text(text, name, Path(name).suffix)
+            assert study.exam.date == dt.date.fromisoformat(written)
+        else:
+            assert len(problems_text(text, name)) == 1
+
+
+# --- valid studies ---------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    ("written", "canonical"),
+    [
+        ("sfa mid", "SFA-M"),
+        ("FA-D", "SFA-D"),
+        ("fibular distal", "PER-D"),
+        ("Superficial Femoral Proximal", "SFA-P"),
+        ("pop ak", "POP-AK"),
+        ("posterior tibial mid", "PTA-M"),
+        ("Common Femoral", "CFA"),
+    ],
+)
+def test_segment_aliases_resolve_to_canonical_ids(written: str, canonical: str) -> None:
+    study = load_study("tests/data/valid/aliases.yaml")
+    segments = study.limb(Side.RIGHT).segments
+    assert written not in segments
+    assert segments[canonical].id == canonical
+
+
+def test_aliases_in_references_resolve_too() -> None:
+    limb = load_study("tests/data/valid/aliases.yaml").limb(Side.RIGHT)
+    assert (limb.lesions[0].at, limb.lesions[0].reconstitutes) == ("POP-BK", "TPT")
+    assert (limb.stents[0].from_, limb.stents[0].to) == ("SFA-P", "SFA-D")
+    assert (limb.grafts[0].from_, limb.grafts[0].to) == ("CFA", "POP-AK")
+    assert list(limb.segments) == ["SFA-M", "SFA-D", "PER-D", "SFA-P", "POP-AK", "PTA-M", "CFA"]
+
+
+def expected_full(source: str, yaml_lines: bool) -> Study:
+    """The full demo study as values; lines are those of full.yaml or of full.json."""
+    line = (
+        {"AO": 24, "CFA": 25, "SFA-P": 26, "L-CFA": 29, "L-SFA-P": 30, "SFA-D": 31,
+         "PER-M": 32, "ATA-D": 33, "les0": 35, "les1": 42, "stent": 46, "graft": 47}
+        if yaml_lines else
+        {"AO": 38, "CFA": 42, "SFA-P": 46, "L-CFA": 56, "L-SFA-P": 63, "SFA-D": 67,
+         "PER-M": 72, "ATA-D": 75, "les0": 81, "les1": 90, "stent": 98, "graft": 106}
+    )
+    right = Limb(
+        side=Side.RIGHT,
+        segments={
+            "AO": SegmentFinding(psv=98.0, waveform=Waveform.TRIPHASIC, line=line["AO"], id="AO"),
+            "CFA": SegmentFinding(psv=112.0, waveform=Waveform.TRIPHASIC, line=line["CFA"],
+                                  id="CFA"),
+            "SFA-P": SegmentFinding(psv=90.5, edv=0.0, waveform=Waveform.TRIPHASIC,
+                                    flow=Flow.ANTEGRADE, line=line["SFA-P"], id="SFA-P"),
+        },
+    )
+    left = Limb(
+        side=Side.LEFT,
+        segments={
+            "CFA": SegmentFinding(psv=105.0, waveform=Waveform.TRIPHASIC, angle=60.0,
+                                  prf_hz=10000.0, f0_mhz=5.0, line=line["L-CFA"], id="CFA"),
+            "SFA-P": SegmentFinding(psv=88.0, waveform=Waveform.TRIPHASIC, line=line["L-SFA-P"],
+                                    id="SFA-P"),
+            "SFA-D": SegmentFinding(psv=45.0, waveform=Waveform.MONOPHASIC, comment="damped",
+                                    line=line["SFA-D"], id="SFA-D"),
+            "PER-M": SegmentFinding(not_assessed=True, line=line["PER-M"], id="PER-M"),
+            "ATA-D": SegmentFinding(band="75-99", plaque=Plaque.MIXED, line=line["ATA-D"],
+                                    id="ATA-D"),
+        },
+        lesions=(
+            Lesion(psv=390.0, edv=40.0, proximal_psv=92.0, plaque=Plaque.CALCIFIED,
+                   line=line["les0"], at="SFA-M", from_cm=3.0, length_cm=4.0),
+            Lesion(occluded=True, line=line["les1"], at="POP-AK", length_cm=6.0,
+                   reconstitutes="POP-BK"),
+        ),
+        stents=(Stent(from_="SFA-D", to="POP-AK", from_cm=2.0, length_cm=10.0,
+                      line=line["stent"]),),
+        grafts=(Graft(conduit="vein", from_="CFA", to="POP-BK", line=line["graft"]),),
+    )
+    return Study(
+        source=source,
+        patient=Patient(name="Demo, Ada", id="D-0001", birth_date=dt.date(1948, 3, 14),
+                        sex="female"),
+        exam=Exam(date=dt.date(2026, 11, 20), accession="X-1234", site="Example Vascular Lab",
+                  operator="A. Sonographer", referrer="B. Referrer",
+                  indication="Left calf claudication at 100 m", criteria="native",
+                  study_uid="1.2.826.0.1.3680043.2.1143.1"),
+        pressures=Pressures(brachial_right=142.0, brachial_left=136.0,
+                            right=LimbPressures(pt=120.0, dp=118.0, toe=88.0),
+                            left=LimbPressures(pt=74.0, dp=70.0, toe=40.0)),
+        limbs={Side.RIGHT: right, Side.LEFT: left},
+        prior="../2026-05-02/study.yaml",
+        notes="free text",
+        format=1,
+    )
+
+
+def test_full_yaml_study_gives_exact_values() -> None:
+    study = load_study("tests/data/valid/full.yaml")
+    assert study == expected_full("tests/data/valid/full.yaml", yaml_lines=True)
+    psv = study.limb(Side.LEFT).lesions[0].psv
+    assert isinstance(psv, float) and not isinstance(study.format, bool)
+
+
+def test_full_json_study_gives_exact_values_with_lines() -> None:
+    study = load_study(Path("tests/data/valid/full.json"))
+    assert study == expected_full("tests/data/valid/full.json", yaml_lines=False)
+
+
+def test_source_is_the_path_as_given() -> None:
+    path = "tests/data/valid/minimal.json"
+    assert load_study(Path(path)).source == path
+    assert load_study_text('{"format": 1}', "editor buffer", "json").source == "editor buffer"
+
+
+def test_minimal_study_has_defaults() -> None:
+    study = load_study("tests/data/valid/minimal.json")
+    assert study.exam.criteria == "native"
+    assert study.limbs == {}
+    assert study.limb(Side.LEFT) == Limb(side=Side.LEFT)
+
+
+# --- the schema ------------------------------------------------------------------------------
+
+
+def test_schema_is_a_valid_draft_2020_12_schema() -> None:
+    schema = study_schema()
+    jsonschema.Draft202012Validator.check_schema(schema)
+    assert schema["$schema"] == "https://json-schema.org/draft/2020-12/schema"
+    schema["mutated"] = True
+    assert "mutated" not in study_schema()
+
+
+@pytest.mark.parametrize("path", [p for p in VALID if p.endswith(".json")])
+def test_valid_json_files_pass_the_published_schema(path: str) -> None:
+    import json
+
+    validator = jsonschema.Draft202012Validator(study_schema())
+    assert list(validator.iter_errors(json.loads((ROOT / path).read_text("utf-8")))) == []
+
+
+def test_every_object_in_the_schema_forbids_unknown_keys() -> None:
+    def objects(node: object) -> list[dict[str, object]]:
+        if isinstance(node, dict):
+            found = [node] if node.get("type") == "object" else []
+            return found + [o for v in node.values() for o in objects(v)]
+        if isinstance(node, list):
+            return [o for v in node for o in objects(v)]
+        return []
+
+    found = objects(study_schema())
+    assert len(found) > 10
+    for obj in found:
+        assert obj["additionalProperties"] is False or isinstance(obj["additionalProperties"], dict)
+
+
+def test_schema_sample_keys_are_the_dataclass_fields() -> None:
+    import dataclasses
+
+    defs = study_schema()["$defs"]
+    sample_fields = {f.name for f in dataclasses.fields(SegmentFinding)} - {"id", "line"}
+    assert set(defs["segment"]["properties"]) == sample_fields
+    lesion_fields = {f.name for f in dataclasses.fields(Lesion)} - {"line"}
+    assert set(defs["lesion"]["properties"]) == lesion_fields
+
+
+def test_import_stays_light() -> None:
+    code = "import sys, diagram.load; print('jsonschema' in sys.modules, 'yaml' in sys.modules)"
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.split() == ["False", "False"]
