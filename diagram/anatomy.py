@@ -11,20 +11,17 @@ from __future__ import annotations
 import difflib
 import re
 from dataclasses import dataclass
-from enum import Enum
+from enum import StrEnum
 
 
-class Side(str, Enum):
+class Side(StrEnum):
     """The patient's side (not the viewer's)."""
 
     RIGHT = "right"
     LEFT = "left"
 
-    def __str__(self) -> str:
-        return self.value
 
-
-class Level(str, Enum):
+class Level(StrEnum):
     """Anatomic level used by the planning summary."""
 
     INFLOW = "inflow"
@@ -32,9 +29,6 @@ class Level(str, Enum):
     POPLITEAL = "popliteal"
     INFRAPOPLITEAL = "infrapopliteal"
     PEDAL = "pedal"
-
-    def __str__(self) -> str:
-        return self.value
 
 
 @dataclass(frozen=True)

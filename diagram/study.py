@@ -10,12 +10,12 @@ from __future__ import annotations
 import datetime as dt
 from collections.abc import Mapping
 from dataclasses import dataclass, field
-from enum import Enum
+from enum import StrEnum
 
 from diagram.anatomy import Side
 
 
-class Waveform(str, Enum):
+class Waveform(StrEnum):
     """Doppler waveform shape."""
 
     TRIPHASIC = "triphasic"
@@ -24,7 +24,7 @@ class Waveform(str, Enum):
     ABSENT = "absent"
 
 
-class Flow(str, Enum):
+class Flow(StrEnum):
     """Flow direction seen in the segment."""
 
     ANTEGRADE = "antegrade"
@@ -32,7 +32,7 @@ class Flow(str, Enum):
     ABSENT = "absent"
 
 
-class Plaque(str, Enum):
+class Plaque(StrEnum):
     """Plaque character at the site."""
 
     NONE = "none"
@@ -91,13 +91,24 @@ class Stent:
     line: int | None = None
 
 
+GRAFT_SITES: tuple[str, ...] = (
+    "proximal_anastomosis",
+    "proximal",
+    "mid",
+    "distal",
+    "distal_anastomosis",
+)
+GRAFT_BODY_SITES: tuple[str, ...] = ("proximal", "mid", "distal")
+
+
 @dataclass(frozen=True)
 class Graft:
-    """A bypass graft from its origin segment to its target segment."""
+    """A bypass graft from its origin segment to its target segment, with samples along it."""
 
-    conduit: str
+    conduit: str  # vein | prosthetic
     from_: str
     to: str
+    samples: Mapping[str, Sample] = field(default_factory=dict)  # by GRAFT_SITES
     line: int | None = None
 
 
@@ -156,6 +167,8 @@ class Exam:
     referrer: str | None = None
     indication: str | None = None
     criteria: str = "native"
+    stent_criteria: str = "stent"
+    graft_criteria: str = "graft"
     study_uid: str | None = None
 
 

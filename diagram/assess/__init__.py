@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
 from pathlib import Path
 
 from diagram.anatomy import Side
@@ -9,50 +10,70 @@ from diagram.assess.grading import grade_limbs
 from diagram.assess.indices import limb_indices, pressure_findings
 from diagram.assess.quality import quality_findings, with_shift_velocities
 from diagram.assess.results import Assessment, BandDef
-from diagram.criteria import NOT_ASSESSED, Criteria, load_criteria
+from diagram.criteria import NOT_ASSESSED, Criteria, CriteriaSets, load_criteria
 from diagram.errors import CriteriaError, Problem, StudyError
 from diagram.study import Study
 
 
-def band_defs(criteria: Criteria) -> tuple[BandDef, ...]:
-    """Return the legend's bands: the set's bands mildest first, then not-assessed."""
-    return (
-        *(BandDef(b.id, b.label, b.rank) for b in criteria.bands),
-        BandDef(NOT_ASSESSED, "Not assessed", -1),
-    )
+def band_defs(sets: CriteriaSets, used: tuple[Criteria, ...]) -> tuple[BandDef, ...]:
+    """Return the legend's bands: each used set's bands mildest first, then not-assessed."""
+    out: dict[str, BandDef] = {}
+    for crit in used:
+        for b in crit.bands:
+            if b.id not in out:
+                out[b.id] = BandDef(b.id, b.label, sets.severity(b.id), b.look, crit.name)
+    occluded = [b for b in out.values() if b.look == "occluded"]
+    rest = [b for b in out.values() if b.look != "occluded"]
+    return (*rest, *occluded, BandDef(NOT_ASSESSED, "Not assessed", -1, "", ""))
 
 
-def resolve_criteria(study: Study, override: str | None = None) -> Criteria:
-    """Return the criteria set the study names (or ``override``), relative to the study file."""
-    name = override or study.exam.criteria
-    base = Path(study.source).parent if study.source else None
+def _load(name: str, base: Path | None, field: str, source: str) -> Criteria:
     try:
         return load_criteria(name, relative_to=base)
     except CriteriaError as exc:
-        if override is None and len(exc.problems) == 1 and exc.problems[0].field == "exam.criteria":
+        if len(exc.problems) == 1 and exc.problems[0].field == "exam.criteria":
             p = exc.problems[0]
-            raise StudyError(
-                [Problem(study.source, None, p.field, p.value, p.rule, p.hint)]
-            ) from None
+            raise StudyError([Problem(source, None, field, p.value, p.rule, p.hint)]) from None
         raise
 
 
-def assess(study: Study, *, criteria: Criteria | None = None) -> Assessment:
-    """Grade every segment and lesion of the study with its criteria set."""
-    crit = criteria or resolve_criteria(study)
+def resolve_criteria(study: Study, override: str | None = None) -> CriteriaSets:
+    """Return the sets the study names (native set replaced by ``override`` when given)."""
+    base = Path(study.source).parent if study.source else None
+    exam = study.exam
+    return CriteriaSets(
+        native=_load(override or exam.criteria, base, "exam.criteria", study.source),
+        stent=_load(exam.stent_criteria, base, "exam.stent_criteria", study.source),
+        graft=_load(exam.graft_criteria, base, "exam.graft_criteria", study.source),
+    )
+
+
+def assess(study: Study, *, criteria: Criteria | CriteriaSets | None = None) -> Assessment:
+    """Grade every segment, lesion, stent and graft of the study and compute its indices."""
+    if isinstance(criteria, Criteria):
+        sets = replace(resolve_criteria(study), native=criteria)
+    else:
+        sets = criteria or resolve_criteria(study)
     study, findings = with_shift_velocities(study)
-    limbs, grading_findings = grade_limbs(study, crit)
+    limbs, grading_findings = grade_limbs(study, sets)
     findings.extend(grading_findings)
     indices = {side: limb_indices(study.pressures, side) for side in (Side.RIGHT, Side.LEFT)}
-    findings.extend(quality_findings(study, limbs, crit))
+    findings.extend(quality_findings(study, limbs, sets))
     findings.extend(pressure_findings(study.pressures, indices))
+    used = [sets.native]
+    if any(study.limb(s).stents for s in Side):
+        used.append(sets.stent)
+    if any(study.limb(s).grafts for s in Side):
+        used.append(sets.graft)
+    crit = sets.native
     return Assessment(
         study=study,
         criteria_name=crit.name,
         criteria_title=crit.title,
         criteria_source=crit.source,
-        bands=band_defs(crit),
+        bands=band_defs(sets, tuple(used)),
         limbs=limbs,
         indices=indices,
         warnings=tuple(findings),
+        criteria_used=tuple((c.name, c.title, c.origin) for c in used),
     )

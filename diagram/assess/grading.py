@@ -11,14 +11,36 @@ from decimal import ROUND_HALF_UP, Decimal
 
 from diagram import anatomy
 from diagram.anatomy import SEGMENTS, Side
-from diagram.assess.results import Finding, LesionResult, LimbResult, Reference, SegmentResult, Span
-from diagram.criteria import NOT_ASSESSED, Criteria, significant_rank
-from diagram.errors import Problem, StudyError
-from diagram.study import Flow, Lesion, Limb, Sample, Study, Waveform
-
-FOCAL_LENGTH_CM = (
-    1.0  # drawn extent of a stenosis whose length is not given (common practice: focal)
+from diagram.assess.results import (
+    Finding,
+    GraftResult,
+    GraftSite,
+    LesionResult,
+    LimbResult,
+    Reference,
+    SegmentResult,
+    Span,
+    StentResult,
 )
+from diagram.criteria import NOT_ASSESSED, SIGNIFICANT_SEVERITY, Criteria, CriteriaSets
+from diagram.errors import Problem, StudyError
+from diagram.study import (
+    GRAFT_BODY_SITES,
+    GRAFT_SITES,
+    Flow,
+    Graft,
+    Lesion,
+    Limb,
+    Sample,
+    Stent,
+    Study,
+    Waveform,
+)
+
+# Drawn extent of a stenosis whose length is not given (common practice: a focal lesion).
+FOCAL_LENGTH_CM = 1.0
+# Graft flow velocity below 45 cm/s (SVS 2018 surveillance table, Bandyk 1988).
+GRAFT_LOW_FLOW_CM_S = 45.0
 _EPS = 1e-9
 
 
@@ -80,6 +102,29 @@ def lesion_spans(lesion: Lesion) -> tuple[tuple[Span, ...], Span | None]:
     return tuple(spans), point
 
 
+def stent_spans(stent: Stent) -> tuple[Span, ...]:
+    """Return the stretches a stent covers, from its start in ``from_`` to ``to`` (inclusive)."""
+    chain = [stent.to, *anatomy.ancestors(stent.to)]
+    path = list(reversed(chain[: chain.index(stent.from_) + 1])) if stent.from_ in chain else []
+    path = path or [stent.from_]
+    start = stent.from_cm or 0.0
+    if stent.length_cm is not None:
+        remaining = stent.length_cm
+        path = list(anatomy.run_on(stent.from_)) if len(path) == 1 else path
+    else:
+        remaining = sum(SEGMENTS[s].length_cm for s in path) - start
+    spans: list[Span] = []
+    pos = start
+    for seg in path:
+        take = min(remaining, SEGMENTS[seg].length_cm - pos)
+        spans.append(_span(seg, pos, pos + take))
+        remaining -= take
+        pos = 0.0
+        if remaining <= _EPS:
+            break
+    return tuple(spans)
+
+
 def _span(segment: str, start_cm: float, end_cm: float) -> Span:
     length = SEGMENTS[segment].length_cm
     return Span(
@@ -104,11 +149,13 @@ def _has_data(s: Sample) -> bool:
 class _LimbGrader:
     """Grades one limb top-down so that every upstream band is known before it is used."""
 
-    def __init__(self, study: Study, limb: Limb, criteria: Criteria) -> None:
+    def __init__(self, study: Study, limb: Limb, sets: CriteriaSets) -> None:
         self.study = study
         self.limb = limb
         self.side = limb.side
-        self.criteria = criteria
+        self.sets = sets
+        self.criteria = sets.native
+        self.stent_spans = [stent_spans(st) for st in limb.stents]
         self.bands: dict[str, str] = {}
         self.findings: list[Finding] = []
         self.problems: list[Problem] = []
@@ -126,14 +173,28 @@ class _LimbGrader:
             band = self.bands.get(up, NOT_ASSESSED)
             if finding is None or finding.psv is None or finding.occluded:
                 continue
-            if band != NOT_ASSESSED and self.criteria.rank(band) >= self._significant_rank():
+            if self.sets.severity(band) >= SIGNIFICANT_SEVERITY:
                 continue
-            diseased = band != NOT_ASSESSED and self.criteria.rank(band) > 0
+            diseased = self.sets.severity(band) > 0
             return Reference(finding.psv, "segment", up, diseased)
         return None
 
-    def _significant_rank(self) -> int:
-        return significant_rank(self.criteria)
+    def criteria_at(self, segment: str, from_cm: float | None) -> Criteria:
+        """Return the stent set for a lesion that starts inside a stent, else the native set."""
+        at = from_cm or 0.0
+        for spans in self.stent_spans:
+            if any(sp.segment == segment and sp.start_cm <= at <= sp.end_cm for sp in spans):
+                return self.sets.stent
+        return self.sets.native
+
+    def criteria_of_segment(self, segment: str) -> Criteria:
+        """Return the stent set for a segment at least half covered by a stent."""
+        length = SEGMENTS[segment].length_cm
+        for spans in self.stent_spans:
+            covered = sum(sp.end_cm - sp.start_cm for sp in spans if sp.segment == segment)
+            if covered >= length / 2:
+                return self.sets.stent
+        return self.sets.native
 
     def ratio(self, sample: Sample, segment: str) -> tuple[float | None, str, Reference | None]:
         """Return (Vr, how it was obtained, reference used)."""
@@ -151,30 +212,29 @@ class _LimbGrader:
         return round_vr(sample.psv / ref.psv), "computed", ref
 
     def grade_sample(
-        self, sample: Sample, segment: str, *, lesion: bool, what: str
+        self, sample: Sample, segment: str, *, lesion: bool, what: str, crit: Criteria
     ) -> tuple[str, str, float | None, str, Reference | None]:
         """Return (band, basis, Vr, Vr source, reference) for one sample."""
         if sample.not_assessed:
             return NOT_ASSESSED, "marked not assessed", None, "none", None
         if sample.occluded:
-            return self.criteria.occlusion_band.id, "occlusion recorded", None, "none", None
+            return crit.occlusion_band.id, "occlusion recorded", None, "none", None
         vr, vr_source, ref = self.ratio(sample, segment)
-        rule = self.criteria.grade(vr, sample.psv, lesion=lesion)
+        rule = crit.grade(vr, sample.psv, lesion=lesion)
         given = sample.band
-        if given is not None and given not in self.criteria.band_ids:
+        if given is not None and given not in crit.band_ids:
             self.problems.append(
                 Problem(
                     self.study.source,
                     sample.line,
                     f"{what}.band",
                     repr(given),
-                    f"is not a band of the criteria set {self.criteria.name} "
-                    f"({', '.join(self.criteria.band_ids)}).",
+                    f"is not a band of the criteria set {crit.name} ({', '.join(crit.band_ids)}).",
                 )
             )
             given = None
         if rule is not None:
-            basis = f"{rule.describe()} ({self.criteria.name})"
+            basis = f"{rule.describe()} ({crit.name})"
             if given is not None and given != rule.id:
                 self.findings.append(
                     Finding(
@@ -211,7 +271,7 @@ class _LimbGrader:
                 )
             )
             return NOT_ASSESSED, "absent flow, occlusion not recorded", vr, vr_source, ref
-        normal = self.criteria.bands[0]
+        normal = crit.bands[0]
         return normal.id, "no lesion recorded", vr, vr_source, ref
 
     def run(self) -> LimbResult:
@@ -223,11 +283,19 @@ class _LimbGrader:
                     self.lesion_results[i] = self.grade_lesion(i, les)
             segments[seg] = self.grade_segment(seg)
         lesions = tuple(self.lesion_results[i] for i in range(len(self.limb.lesions)))
-        return LimbResult(self.side, segments, lesions)
+        stents = tuple(
+            StentResult(i, self.side, st.from_, st.to, self.stent_spans[i])
+            for i, st in enumerate(self.limb.stents)
+        )
+        grafts = tuple(self.grade_graft(i, g) for i, g in enumerate(self.limb.grafts))
+        return LimbResult(self.side, segments, lesions, stents, grafts)
 
     def grade_lesion(self, index: int, les: Lesion) -> LesionResult:
         what = f"limbs.{self.side.value}.lesions[{index}]"
-        band, basis, vr, vr_source, ref = self.grade_sample(les, les.at, lesion=True, what=what)
+        crit = self.criteria_at(les.at, les.from_cm)
+        band, basis, vr, vr_source, ref = self.grade_sample(
+            les, les.at, lesion=True, what=what, crit=crit
+        )
         spans, point = self.lesion_geometry[index]
         if point is not None and les.reconstitutes and point.segment != les.reconstitutes:
             self.findings.append(
@@ -259,12 +327,75 @@ class _LimbGrader:
             basis=basis,
         )
 
+    def grade_graft(self, index: int, graft: Graft) -> GraftResult:
+        """Grade each site along a graft against the nearest non-stenotic sample above it."""
+        crit = self.sets.graft
+        what = f"limbs.{self.side.value}.grafts[{index}]"
+        inflow = self.limb.segments.get(graft.from_)
+        upstream: Reference | None = None
+        if inflow is not None and inflow.psv is not None and not inflow.occluded:
+            upstream = Reference(inflow.psv, "segment", graft.from_)
+        else:
+            upstream = self.reference(graft.from_)
+        sites: list[GraftSite] = []
+        for site in GRAFT_SITES:
+            sample = graft.samples.get(site)
+            if sample is None:
+                continue
+            if sample.vr is not None:
+                vr, ref = round_vr(sample.vr), None
+            elif sample.psv is not None and sample.proximal_psv is not None:
+                ref = Reference(sample.proximal_psv, "proximal_psv", None)
+                vr = round_vr(sample.psv / ref.psv)
+            elif sample.psv is not None and upstream is not None:
+                ref, vr = upstream, round_vr(sample.psv / upstream.psv)
+            else:
+                vr, ref = None, None
+            if sample.occluded:
+                band, basis = crit.occlusion_band.id, "occlusion recorded"
+            else:
+                rule = crit.grade(vr, sample.psv, lesion=False)
+                if rule is not None:
+                    band, basis = rule.id, f"{rule.describe()} ({crit.name})"
+                elif sample.band is not None and sample.band in crit.band_ids:
+                    band, basis = sample.band, "band given by hand"
+                else:
+                    band, basis = NOT_ASSESSED, "no velocity ratio and no band given"
+            sites.append(GraftSite(site, band, sample.psv, vr, ref, basis))
+            if sample.psv is not None and self.sets.severity(band) < SIGNIFICANT_SEVERITY:
+                upstream = Reference(sample.psv, "graft", f"graft {site.replace('_', ' ')}")
+        body = [
+            graft.samples[s].psv
+            for s in GRAFT_BODY_SITES
+            if s in graft.samples and graft.samples[s].psv is not None
+        ]
+        flow = min(v for v in body if v is not None) if body else None
+        worst = max(sites, key=lambda g: self.sets.severity(g.band), default=None)
+        band = worst.band if worst else NOT_ASSESSED
+        basis = f"{worst.site.replace('_', ' ')}: {worst.basis}" if worst else "no graft samples"
+        if flow is not None and flow < GRAFT_LOW_FLOW_CM_S:
+            self.findings.append(
+                Finding(
+                    "graft-low-flow",
+                    self.side,
+                    graft.to,
+                    f"{what}: graft flow velocity {flow:g} cm/s is below 45 cm/s; with a "
+                    "high-risk lesion the graft is at the highest risk (SVS 2018).",
+                )
+            )
+        return GraftResult(
+            index, self.side, graft.conduit, graft.from_, graft.to, band, tuple(sites), flow, basis
+        )
+
     def grade_segment(self, seg: str) -> SegmentResult:
         finding = self.limb.segments.get(seg)
         touching = tuple(self.touching[seg])
         what = f"limbs.{self.side.value}.segments.{seg}"
         if finding is not None:
-            band, basis, vr, _, ref = self.grade_sample(finding, seg, lesion=False, what=what)
+            crit = self.criteria_of_segment(seg)
+            band, basis, vr, _, ref = self.grade_sample(
+                finding, seg, lesion=False, what=what, crit=crit
+            )
             assessed = band != NOT_ASSESSED or bool(touching)
         else:
             band, basis, vr, ref, assessed = NOT_ASSESSED, "nothing recorded", None, None, False
@@ -272,7 +403,7 @@ class _LimbGrader:
             les = self.lesion_results.get(i)
             if les is None:  # a lesion that starts upstream is always graded before
                 continue
-            if self.criteria.rank(les.band) > self.criteria.rank(band):
+            if self.sets.severity(les.band) > self.sets.severity(band):
                 band, basis = les.band, f"lesion {i + 1} ({les.basis})"
                 assessed = True
         self.bands[seg] = band
@@ -291,7 +422,7 @@ class _LimbGrader:
         )
 
 
-def grade_limbs(study: Study, criteria: Criteria) -> tuple[dict[Side, LimbResult], list[Finding]]:
+def grade_limbs(study: Study, sets: CriteriaSets) -> tuple[dict[Side, LimbResult], list[Finding]]:
     """Grade both limbs; raise StudyError for a band id the criteria set does not know."""
     limbs: dict[Side, LimbResult] = {}
     findings: list[Finding] = []
@@ -304,7 +435,7 @@ def grade_limbs(study: Study, criteria: Criteria) -> tuple[dict[Side, LimbResult
         limb = study.limb(side)
         if aorta is not None and "AO" not in limb.segments:
             limb = replace(limb, segments={**limb.segments, "AO": aorta})
-        grader = _LimbGrader(study, limb, criteria)
+        grader = _LimbGrader(study, limb, sets)
         limbs[side] = grader.run()
         findings.extend(grader.findings)
         problems.extend(grader.problems)
@@ -312,7 +443,7 @@ def grade_limbs(study: Study, criteria: Criteria) -> tuple[dict[Side, LimbResult
         raise StudyError(problems)
     # ... and it is drawn once, in the worse of the two grades.
     r_ao, l_ao = limbs[Side.RIGHT].segments["AO"], limbs[Side.LEFT].segments["AO"]
-    worst = max((r_ao, l_ao), key=lambda r: (criteria.rank(r.band), r.side is Side.RIGHT))
+    worst = max((r_ao, l_ao), key=lambda r: (sets.severity(r.band), r.side is Side.RIGHT))
     for side in Side:
         segs = dict(limbs[side].segments)
         segs["AO"] = replace(worst, side=side)

@@ -25,7 +25,7 @@ from typing import TypeVar
 from diagram import anatomy
 from diagram.anatomy import SEGMENTS, Level, Side
 from diagram.assess.results import Finding, LimbResult
-from diagram.criteria import Criteria, significant_rank
+from diagram.criteria import SIGNIFICANT_SEVERITY, CriteriaSets
 from diagram.study import Flow, Limb, Sample, Study, Waveform
 
 S = TypeVar("S", bound=Sample)
@@ -153,13 +153,12 @@ def _sample_checks(side: Side, what: str, seg: str, s: Sample) -> list[Finding]:
     return out
 
 
-def _significant(result: LimbResult, criteria: Criteria, seg: str) -> bool:
-    band = result.segments[seg].band
-    return criteria.rank(band) >= significant_rank(criteria)
+def _significant(result: LimbResult, sets: CriteriaSets, seg: str) -> bool:
+    return sets.severity(result.segments[seg].band) >= SIGNIFICANT_SEVERITY
 
 
 def quality_findings(
-    study: Study, limbs: dict[Side, LimbResult], criteria: Criteria
+    study: Study, limbs: dict[Side, LimbResult], sets: CriteriaSets
 ) -> list[Finding]:
     """Return every measurement-quality warning of the study."""
     out: list[Finding] = []
@@ -185,7 +184,7 @@ def quality_findings(
             if r.reference is not None and r.reference.diseased:
                 out.append(_diseased(side, seg, r.reference.segment))
             if finding is not None and finding.waveform is Waveform.MONOPHASIC:
-                out.extend(_monophasic(side, seg, limb, result, criteria))
+                out.extend(_monophasic(side, seg, limb, result, sets))
         for les in result.lesions:
             if les.reference is not None and les.reference.diseased:
                 out.append(_diseased(side, les.at, les.reference.segment))
@@ -212,7 +211,7 @@ def _diseased(side: Side, seg: str, ref: str | None) -> Finding:
 
 
 def _monophasic(
-    side: Side, seg: str, limb: Limb, result: LimbResult, criteria: Criteria
+    side: Side, seg: str, limb: Limb, result: LimbResult, sets: CriteriaSets
 ) -> list[Finding]:
     """Flag a waveform that turns monophasic here with no significant disease upstream."""
     for up in anatomy.ancestors(seg):
@@ -222,7 +221,7 @@ def _monophasic(
         if up_finding is not None and up_finding.waveform is not None:
             break
     chain = (seg, *anatomy.ancestors(seg))
-    if any(_significant(result, criteria, s) for s in chain):
+    if any(_significant(result, sets, s) for s in chain):
         return []
     return [
         Finding(

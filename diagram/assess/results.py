@@ -86,12 +86,52 @@ class Finding:
 
 
 @dataclass(frozen=True)
+class StentResult:
+    """A stent's extent along the vessels."""
+
+    index: int
+    side: Side
+    from_: str
+    to: str
+    spans: tuple[Span, ...]
+
+
+@dataclass(frozen=True)
+class GraftSite:
+    """One sample along a bypass graft, graded with the graft set."""
+
+    site: str  # one of study.GRAFT_SITES
+    band: str
+    psv: float | None
+    vr: float | None
+    reference: Reference | None
+    basis: str
+
+
+@dataclass(frozen=True)
+class GraftResult:
+    """A bypass graft: its sites graded, the worst band and the graft flow velocity."""
+
+    index: int
+    side: Side
+    conduit: str
+    from_: str
+    to: str
+    band: str
+    sites: tuple[GraftSite, ...]
+    flow_velocity: float | None  # lowest PSV in the graft body, cm/s
+    basis: str
+
+
+@dataclass(frozen=True)
 class LimbResult:
     """One leg graded."""
 
     side: Side
     segments: Mapping[str, SegmentResult]
     lesions: tuple[LesionResult, ...]
+    stents: tuple[StentResult, ...] = ()
+    grafts: tuple[GraftResult, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -118,7 +158,9 @@ class BandDef:
 
     id: str
     label: str
-    rank: int  # higher is worse; not-assessed is -1
+    rank: int  # severity on the common scale: -1 not assessed, 0 normal ... 4 occluded
+    look: str = ""  # the house look it is drawn with (normal, lt50, 50-74, 75-99, occluded)
+    criteria: str = ""  # the name of the set it belongs to
 
 
 @dataclass(frozen=True)
@@ -133,3 +175,4 @@ class Assessment:
     limbs: Mapping[Side, LimbResult]
     indices: Mapping[Side, LimbIndices] = field(default_factory=dict)
     warnings: tuple[Finding, ...] = field(default=())
+    criteria_used: tuple[tuple[str, str, str], ...] = ()  # (name, title, origin) of each set

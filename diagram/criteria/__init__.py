@@ -20,7 +20,8 @@ from diagram.errors import CriteriaError, Problem
 
 NOT_ASSESSED = "not-assessed"
 _MAX_BYTES = 256 * 1024
-_BAND_KEYS = ("id", "label", "when", "occlusion", "source")
+_BAND_KEYS = ("id", "label", "look", "when", "occlusion", "source")
+LOOKS = ("normal", "lt50", "50-74", "75-99", "occluded")
 _WHEN_KEYS = ("vr_min", "psv_min", "match")
 _TOP_KEYS = ("format", "name", "title", "kind", "source", "lesion_floor", "bands")
 
@@ -37,17 +38,20 @@ class BandRule:
     match: str = "all"
     occlusion: bool = False
     source: str = ""
+    look: str = ""  # the house look (hatch and tint) it is drawn with: one of LOOKS
 
-    def applies(self, vr: float | None, psv: float | None) -> bool:
-        """Return True when this band's conditions hold for the measurements."""
-        tests = []
+    def applies(self, vr: float | None, psv: float | None) -> bool | None:
+        """Return whether this band's conditions hold; None when a missing value decides it."""
+        tests: list[bool | None] = []
         if self.vr_min is not None:
-            tests.append(vr is not None and vr >= self.vr_min)
+            tests.append(None if vr is None else vr >= self.vr_min)
         if self.psv_min is not None:
-            tests.append(psv is not None and psv >= self.psv_min)
+            tests.append(None if psv is None else psv >= self.psv_min)
         if not tests:
             return True
-        return all(tests) if self.match == "all" else any(tests)
+        if self.match == "all":
+            return False if False in tests else (None if None in tests else True)
+        return True if True in tests else (None if None in tests else False)
 
     def describe(self) -> str:
         """Return the band's rule in words, e.g. ``Vr >= 2.0``."""
@@ -96,24 +100,23 @@ class Criteria:
         """Return the band for an occluded vessel."""
         return next(b for b in self.bands if b.occlusion)
 
-    def needs(self) -> frozenset[str]:
-        """Return the measurements the set's thresholds use (``vr``, ``psv``)."""
-        out = set()
-        for b in self.bands:
-            if b.vr_min is not None:
-                out.add("vr")
-            if b.psv_min is not None:
-                out.add("psv")
-        return frozenset(out)
-
     def grade(self, vr: float | None, psv: float | None, *, lesion: bool) -> BandRule | None:
-        """Return the worst band that applies, or None when no needed measurement is present."""
-        present = {"vr": vr is not None, "psv": psv is not None}
-        if not any(present[m] for m in self.needs()):
-            return None
-        found = next(
-            (b for b in reversed(self.bands) if not b.occlusion and b.applies(vr, psv)), None
-        )
+        """Return the worst band that applies, or None when a missing measurement could change it.
+
+        Bands are tried worst first: the first that holds wins; one that cannot be decided
+        because its measurement is missing (say Vr with no upstream sample) leaves the sample
+        ungraded rather than graded too mildly.
+        """
+        found = None
+        for b in reversed(self.bands):
+            if b.occlusion:
+                continue
+            holds = b.applies(vr, psv)
+            if holds is None:
+                return None
+            if holds:
+                found = b
+                break
         if found is None:
             return None
         if lesion and self.lesion_floor is not None:
@@ -123,15 +126,52 @@ class Criteria:
         return found
 
 
-def significant_rank(criteria: Criteria) -> int:
-    """Return the rank from which a band counts as haemodynamically significant.
+def _default_looks(bands: list[BandRule]) -> list[BandRule]:
+    """Give each band without a look the house look of its place in the severity order."""
+    from dataclasses import replace
 
-    That is the band after the lesion floor (native: 50-74), else the second band.
-    """
-    if criteria.lesion_floor is not None:
-        return criteria.rank(criteria.lesion_floor) + 1
-    graded = [b for b in criteria.bands if not b.occlusion]
-    return graded[1].rank if len(graded) > 1 else 1
+    graded = [b for b in bands if not b.occlusion]
+    out = []
+    for b in bands:
+        if b.look:
+            out.append(b)
+        elif b.occlusion:
+            out.append(replace(b, look="occluded"))
+        else:
+            place = graded.index(b) * (len(LOOKS) - 2) // max(len(graded) - 1, 1)
+            out.append(replace(b, look=LOOKS[place]))
+    return out
+
+
+# Severity of each house look; a band is haemodynamically significant from the 50-74 look on.
+LOOK_SEVERITY: dict[str, int] = {look: i for i, look in enumerate(LOOKS)}
+SIGNIFICANT_SEVERITY = LOOK_SEVERITY["50-74"]
+
+
+@dataclass(frozen=True)
+class CriteriaSets:
+    """The sets one study is graded with: native arteries, stented segments, bypass grafts."""
+
+    native: Criteria
+    stent: Criteria
+    graft: Criteria
+
+    def all(self) -> tuple[Criteria, ...]:
+        """Return the sets, native first."""
+        return (self.native, self.stent, self.graft)
+
+    def look(self, band_id: str) -> str | None:
+        """Return the house look of a band id of any of the sets (None for not-assessed)."""
+        for crit in self.all():
+            for b in crit.bands:
+                if b.id == band_id:
+                    return b.look
+        return None
+
+    def severity(self, band_id: str) -> int:
+        """Return a band's severity on the common scale: -1 not assessed, 0 normal … 4 occluded."""
+        look = self.look(band_id)
+        return -1 if look is None else LOOK_SEVERITY[look]
 
 
 def shipped_names() -> tuple[str, ...]:
@@ -290,6 +330,17 @@ def parse_criteria(text: str, file: str, origin: str) -> Criteria:
                     "is not a condition.",
                     f"did you mean {near[0]}?" if near else None,
                 )
+        look = rb.get("look")
+        if look is not None and look not in LOOKS:
+            near = difflib.get_close_matches(str(look), LOOKS, n=1)
+            bad(
+                bline,
+                f"{where}.look",
+                look,
+                f"must be one of {', '.join(LOOKS)}.",
+                f"did you mean {near[0]}?" if near else None,
+            )
+            look = None
         vr_min: Any = when.get("vr_min")
         psv_min: Any = when.get("psv_min")
         for key, val, hi in (("vr_min", vr_min, 50.0), ("psv_min", psv_min, 800.0)):
@@ -322,6 +373,7 @@ def parse_criteria(text: str, file: str, origin: str) -> Criteria:
                 match=match if match in ("all", "any") else "all",
                 occlusion=occlusion,
                 source=str(rb.get("source", "")),
+                look=look or "",
             )
         )
     if raw_bands and sum(b.occlusion for b in bands) != 1:
@@ -340,6 +392,7 @@ def parse_criteria(text: str, file: str, origin: str) -> Criteria:
         )
     if problems:
         raise CriteriaError(sorted(problems, key=lambda p: (p.line or 0, p.field)))
+    bands = _default_looks(bands)
     return Criteria(
         name=raw["name"],
         title=raw["title"],
