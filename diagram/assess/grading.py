@@ -234,7 +234,7 @@ class _LimbGrader:
             )
             given = None
         if rule is not None:
-            basis = f"{rule.describe()} ({crit.name})"
+            basis = f"{crit.describe(rule)} ({crit.name})"
             if given is not None and given != rule.id:
                 self.findings.append(
                     Finding(
@@ -356,7 +356,7 @@ class _LimbGrader:
             else:
                 rule = crit.grade(vr, sample.psv, lesion=False)
                 if rule is not None:
-                    band, basis = rule.id, f"{rule.describe()} ({crit.name})"
+                    band, basis = rule.id, f"{crit.describe(rule)} ({crit.name})"
                 elif sample.band is not None and sample.band in crit.band_ids:
                     band, basis = sample.band, "band given by hand"
                 else:

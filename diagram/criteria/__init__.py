@@ -63,7 +63,7 @@ class BandRule:
         if self.occlusion:
             return "occlusion recorded"
         if not parts:
-            return "below every threshold"
+            return "below the next band's threshold"
         return (" and " if self.match == "all" else " or ").join(parts)
 
 
@@ -94,6 +94,22 @@ class Criteria:
     def rank(self, band_id: str) -> int:
         """Return a band's severity rank; not-assessed ranks below every band."""
         return -1 if band_id == NOT_ASSESSED else self.band(band_id).rank
+
+    def describe(self, band: BandRule) -> str:
+        """Return a band's rule in words; the mildest band reads as "below" the next one."""
+        graded = [b for b in self.bands if not b.occlusion]
+        if band.occlusion or band.vr_min is not None or band.psv_min is not None:
+            return band.describe()
+        nxt = graded[graded.index(band) + 1] if band in graded[:-1] else None
+        if nxt is None:
+            return band.describe()
+        limits = []
+        if nxt.vr_min is not None:
+            limits.append(f"Vr < {nxt.vr_min:g}")
+        if nxt.psv_min is not None:
+            limits.append(f"PSV < {nxt.psv_min:g} cm/s")
+        joiner = " or " if nxt.match == "all" else " and "
+        return joiner.join(limits)
 
     @property
     def occlusion_band(self) -> BandRule:
