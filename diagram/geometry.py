@@ -144,7 +144,7 @@ def parse_transform(text: str) -> Affine:
     while pos < len(text):
         m = _TRANSFORM_FN.match(text, pos)
         if m is None:
-            raise ValueError(f"transform: cannot read {text[pos:pos + 20]!r} at offset {pos}")
+            raise ValueError(f"transform: cannot read {text[pos : pos + 20]!r} at offset {pos}")
         name, raw_args = m.group(1), m.group(2)
         if name not in _ARITY:
             raise ValueError(
@@ -188,7 +188,7 @@ def _numbers(text: str, what: str) -> list[float]:
             return out
         m = _NUMBER.match(text, pos)
         if m is None:
-            raise ValueError(f"{what}: expected a number, found {text[pos:pos + 12]!r}")
+            raise ValueError(f"{what}: expected a number, found {text[pos : pos + 12]!r}")
         value = float(m.group())
         if not math.isfinite(value):
             raise ValueError(f"{what}: number {m.group()!r} is out of range")
@@ -457,8 +457,9 @@ class Subpath:
     closed: bool
 
     def transformed(self, m: Affine) -> Subpath:
-        return Subpath(m.apply(self.start), tuple(p.transformed(m) for p in self.pieces),
-                       self.closed)
+        return Subpath(
+            m.apply(self.start), tuple(p.transformed(m) for p in self.pieces), self.closed
+        )
 
     def d(self) -> str:
         parts = [f"M {_fmt_point(self.start)}", *(p.d() for p in self.pieces)]
@@ -491,7 +492,7 @@ class _Scanner:
         return self.pos < len(self.text) and self.text[self.pos] in "+-.0123456789"
 
     def _where(self) -> str:
-        found = self.text[self.pos:self.pos + 12] or "the end"
+        found = self.text[self.pos : self.pos + 12] or "the end"
         return f"at offset {self.pos} (found {found!r})"
 
     def number(self, cmd: str) -> float:
@@ -675,8 +676,14 @@ def _arc_to_cubics(
         a0, a1 = theta + i * step, theta + (i + 1) * step
         c0, s0, c1, s1 = math.cos(a0), math.sin(a0), math.cos(a1), math.sin(a1)
         end = p1 if i == count - 1 else on_ellipse(c1, s1)
-        out.append(Cubic(prev, on_ellipse(c0 - k * s0, s0 + k * c0),
-                         on_ellipse(c1 + k * s1, s1 - k * c1), end))
+        out.append(
+            Cubic(
+                prev,
+                on_ellipse(c0 - k * s0, s0 + k * c0),
+                on_ellipse(c1 + k * s1, s1 - k * c1),
+                end,
+            )
+        )
         prev = end
     return out
 
@@ -852,7 +859,11 @@ class PathGeometry:
         return self._subpath_d(0.0, self.length())
 
     def outline(
-        self, s0: float, s1: float, half_width: float, step: float,
+        self,
+        s0: float,
+        s1: float,
+        half_width: float,
+        step: float,
         end_half_width: float | None = None,
     ) -> tuple[Point, ...]:
         """Return a closed polygon around the centre line from ``s0`` to ``s1``.

@@ -1,15 +1,89 @@
 """Read a lab's SVG map template safely and expose each vessel's centre-line geometry.
 
-INTERFACE STUB: to be implemented (see the template contract in DEVELOPERS.md).
+The template is read as data and never executed or rendered here. The contract, checked at load
+(``check_template`` lists every breach without raising):
+
+- the root is ``<svg xmlns="http://www.w3.org/2000/svg">`` with a ``viewBox`` of four numbers,
+  width and height between 1 and 100 000 units, corner within ±100 000;
+- each vessel centre line is a ``<path>`` (or ``<line>``/``<polyline>``) drawn from its proximal
+  to its distal end and named by ``data-segment`` (with ``data-side``, which may sit on an ancestor
+  group), failing that by its ``id`` (``right-SFA-M``, ``R_SFA-M``, ``SFA-M-left``), failing that
+  by ``inkscape:label``; aliases are resolved with ``anatomy.resolve``;
+- every segment of ``anatomy.SEGMENT_IDS`` appears once per side (the aorta ``AO`` once, no side);
+- each vessel starts within ``JOIN_TOLERANCE`` units of its parent's distal end;
+- right-side vessels lie on the viewer's left of the aorta's distal end (their midpoint and end
+  have a smaller x), left-side vessels on the viewer's right;
+- ``data-length-cm`` and ``data-diameter-mm`` are present and within ``LENGTH_CM_RANGE`` and
+  ``DIAMETER_MM_RANGE``.
+
+Geometry is in the root viewBox's user units with every ``transform`` attribute of the element and
+its ancestors applied. The outline of the body comes from ``<g id="silhouette">`` and optional
+quiet strokes from ``<g id="landmarks">``.
+
+Refused, without anything being read or fetched beyond the file itself: files over
+``MAX_TEMPLATE_BYTES``, DTDs and entity declarations, ``href``/``xlink:href`` not starting with
+``#``, ``url(...)`` not pointing at ``#...``, ``@import``, ``<?xml-stylesheet?>``, ``<script>``,
+``<foreignObject>`` and other embedding elements, ``on*`` event attributes, nested ``<svg>``, and
+CSS ``transform`` in a ``style`` attribute (it would move geometry without the reader seeing it).
 """
 
 from __future__ import annotations
 
+import functools
+import math
+import re
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field
+from importlib import resources
 from pathlib import Path
+from types import MappingProxyType
+from typing import TYPE_CHECKING, Any
 
-from diagram.geometry import PathGeometry
+from diagram import anatomy
+from diagram.errors import Problem, TemplateError
+from diagram.geometry import IDENTITY, Affine, PathGeometry, parse_transform, transform_path_d
+
+if TYPE_CHECKING:
+    from xml.sax.xmlreader import AttributesNSImpl, Locator
+
+SVG_NS = "http://www.w3.org/2000/svg"
+INKSCAPE_NS = "http://www.inkscape.org/namespaces/inkscape"
+SHIPPED_TEMPLATE = "bilateral.svg"
+MAX_TEMPLATE_BYTES = 5_000_000
+JOIN_TOLERANCE = 1.5  # units: a child may start this far from its parent's distal end
+MAX_VIEWBOX = 100_000.0
+# Plausible declared values (common practice): no leg segment is longer than 60 cm and no artery
+# from the distal aorta down is wider than 40 mm even when aneurysmal.
+LENGTH_CM_RANGE = (0.0, 60.0)  # exclusive, inclusive
+DIAMETER_MM_RANGE = (0.0, 40.0)  # exclusive, inclusive
+
+_REFUSED_ELEMENTS = frozenset({"script", "foreignobject", "iframe", "embed", "object", "handler"})
+_HIDDEN_CONTAINERS = frozenset({"defs", "symbol", "clippath", "mask", "pattern", "marker"})
+_CENTRE_LINES = frozenset({"path", "line", "polyline"})
+_OUTLINE_SHAPES = frozenset({"path", "line", "polyline", "polygon", "rect", "circle", "ellipse"})
+_SIDE_WORDS = {
+    "right": "right",
+    "rt": "right",
+    "r": "right",
+    "left": "left",
+    "lt": "left",
+    "l": "left",
+}
+_NAMED = re.compile(
+    r"^(?:(?P<pre>right|left|rt|lt|r|l)[\s_.:-]+)?(?P<name>.+?)"
+    r"(?:[\s_.:-]+(?P<post>right|left|rt|lt|r|l))?$",
+    re.IGNORECASE,
+)
+_EXPECTED: tuple[tuple[str, str], ...] = (
+    ("right", "AO"),
+    *(
+        (side, seg)
+        for side in ("right", "left")
+        for seg in anatomy.SEGMENT_IDS
+        if seg not in anatomy.UNPAIRED
+    ),
+)
+_URL = re.compile(r"url\(\s*(['\"]?)(.*?)\1\s*\)", re.IGNORECASE | re.DOTALL)
 
 
 @dataclass(frozen=True)
@@ -22,6 +96,12 @@ class Vessel:
     length_cm: float  # nominal length declared by the template
     diameter_mm: float  # nominal diameter declared by the template
     geometry: PathGeometry  # absolute coordinates in the template's viewBox, transforms applied
+    line: int | None = None  # where the template declares it
+
+    @property
+    def units_per_cm(self) -> float:
+        """Return the drawing scale along this vessel (arc length per declared cm)."""
+        return self.geometry.length() / self.length_cm
 
 
 @dataclass(frozen=True)
@@ -31,10 +111,641 @@ class Template:
     name: str
     source: str
     viewbox: tuple[float, float, float, float]  # min-x, min-y, width, height
-    vessels: Mapping[str, Vessel]  # by Vessel.key
+    vessels: Mapping[str, Vessel]  # by Vessel.key (read-only)
     silhouette: tuple[str, ...]  # absolute path data of the quiet leg outline
+    landmarks: tuple[str, ...] = ()  # absolute path data of quiet open strokes (ligament, toes)
+
+    def vessel(self, side: str | None, segment: str) -> Vessel:
+        """Return the vessel of ``segment`` on ``side`` (side ignored for the aorta)."""
+        return self.vessels[anatomy.vessel_key(side or "right", segment)]
 
 
 def load_template(path: str | Path | None = None) -> Template:
     """Return the parsed template at ``path`` (the shipped bilateral map when None); cached."""
-    raise NotImplementedError
+    template, problems = _read(path)
+    if problems or template is None:
+        raise TemplateError(list(problems))
+    return template
+
+
+def check_template(path: str | Path | None = None) -> list[Problem]:
+    """Return every problem with the template at ``path`` (empty when it can be used)."""
+    return list(_read(path)[1])
+
+
+def _read(path: str | Path | None) -> tuple[Template | None, tuple[Problem, ...]]:
+    if path is None:
+        with resources.as_file(resources.files("diagram.templates_svg") / SHIPPED_TEMPLATE) as p:
+            return _read_file(Path(p), SHIPPED_TEMPLATE)
+    return _read_file(Path(path), str(path))
+
+
+def _read_file(path: Path, display: str) -> tuple[Template | None, tuple[Problem, ...]]:
+    try:
+        resolved = path.resolve(strict=True)
+        stat = resolved.stat()
+    except OSError as exc:
+        return None, (
+            Problem(
+                display,
+                None,
+                "",
+                None,
+                f"cannot be read: {exc.strerror}",
+                "check the --template path",
+            ),
+        )
+    if not resolved.is_file():
+        return None, (Problem(display, None, "", None, "is not a file"),)
+    if stat.st_size > MAX_TEMPLATE_BYTES:
+        return None, (_too_big(display, stat.st_size),)
+    return _parse_cached(str(resolved), display, stat.st_mtime_ns, stat.st_size)
+
+
+def _too_big(display: str, size: int) -> Problem:
+    return Problem(
+        display,
+        None,
+        "",
+        f"{size} bytes",
+        f"is larger than the {MAX_TEMPLATE_BYTES} bytes a map template may have",
+        "simplify the artwork or remove embedded content",
+    )
+
+
+@functools.lru_cache(maxsize=16)
+def _parse_cached(
+    resolved: str, display: str, mtime_ns: int, size: int
+) -> tuple[Template | None, tuple[Problem, ...]]:
+    """Parse once per (file, modification time, size); the key changes when the file does."""
+    with open(resolved, "rb") as fh:
+        data = fh.read(MAX_TEMPLATE_BYTES + 1)
+    if len(data) > MAX_TEMPLATE_BYTES:
+        return None, (_too_big(display, len(data)),)
+    reader = _Reader(display)
+    reader.feed(data)
+    return _build(reader, display, Path(resolved).stem)
+
+
+# --------------------------------------------------------------------------- reading the XML
+
+
+@dataclass(frozen=True)
+class _Frame:
+    tag: str
+    transform: Affine
+    group: str  # "silhouette", "landmarks", "vessels" or ""
+    hidden: bool  # inside defs/symbol/clipPath/...: never drawn
+    side: str | None  # inherited data-side
+
+
+@dataclass(frozen=True)
+class _RawVessel:
+    line: int | None
+    where: str
+    segment: str
+    side: str | None
+    d: str
+    transform: Affine
+    length: str | None
+    diameter: str | None
+
+
+@dataclass
+class _Reader:
+    """SAX content handler collecting vessels, outlines and every problem met on the way."""
+
+    file: str
+    problems: list[Problem] = field(default_factory=list)
+    vessels: list[_RawVessel] = field(default_factory=list)
+    silhouette: list[str] = field(default_factory=list)
+    landmarks: list[str] = field(default_factory=list)
+    viewbox: tuple[float, float, float, float] | None = None
+    _stack: list[_Frame] = field(default_factory=list)
+    _locator: Locator | None = None
+    _root_seen: bool = False
+
+    def feed(self, data: bytes) -> None:
+        from xml.sax import SAXException, SAXParseException
+        from xml.sax.handler import ContentHandler
+
+        from defusedxml import DefusedXmlException
+        from defusedxml.expatreader import DefusedExpatParser
+
+        reader = self
+
+        class Handler(ContentHandler):
+            def setDocumentLocator(self, locator: Locator) -> None:
+                reader._locator = locator
+
+            def startElementNS(
+                self, name: tuple[str | None, str], qname: str | None, attrs: AttributesNSImpl
+            ) -> None:
+                reader.start(name, attrs)
+
+            def endElementNS(self, name: tuple[str | None, str], qname: str | None) -> None:
+                reader._stack.pop()
+
+            def characters(self, content: str) -> None:
+                if reader._stack and reader._stack[-1].tag == "style":
+                    reader.check_css(content, "style")
+
+            def processingInstruction(self, target: str, data: str) -> None:
+                if target.lower() == "xml-stylesheet":
+                    reader.problem(
+                        "<?xml-stylesheet?>",
+                        data,
+                        "external stylesheets are refused",
+                        "remove the processing instruction",
+                    )
+
+        parser = DefusedExpatParser(
+            namespaceHandling=1, forbid_dtd=True, forbid_entities=True, forbid_external=True
+        )
+        parser.setContentHandler(Handler())
+        from io import BytesIO
+        from xml.sax.xmlreader import InputSource
+
+        source = InputSource()
+        source.setByteStream(BytesIO(data))
+        try:
+            parser.parse(source)
+        except DefusedXmlException as exc:
+            self.problem(
+                "<!DOCTYPE>",
+                type(exc).__name__,
+                "DTDs, entity declarations and external entities are refused",
+                "remove the <!DOCTYPE ...> declaration and any entities",
+            )
+        except SAXParseException as exc:
+            self.problems.append(
+                Problem(
+                    self.file,
+                    exc.getLineNumber(),
+                    "xml",
+                    None,
+                    f"is not well-formed XML: {exc.getMessage()}",
+                )
+            )
+        except SAXException as exc:
+            self.problem("xml", None, f"cannot be read as XML: {exc.getMessage()}")
+
+    def line(self) -> int | None:
+        return self._locator.getLineNumber() if self._locator is not None else None
+
+    def problem(
+        self,
+        where: str,
+        value: str | None,
+        rule: str,
+        hint: str | None = None,
+        line: int | None = None,
+    ) -> None:
+        at = line if line is not None else self.line()
+        self.problems.append(Problem(self.file, at, where, _quote(value), rule, hint))
+
+    def start(self, name: tuple[str | None, str], attrs: AttributesNSImpl) -> None:
+        uri, local = name
+        tag = local.lower()
+        plain = {k[1]: v for k, v in attrs.items() if k[0] is None}
+        where = _describe(local, plain)
+        self.check_attributes(where, attrs)
+        parent = self._stack[-1] if self._stack else None
+        if parent is None:
+            self.root(uri, local, plain)
+        elif tag == "svg":
+            self.problem(
+                where,
+                None,
+                "nested <svg> elements are not read",
+                "turn it into a <g> with a transform",
+            )
+        if tag in _REFUSED_ELEMENTS:
+            self.problem(
+                where,
+                None,
+                f"<{local}> is refused in a map template",
+                "remove it: the template is read as data only",
+            )
+        transform = parent.transform if parent else IDENTITY
+        if "transform" in plain:
+            try:
+                transform = transform @ parse_transform(plain["transform"])
+            except ValueError as exc:
+                self.problem(f"{where}.transform", plain["transform"], str(exc))
+        group = parent.group if parent else ""
+        if tag == "g" and plain.get("id") in ("silhouette", "landmarks", "vessels"):
+            group = plain["id"]
+        hidden = (parent.hidden if parent else False) or tag in _HIDDEN_CONTAINERS
+        side = parent.side if parent else None
+        if "data-side" in plain and tag != "path":
+            side = _side_word(plain["data-side"]) or side
+        self._stack.append(_Frame(tag, transform, group, hidden, side))
+        if uri == SVG_NS and tag in _OUTLINE_SHAPES | _CENTRE_LINES:
+            self.shape(tag, where, plain, attrs, transform, group, hidden, side)
+
+    def root(self, uri: str | None, local: str, plain: dict[str, str]) -> None:
+        if uri != SVG_NS or local != "svg":
+            self.problem(
+                f"<{local}>",
+                uri,
+                "the root element must be <svg> in the SVG namespace",
+                f'use <svg xmlns="{SVG_NS}" viewBox="...">',
+            )
+        raw = plain.get("viewBox")
+        if raw is None:
+            self.problem("svg.viewBox", None, "is missing", 'add viewBox="0 0 400 1000"')
+            return
+        try:
+            box = [float(v) for v in re.split(r"[\s,]+", raw.strip())]
+        except ValueError:
+            box = []
+        if (
+            len(box) != 4
+            or not all(math.isfinite(v) and abs(v) <= MAX_VIEWBOX for v in box)
+            or not all(1 <= v <= MAX_VIEWBOX for v in box[2:])
+        ):
+            self.problem(
+                "svg.viewBox",
+                raw,
+                "must be four numbers: min-x min-y width height, with width and height "
+                f"between 1 and {MAX_VIEWBOX:.0f}",
+                'e.g. viewBox="0 0 400 1000"',
+            )
+            return
+        self.viewbox = (box[0], box[1], box[2], box[3])
+
+    def check_attributes(self, where: str, attrs: AttributesNSImpl) -> None:
+        for (_ns, local), value in attrs.items():
+            if local.lower().startswith("on"):
+                self.problem(
+                    f"{where}.{local}",
+                    value,
+                    "event attributes are refused",
+                    "remove it: the template is read as data only",
+                )
+            elif local == "href" and not value.strip().startswith("#"):
+                self.problem(
+                    f"{where}.href",
+                    value,
+                    "external references are refused",
+                    "embed the artwork as paths; only '#id' references are allowed",
+                )
+            elif local == "style":
+                self.check_css(value, f"{where}.style")
+                if re.search(r"(^|[;\s])transform\s*:", value):
+                    self.problem(
+                        f"{where}.style",
+                        value,
+                        "CSS transform is not read",
+                        "use the transform attribute instead",
+                    )
+            else:
+                self.check_css(value, f"{where}.{local}", imports=False)
+
+    def check_css(self, text: str, where: str, imports: bool = True) -> None:
+        for m in _URL.finditer(text):
+            if not m.group(2).strip().startswith("#"):
+                self.problem(
+                    where,
+                    m.group(0),
+                    "external references are refused",
+                    "only url(#id) references are allowed",
+                )
+        if imports and "@import" in text.lower():
+            self.problem(
+                where, "@import", "external stylesheets are refused", "put the rules in the file"
+            )
+
+    def shape(
+        self,
+        tag: str,
+        where: str,
+        plain: dict[str, str],
+        attrs: AttributesNSImpl,
+        transform: Affine,
+        group: str,
+        hidden: bool,
+        side: str | None,
+    ) -> None:
+        named = _name(plain, attrs, side)
+        if named is None and group == "vessels" and tag in _CENTRE_LINES and not hidden:
+            self.problem(
+                where,
+                None,
+                "a vessel needs a segment id",
+                'add data-segment="..." and data-side="right|left"',
+            )
+        if group in ("silhouette", "landmarks") and named is None:
+            d = self.shape_d(tag, where, plain)
+            if d is not None and not hidden:
+                self.outline(group, where, d, transform)
+            return
+        if named is None:
+            return
+        segment, own_side, problems = named
+        for rule, value, hint in problems:
+            self.problem(where, value, rule, hint)
+        if segment is None or tag not in _CENTRE_LINES:
+            if segment is not None:
+                self.problem(where, None, "a vessel centre line must be a <path>")
+            return
+        if hidden:
+            self.problem(
+                where,
+                None,
+                f"is inside <{self._hidden_tag()}> and never drawn",
+                "move it into the vessels layer",
+            )
+            return
+        d = self.shape_d(tag, where, plain)
+        if d is not None:
+            self.vessels.append(
+                _RawVessel(
+                    self.line(),
+                    where,
+                    segment,
+                    own_side,
+                    d,
+                    transform,
+                    plain.get("data-length-cm"),
+                    plain.get("data-diameter-mm"),
+                )
+            )
+
+    def _hidden_tag(self) -> str:
+        return next(f.tag for f in self._stack if f.tag in _HIDDEN_CONTAINERS)
+
+    def shape_d(self, tag: str, where: str, plain: dict[str, str]) -> str | None:
+        try:
+            return _shape_to_d(tag, plain)
+        except ValueError as exc:
+            self.problem(where, None, str(exc))
+            return None
+
+    def outline(self, group: str, where: str, d: str, transform: Affine) -> None:
+        try:
+            absolute = transform_path_d(d, transform)
+        except ValueError as exc:
+            self.problem(f"{where}.d", _clip(d), str(exc))
+            return
+        (self.silhouette if group == "silhouette" else self.landmarks).append(absolute)
+
+
+def _quote(value: str | None) -> str | None:
+    return None if value is None else repr(_clip(value))
+
+
+def _clip(text: str, limit: int = 60) -> str:
+    return text if len(text) <= limit else text[: limit - 3] + "..."
+
+
+def _describe(local: str, plain: dict[str, str]) -> str:
+    for key in ("data-segment", "id"):
+        if key in plain:
+            extra = f"[data-side={plain['data-side']}]" if "data-side" in plain else ""
+            return f"{local}[{key}={_clip(plain[key], 30)}]{extra}"
+    return local
+
+
+def _side_word(text: str) -> str | None:
+    return _SIDE_WORDS.get(text.strip().lower())
+
+
+NameResult = tuple[str | None, str | None, list[tuple[str, str | None, str | None]]]
+
+
+def _name(
+    plain: dict[str, str], attrs: AttributesNSImpl, inherited: str | None
+) -> NameResult | None:
+    """Return (segment, side, problems) for a vessel, or None when the element names none."""
+    problems: list[tuple[str, str | None, str | None]] = []
+    if "data-segment" in plain:
+        raw = plain["data-segment"]
+        segment = anatomy.resolve(raw)
+        if segment is None:
+            guess = anatomy.suggest(raw)
+            problems.append(
+                ("is not a segment id", raw, f"did you mean {guess}?" if guess else None)
+            )
+        explicit = plain.get("data-side")
+        side = _side_word(explicit) if explicit is not None else inherited
+        if explicit is not None and side is None:
+            problems.append(("data-side must be right or left", explicit, None))
+        if segment is not None:
+            side = _check_side(segment, side, explicit is not None, problems)
+        return segment, side, problems
+    label = attrs.get((INKSCAPE_NS, "label")) if (INKSCAPE_NS, "label") in attrs else None
+    for text in (plain.get("id"), label):
+        if not text:
+            continue
+        m = _NAMED.match(text.strip())
+        segment = anatomy.resolve(m.group("name")) if m else None
+        if m is None or segment is None:
+            continue
+        word = m.group("pre") or m.group("post")
+        side = _side_word(word) if word else inherited
+        return segment, _check_side(segment, side, False, problems), problems
+    return None
+
+
+def _check_side(
+    segment: str,
+    side: str | None,
+    explicit: bool,
+    problems: list[tuple[str, str | None, str | None]],
+) -> str | None:
+    if segment in anatomy.UNPAIRED:
+        if explicit:
+            problems.append(
+                (f"{segment} is unpaired and takes no data-side", side, "remove data-side")
+            )
+        return None
+    if side is None:
+        problems.append(
+            (f"{segment} needs a side", None, 'add data-side="right" or data-side="left"')
+        )
+    return side
+
+
+def _shape_to_d(tag: str, a: dict[str, str]) -> str:
+    """Return path data for a basic shape; ValueError when an attribute is missing or bad."""
+
+    def num(key: str, default: float | None = None) -> float:
+        raw = a.get(key)
+        if raw is None:
+            if default is None:
+                raise ValueError(f"<{tag}> needs a {key} attribute")
+            return default
+        try:
+            value = float(raw.strip().removesuffix("px"))
+        except ValueError:
+            raise ValueError(f"<{tag}> {key}={raw!r} is not a number") from None
+        if not math.isfinite(value):
+            raise ValueError(f"<{tag}> {key}={raw!r} is not a finite number")
+        return value
+
+    if tag == "path":
+        if "d" not in a:
+            raise ValueError("<path> needs a d attribute")
+        return a["d"]
+    if tag == "line":
+        return f"M {num('x1', 0)} {num('y1', 0)} L {num('x2', 0)} {num('y2', 0)}"
+    if tag in ("polyline", "polygon"):
+        pts = a.get("points", "").strip()
+        if not pts:
+            raise ValueError(f"<{tag}> needs a points attribute")
+        return f"M {pts}" + (" Z" if tag == "polygon" else "")
+    if tag == "rect":
+        x, y, w, h = num("x", 0), num("y", 0), num("width"), num("height")
+        return f"M {x} {y} H {x + w} V {y + h} H {x} Z"
+    if tag == "circle":
+        rx = ry = num("r")
+    else:
+        rx, ry = num("rx"), num("ry")
+    cx, cy = num("cx", 0), num("cy", 0)
+    return f"M {cx - rx} {cy} A {rx} {ry} 0 1 0 {cx + rx} {cy} A {rx} {ry} 0 1 0 {cx - rx} {cy} Z"
+
+
+# --------------------------------------------------------------------------- the contract
+
+
+def _build(reader: _Reader, display: str, name: str) -> tuple[Template | None, tuple[Problem, ...]]:
+    problems = list(reader.problems)
+
+    def add(line: int | None, where: str, value: Any, rule: str, hint: str | None = None) -> None:
+        problems.append(
+            Problem(display, line, where, None if value is None else str(value), rule, hint)
+        )
+
+    found: dict[str, Vessel] = {}
+    for raw in reader.vessels:
+        if raw.side is None and raw.segment not in anatomy.UNPAIRED:
+            continue  # its missing side is already reported
+        key = anatomy.vessel_key(raw.side or "right", raw.segment)
+        if key in found:
+            add(
+                raw.line,
+                raw.where,
+                key,
+                f"appears more than once (first on line {found[key].line})",
+                "delete the duplicate or fix its data-segment/data-side",
+            )
+            continue
+        try:
+            geometry = PathGeometry.from_d(raw.d, raw.transform)
+        except ValueError as exc:
+            add(raw.line, f"{raw.where}.d", repr(_clip(raw.d)), str(exc))
+            continue
+        length = _declared(raw.length, "data-length-cm", LENGTH_CM_RANGE, raw, add)
+        diameter = _declared(raw.diameter, "data-diameter-mm", DIAMETER_MM_RANGE, raw, add)
+        found[key] = Vessel(
+            key, raw.side, raw.segment, length or math.nan, diameter or math.nan, geometry, raw.line
+        )
+    declared = {
+        anatomy.vessel_key(r.side or "right", r.segment)
+        for r in reader.vessels
+        if r.side is not None or r.segment in anatomy.UNPAIRED
+    }
+    for side, seg in _EXPECTED:
+        key = anatomy.vessel_key(side, seg)
+        if key not in declared:
+            attrs = f'data-segment="{seg}"' + (
+                "" if seg in anatomy.UNPAIRED else f' data-side="{side}"'
+            )
+            add(
+                None,
+                f"vessels.{key}",
+                None,
+                "is missing",
+                f"add a <path {attrs}> drawn from its parent's distal end",
+            )
+    _check_joins(found, add)
+    _check_sides(found, add)
+    if problems or reader.viewbox is None:
+        return None, tuple(problems)
+    return Template(
+        name,
+        display,
+        reader.viewbox,
+        MappingProxyType(dict(found)),
+        tuple(reader.silhouette),
+        tuple(reader.landmarks),
+    ), ()
+
+
+def _declared(
+    raw: str | None, attr: str, bounds: tuple[float, float], v: _RawVessel, add: Any
+) -> float | None:
+    low, high = bounds
+    if raw is None:
+        add(
+            v.line,
+            f"{v.where}.{attr}",
+            None,
+            "is missing",
+            f"declare the segment's nominal {attr.rsplit('-', 1)[-1]} in {attr}",
+        )
+        return None
+    try:
+        value = float(raw)
+    except ValueError:
+        value = math.nan
+    if not (math.isfinite(value) and low < value <= high):
+        add(
+            v.line,
+            f"{v.where}.{attr}",
+            repr(raw),
+            f"must be a number above {low:g} and at most {high:g}",
+        )
+        return None
+    return value
+
+
+def _check_joins(found: dict[str, Vessel], add: Any) -> None:
+    for key, vessel in found.items():
+        parent_id = anatomy.SEGMENTS[vessel.segment].parent
+        if parent_id is None:
+            continue
+        parent = found.get(anatomy.vessel_key(vessel.side or "right", parent_id))
+        if parent is None:
+            continue
+        gap = math.dist(vessel.geometry.start, parent.geometry.end)
+        if gap <= JOIN_TOLERANCE:
+            continue
+        if math.dist(vessel.geometry.end, parent.geometry.end) <= JOIN_TOLERANCE:
+            hint = "it looks drawn distal to proximal: reverse its path"
+        elif math.dist(vessel.geometry.start, parent.geometry.start) <= JOIN_TOLERANCE:
+            hint = f"{parent.key} looks drawn distal to proximal: reverse its path"
+        else:
+            hint = f"move its first point onto the end of {parent.key}"
+        add(
+            vessel.line,
+            f"vessels.{key}",
+            f"gap={gap:.2f}",
+            f"must start within {JOIN_TOLERANCE:g} units of the distal end of {parent.key}",
+            hint,
+        )
+
+
+def _check_sides(found: dict[str, Vessel], add: Any) -> None:
+    aorta = found.get("AO")
+    if aorta is None:
+        return
+    mid_x = aorta.geometry.end[0]
+    for key, vessel in found.items():
+        if vessel.side is None:
+            continue
+        g = vessel.geometry
+        xs = (g.point_at(g.length() / 2)[0], g.end[0])
+        wrong = [x for x in xs if (x >= mid_x if vessel.side == "right" else x <= mid_x)]
+        if wrong:
+            viewer, sign = ("left", "<") if vessel.side == "right" else ("right", ">")
+            add(
+                vessel.line,
+                f"vessels.{key}",
+                f"x={wrong[-1]:.1f}",
+                f"must be {sign} {mid_x:.1f} (the aorta's x): a {vessel.side}-side vessel lies on "
+                f"the viewer's {viewer}",
+                "the patient's right is on the viewer's left; check data-side",
+            )
