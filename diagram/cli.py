@@ -13,7 +13,7 @@ from typing import Any
 
 import click
 
-from diagram import __version__
+from diagram._version import __version__
 from diagram.errors import DiagramError
 
 CAUTION = (

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from diagram import __version__
+from diagram._version import __version__
 from diagram.assess import assess, resolve_criteria
 from diagram.assess.results import Assessment
 from diagram.export import Drawing

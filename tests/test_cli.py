@@ -1,0 +1,101 @@
+"""The command line: exit codes, one line per problem, no traceback, no partial output."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from diagram.cli import main
+
+ROOT = Path(__file__).resolve().parents[1]
+EXAMPLES = sorted((ROOT / "examples").glob("*.yaml"))
+INVALID = ROOT / "tests" / "data" / "invalid"
+
+
+def run(args: list[str], capsys: pytest.CaptureFixture[str]) -> tuple[int, str, str]:
+    with pytest.raises(SystemExit) as done:
+        main(args)
+    out, err = capsys.readouterr()
+    return int(done.value.code or 0), out, err
+
+
+@pytest.mark.parametrize("example", EXAMPLES, ids=lambda p: p.name)
+def test_check_examples_exit_0_with_table_and_caution(
+    example: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    code, out, err = run(["check", str(example)], capsys)
+    assert code == 0, err
+    assert out.splitlines()[1].split()[:3] == ["side", "segment", "band"]
+    assert "not a substitute for the images" in out
+
+
+def test_check_json_has_the_documented_fields(capsys: pytest.CaptureFixture[str]) -> None:
+    code, out, _ = run(["check", str(ROOT / "examples" / "claudicant-sfa.yaml"), "--json"], capsys)
+    assert code == 0
+    doc = json.loads(out)
+    left = doc["limbs"]["left"]
+    assert left["segments"]["SFA-M"]["band"] == "75-99"
+    assert left["segments"]["CFA"]["vr"] is None  # no upstream sample: not computable
+    assert left["segments"]["SFA-P"]["psv"] == 92
+    lesion = left["lesions"][0]
+    # 385 / 92 (SFA-P, nearest non-stenotic upstream sample) = 4.18 -> 75-99 (Polak 2004: Vr >= 4)
+    assert (lesion["at"], lesion["band"], lesion["vr"], lesion["length_cm"]) == (
+        "SFA-M",
+        "75-99",
+        4.18,
+        3,
+    )
+    assert lesion["reference"]["segment"] == "SFA-P"
+    assert isinstance(doc["warnings"], list)
+    for w in doc["warnings"]:
+        assert set(w) == {"code", "side", "segment", "message"}
+    assert "Testcase" not in out and "DEMO-0101" not in out  # no identifiers in results
+
+
+def test_schema_is_a_json_schema(capsys: pytest.CaptureFixture[str]) -> None:
+    code, out, _ = run(["schema"], capsys)
+    assert code == 0
+    schema = json.loads(out)
+    assert schema["$schema"].startswith("https://json-schema.org/draft/2020-12")
+    import jsonschema
+
+    jsonschema.Draft202012Validator.check_schema(schema)
+
+
+@pytest.mark.parametrize(
+    "name", ["many_problems.yaml", "duplicate_keys.yaml", "alias_bomb.yaml", "json_problems.json"]
+)
+def test_invalid_study_exits_2_with_the_expected_lines(
+    name: str, capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.chdir(ROOT)
+    path = f"tests/data/invalid/{name}"
+    code, out, err = run(["check", path], capsys)
+    assert code == 2
+    expected = (INVALID / name).with_suffix(".expected").read_text().splitlines()
+    assert err.splitlines() == expected
+    assert "Traceback" not in err and out == ""
+
+
+def test_missing_file_is_a_one_line_error(capsys: pytest.CaptureFixture[str]) -> None:
+    code, _, err = run(["check", "no/such/study.yaml"], capsys)
+    assert code == 2
+    assert len(err.splitlines()) == 1 and "no/such/study.yaml" in err
+
+
+def test_unknown_criteria_name_gets_a_hint(capsys: pytest.CaptureFixture[str]) -> None:
+    code, _, err = run(["check", str(EXAMPLES[0]), "--criteria", "natve"], capsys)
+    assert code == 2
+    assert "did you mean native?" in err
+
+
+def test_python_dash_m_is_the_same_command() -> None:
+    done = subprocess.run(
+        [sys.executable, "-m", "diagram", "--version"], capture_output=True, text=True, check=False
+    )
+    assert done.returncode == 0
+    assert done.stdout.startswith("limbchart, version ")
