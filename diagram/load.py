@@ -66,9 +66,14 @@ class _Parsed:
     lines: dict[Loc, int] = field(default_factory=dict)
     raw: dict[Loc, str] = field(default_factory=dict)  # source text of non-string scalars
     problems: list[Problem] = field(default_factory=list)
+    unreadable: set[Loc] = field(default_factory=set)  # values already refused
+
+    def note(self, loc: Loc, line: int, rule: str, value: str | None = None) -> None:
+        self.problems.append(Problem("", line, _dotted(loc), value, rule))
 
 
 _NO_VALUE = object()  # a problem about a key or an item, not about a value
+_ONCE = "give each key once."
 
 
 class _Refused(Exception):
@@ -211,20 +216,12 @@ def _yaml_value(node: yaml.Node, loc: Loc, out: _Parsed, ctor: Any) -> object:
         for key_node, value_node in node.value:
             line = key_node.start_mark.line + 1
             if not isinstance(key_node, yaml.ScalarNode):
-                out.problems.append(Problem("", line, _dotted(loc), None, "has a non-text key."))
+                out.note(loc, line, "has a non-text key.")
                 continue
             key = key_node.value  # keys as written: `no:` stays the text "no"
             if key in mapping:
                 first = out.lines[(*loc, key)]
-                out.problems.append(
-                    Problem(
-                        "",
-                        line,
-                        _dotted((*loc, key)),
-                        None,
-                        f"is given twice (first on line {first}): give each key once.",
-                    )
-                )
+                out.note((*loc, key), line, f"is given twice (first on line {first}): {_ONCE}")
                 continue
             out.lines[(*loc, key)] = line
             mapping[key] = _yaml_value(value_node, (*loc, key), out, ctor)
@@ -238,15 +235,8 @@ def _yaml_value(node: yaml.Node, loc: Loc, out: _Parsed, ctor: Any) -> object:
     try:
         value: object = ctor.construct_object(node)
     except ValueError:
-        out.problems.append(
-            Problem(
-                "",
-                out.lines[loc],
-                _dotted(loc),
-                node.value[:40],
-                "is not a number this tool can read.",
-            )
-        )
+        out.note(loc, out.lines[loc], "is not a number this tool can read.", node.value[:40])
+        out.unreadable.add(loc)
         return None
     return value
 
@@ -311,8 +301,8 @@ def _parse_json(text: str) -> _Parsed:
         top = _LocatingDecoder().decode(text)
     except json.JSONDecodeError as err:
         raise _Refused(err.lineno, f"is not valid JSON: {err.msg}.") from None
-    except ValueError as err:  # e.g. an integer with more digits than Python converts
-        raise _Refused(None, f"is not valid JSON: {err}.") from None
+    except ValueError:  # an integer with more digits than Python converts
+        raise _Refused(None, "holds a number too long to read.") from None
     starts = [i for i, ch in enumerate(text) if ch == "\n"]
     parsed = _Parsed(kind="json")
 
@@ -323,15 +313,10 @@ def _parse_json(text: str) -> _Parsed:
             mapping: dict[str, object] = {}
             for key, item in at.value:
                 if key in mapping:
-                    parsed.problems.append(
-                        Problem(
-                            "",
-                            bisect_right(starts, item.start) + 1,
-                            _dotted((*loc, key)),
-                            None,
-                            f"is given twice (first on line {parsed.lines[(*loc, key)]}): "
-                            "give each key once.",
-                        )
+                    first = parsed.lines[(*loc, key)]
+                    line = bisect_right(starts, item.start) + 1
+                    parsed.note(
+                        (*loc, key), line, f"is given twice (first on line {first}): {_ONCE}"
                     )
                     continue
                 mapping[key] = unwrap(item, (*loc, key))
@@ -384,7 +369,9 @@ def _private(loc: Loc) -> bool:
     """Return True where a value may identify the patient and must not be echoed."""
     if loc[:1] in (("patient",), ("notes",)) or loc[-1:] == ("comment",):
         return True
-    return loc[:1] == ("exam",) and loc[1:2] != ("criteria",)
+    if loc[:1] == ("exam",):  # every exam fact but the criteria names
+        return len(loc) < 2 or not str(loc[1]).endswith("criteria")
+    return False
 
 
 def _close(word: str, choices: list[str]) -> str | None:
@@ -402,7 +389,7 @@ class _Checker:
         self.problems: list[Problem] = [
             Problem(name, p.line, p.field, p.value, p.rule, p.hint) for p in parsed.problems
         ]
-        self.bad: set[Loc] = set()
+        self.bad: set[Loc] = set(parsed.unreadable)
         self.seen: set[tuple[int | None, str, str]] = set()
 
     def line(self, loc: Loc) -> int | None:
@@ -611,6 +598,10 @@ class _Checker:
             for i, graft in enumerate(self.items(limb, "grafts")):
                 for key in ("from", "to"):
                     self.segment((*base, "grafts", i, key), graft.get(key))
+                samples = graft.get("samples")
+                for site, sample in samples.items() if isinstance(samples, dict) else ():
+                    if isinstance(sample, dict):
+                        self.sample((*base, "grafts", i, "samples", site), sample, "graft site")
         if len(aorta) == 2:
             sides = sorted(aorta, key=lambda s: self.line(aorta[s][0]) or 0)
             other = aorta[sides[0]][0]
@@ -713,6 +704,11 @@ class _Checker:
 # --- building the study -----------------------------------------------------------------------
 
 
+def _id(name: str) -> str:
+    """Return the canonical id of a checked segment name."""
+    return anatomy.resolve(name) or name
+
+
 def _float(value: Any) -> float | None:
     return None if value is None else float(value)
 
@@ -747,15 +743,14 @@ def _limb(side: str, limb: dict[str, Any], lines: dict[Loc, int]) -> Limb:
     base: Loc = ("limbs", side)
     segments = {}
     for key, item in limb.get("segments", {}).items():
-        seg = anatomy.resolve(key)
-        assert seg is not None  # checked
+        seg = _id(key)
         segments[seg] = SegmentFinding(
             **_sample_fields(item, lines.get((*base, "segments", key))), id=seg
         )
     lesions = tuple(
         Lesion(
             **_sample_fields(item, lines.get((*base, "lesions", i))),
-            at=anatomy.resolve(item["at"]) or "",
+            at=_id(item["at"]),
             from_cm=_float(item.get("from_cm")),
             length_cm=_float(item.get("length_cm")),
             reconstitutes=anatomy.resolve(item.get("reconstitutes", "")),
@@ -764,8 +759,8 @@ def _limb(side: str, limb: dict[str, Any], lines: dict[Loc, int]) -> Limb:
     )
     stents = tuple(
         Stent(
-            from_=anatomy.resolve(item["from"]) or "",
-            to=anatomy.resolve(item["to"]) or "",
+            from_=_id(item["from"]),
+            to=_id(item["to"]),
             from_cm=_float(item.get("from_cm")),
             length_cm=_float(item.get("length_cm")),
             line=lines.get((*base, "stents", i)),
@@ -775,8 +770,14 @@ def _limb(side: str, limb: dict[str, Any], lines: dict[Loc, int]) -> Limb:
     grafts = tuple(
         Graft(
             conduit=item["conduit"],
-            from_=anatomy.resolve(item["from"]) or "",
-            to=anatomy.resolve(item["to"]) or "",
+            from_=_id(item["from"]),
+            to=_id(item["to"]),
+            samples={
+                site: Sample(
+                    **_sample_fields(sample, lines.get((*base, "grafts", i, "samples", site)))
+                )
+                for site, sample in item.get("samples", {}).items()
+            },
             line=lines.get((*base, "grafts", i)),
         )
         for i, item in enumerate(limb.get("grafts", []))
@@ -797,22 +798,9 @@ def _build(parsed: _Parsed, name: str) -> Study:
 
     return Study(
         source=name,
-        patient=Patient(
-            name=patient.get("name"),
-            id=patient.get("id"),
-            birth_date=_date(patient.get("birth_date")),
-            sex=patient.get("sex"),
-        ),
-        exam=Exam(
-            date=_date(exam.get("date")),
-            accession=exam.get("accession"),
-            site=exam.get("site"),
-            operator=exam.get("operator"),
-            referrer=exam.get("referrer"),
-            indication=exam.get("indication"),
-            criteria=exam.get("criteria", "native"),
-            study_uid=exam.get("study_uid"),
-        ),
+        # the file's keys are the field names (the schema admits no others)
+        patient=Patient(**{**patient, "birth_date": _date(patient.get("birth_date"))}),
+        exam=Exam(**{**exam, "date": _date(exam.get("date"))}),
         pressures=Pressures(
             brachial_right=_float(brachial.get("right")),
             brachial_left=_float(brachial.get("left")),

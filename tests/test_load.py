@@ -15,6 +15,7 @@ from diagram.anatomy import Side
 from diagram.errors import StudyError
 from diagram.load import MAX_BYTES, load_study, load_study_text, study_schema
 from diagram.study import (
+    GRAFT_SITES,
     Exam,
     Flow,
     Graft,
@@ -24,6 +25,7 @@ from diagram.study import (
     Patient,
     Plaque,
     Pressures,
+    Sample,
     SegmentFinding,
     Stent,
     Study,
@@ -144,21 +146,37 @@ def test_missing_file_is_a_problem_not_a_traceback(tmp_path: Path) -> None:
     ("text", "name", "expected"),
     [
         ("[" * 21 + "]" * 21, "deep.json", "deep.json:1: (file): is nested deeper than 20 levels."),
-        ("[" * 100_000 + "]" * 100_000, "deeper.json",
-         "deeper.json:1: (file): is nested deeper than 20 levels."),
-        ("notes: " + "[" * 21 + "]" * 21, "deep.yaml",
-         "deep.yaml:1: (file): is nested deeper than 20 levels."),
-        ("[" + ",".join(["1"] * 10_000) + "]", "wide.json",
-         "wide.json:1: (file): holds more than 10000 values."),
-        ("notes: [" + ",".join(["1"] * 10_000) + "]", "wide.yaml",
-         "wide.yaml:1: (file): holds more than 10000 values."),
-        ("format: 1\nnotes: *x\n", "alias.yaml",
-         "alias.yaml:2: (file): uses a YAML anchor or alias (*x): anchors and aliases are not "
-         "allowed in a study file; write each value out."),
-        ('{"format": 1, "psv": 1' + "0" * 5000 + "}", "huge.json",
-         "huge.json: (file): is not valid JSON: Exceeds the limit (4300 digits) for integer "
-         "string conversion: value has 5001 digits; use sys.set_int_max_str_digits() to "
-         "increase the limit."),
+        (
+            "[" * 100_000 + "]" * 100_000,
+            "deeper.json",
+            "deeper.json:1: (file): is nested deeper than 20 levels.",
+        ),
+        (
+            "notes: " + "[" * 21 + "]" * 21,
+            "deep.yaml",
+            "deep.yaml:1: (file): is nested deeper than 20 levels.",
+        ),
+        (
+            "[" + ",".join(["1"] * 10_000) + "]",
+            "wide.json",
+            "wide.json:1: (file): holds more than 10000 values.",
+        ),
+        (
+            "notes: [" + ",".join(["1"] * 10_000) + "]",
+            "wide.yaml",
+            "wide.yaml:1: (file): holds more than 10000 values.",
+        ),
+        (
+            "format: 1\nnotes: *x\n",
+            "alias.yaml",
+            "alias.yaml:2: (file): uses a YAML anchor or alias (*x): anchors and aliases are not "
+            "allowed in a study file; write each value out.",
+        ),
+        (
+            '{"format": 1, "psv": 1' + "0" * 5000 + "}",
+            "huge.json",
+            "huge.json: (file): holds a number too long to read.",
+        ),
     ],
 )
 def test_hostile_structure_is_refused_before_building(text: str, name: str, expected: str) -> None:
@@ -172,6 +190,28 @@ def test_nesting_at_the_limit_is_parsed() -> None:
         "mem.yaml:1: format: is required.",
         "mem.yaml:1: notes: must be text.",
     ]
+
+
+def test_a_yaml_number_too_long_to_read_is_a_problem() -> None:
+    text = "format: 1\nlimbs: {left: {segments: {CFA: {psv: 1" + "0" * 5000 + "}}}}\n"
+    assert problems_text(text) == [
+        f"mem.yaml:2: limbs.left.segments.CFA.psv: 1{'0' * 39} is not a number this tool can read."
+    ]
+
+
+@pytest.mark.parametrize(
+    ("written", "accepted"),
+    [("1", True), ("1.0", True), ("2", False), ("0", False), ("true", False), ("'1'", False)],
+)
+def test_format_must_be_1(written: str, accepted: bool) -> None:
+    text = f"format: {written}\n"
+    if accepted:
+        study = load_study_text(text, "f.yaml", ".yaml")
+        assert study.format == 1 and type(study.format) is int
+    else:
+        assert problems_text(text) == [
+            f"mem.yaml:1: format: {written} must be 1, the only study format this version reads."
+        ]
 
 
 def test_a_whitespace_only_text_is_empty() -> None:
@@ -285,8 +325,13 @@ def test_stent_runs_down_one_path(start: str, end: str, accepted: bool) -> None:
 
 @pytest.mark.parametrize(
     ("at", "target", "accepted"),
-    [("POP-AK", "POP-BK", True), ("POP-AK", "PER-D", True), ("POP-AK", "POP-AK", False),
-     ("POP-AK", "SFA-D", False), ("ATA-P", "PTA-P", False)],
+    [
+        ("POP-AK", "POP-BK", True),
+        ("POP-AK", "PER-D", True),
+        ("POP-AK", "POP-AK", False),
+        ("POP-AK", "SFA-D", False),
+        ("ATA-P", "PTA-P", False),
+    ],
 )
 def test_reconstitution_is_strictly_downstream(at: str, target: str, accepted: bool) -> None:
     text = (
@@ -302,12 +347,21 @@ def test_reconstitution_is_strictly_downstream(at: str, target: str, accepted: b
 
 @pytest.mark.parametrize(
     ("written", "accepted"),
-    [("2026-11-20", True), ("2024-02-29", True), ("2026-02-29", False), ("2026-13-01", False),
-     ("2026-1-5", False), ("2026-11-20 10:30:00", False), ("20261120", False)],
+    [
+        ("2026-11-20", True),
+        ("2024-02-29", True),
+        ("2026-02-29", False),
+        ("2026-13-01", False),
+        ("2026-1-5", False),
+        ("2026-11-20 10:30:00", False),
+        ("20261120", False),
+    ],
 )
 def test_dates_are_iso_calendar_dates_in_yaml_and_json(written: str, accepted: bool) -> None:
-    for text, name in ((f"format: 1\nexam:\n  date: {written}\n", "d.yaml"),
-                       (f'{{"format": 1, "exam": {{"date": "{written}"}}}}', "d.json")):
+    for text, name in (
+        (f"format: 1\nexam:\n  date: {written}\n", "d.yaml"),
+        (f'{{"format": 1, "exam": {{"date": "{written}"}}}}', "d.json"),
+    ):
         if accepted:
             study = load_study_text(text, name, Path(name).suffix)
             assert study.exam.date == dt.date.fromisoformat(written)
@@ -347,57 +401,110 @@ def test_aliases_in_references_resolve_too() -> None:
 
 def expected_full(source: str, yaml_lines: bool) -> Study:
     """The full demo study as values; lines are those of full.yaml or of full.json."""
-    line = (
-        {"AO": 24, "CFA": 25, "SFA-P": 26, "L-CFA": 29, "L-SFA-P": 30, "SFA-D": 31,
-         "PER-M": 32, "ATA-D": 33, "les0": 35, "les1": 42, "stent": 46, "graft": 47}
-        if yaml_lines else
-        {"AO": 38, "CFA": 42, "SFA-P": 46, "L-CFA": 56, "L-SFA-P": 63, "SFA-D": 67,
-         "PER-M": 72, "ATA-D": 75, "les0": 81, "les1": 90, "stent": 98, "graft": 106}
-    )
+    # lines read off the two files: the key of each segment, the first line of each list item
+    names = "AO CFA SFA-P L-CFA L-SFA-P SFA-D PER-M ATA-D les0 les1 stent graft g-pa g-mid g-da"
+    yaml_at = (24, 25, 26, 29, 30, 31, 32, 33, 35, 42, 46, 48, 52, 53, 54)
+    json_at = (38, 42, 46, 56, 63, 67, 72, 75, 81, 90, 98, 106, 111, 115, 119)
+    line = dict(zip(names.split(), yaml_at if yaml_lines else json_at, strict=True))
     right = Limb(
         side=Side.RIGHT,
         segments={
             "AO": SegmentFinding(psv=98.0, waveform=Waveform.TRIPHASIC, line=line["AO"], id="AO"),
-            "CFA": SegmentFinding(psv=112.0, waveform=Waveform.TRIPHASIC, line=line["CFA"],
-                                  id="CFA"),
-            "SFA-P": SegmentFinding(psv=90.5, edv=0.0, waveform=Waveform.TRIPHASIC,
-                                    flow=Flow.ANTEGRADE, line=line["SFA-P"], id="SFA-P"),
+            "CFA": SegmentFinding(
+                psv=112.0, waveform=Waveform.TRIPHASIC, line=line["CFA"], id="CFA"
+            ),
+            "SFA-P": SegmentFinding(
+                psv=90.5,
+                edv=0.0,
+                waveform=Waveform.TRIPHASIC,
+                flow=Flow.ANTEGRADE,
+                line=line["SFA-P"],
+                id="SFA-P",
+            ),
         },
     )
     left = Limb(
         side=Side.LEFT,
         segments={
-            "CFA": SegmentFinding(psv=105.0, waveform=Waveform.TRIPHASIC, angle=60.0,
-                                  prf_hz=10000.0, f0_mhz=5.0, line=line["L-CFA"], id="CFA"),
-            "SFA-P": SegmentFinding(psv=88.0, waveform=Waveform.TRIPHASIC, line=line["L-SFA-P"],
-                                    id="SFA-P"),
-            "SFA-D": SegmentFinding(psv=45.0, waveform=Waveform.MONOPHASIC, comment="damped",
-                                    line=line["SFA-D"], id="SFA-D"),
+            "CFA": SegmentFinding(
+                psv=105.0,
+                waveform=Waveform.TRIPHASIC,
+                angle=60.0,
+                prf_hz=10000.0,
+                f0_mhz=5.0,
+                line=line["L-CFA"],
+                id="CFA",
+            ),
+            "SFA-P": SegmentFinding(
+                psv=88.0, waveform=Waveform.TRIPHASIC, line=line["L-SFA-P"], id="SFA-P"
+            ),
+            "SFA-D": SegmentFinding(
+                psv=45.0,
+                waveform=Waveform.MONOPHASIC,
+                comment="damped",
+                line=line["SFA-D"],
+                id="SFA-D",
+            ),
             "PER-M": SegmentFinding(not_assessed=True, line=line["PER-M"], id="PER-M"),
-            "ATA-D": SegmentFinding(band="75-99", plaque=Plaque.MIXED, line=line["ATA-D"],
-                                    id="ATA-D"),
+            "ATA-D": SegmentFinding(
+                band="75-99", plaque=Plaque.MIXED, line=line["ATA-D"], id="ATA-D"
+            ),
         },
         lesions=(
-            Lesion(psv=390.0, edv=40.0, proximal_psv=92.0, plaque=Plaque.CALCIFIED,
-                   line=line["les0"], at="SFA-M", from_cm=3.0, length_cm=4.0),
-            Lesion(occluded=True, line=line["les1"], at="POP-AK", length_cm=6.0,
-                   reconstitutes="POP-BK"),
+            Lesion(
+                psv=390.0,
+                edv=40.0,
+                proximal_psv=92.0,
+                plaque=Plaque.CALCIFIED,
+                line=line["les0"],
+                at="SFA-M",
+                from_cm=3.0,
+                length_cm=4.0,
+            ),
+            Lesion(
+                occluded=True, line=line["les1"], at="POP-AK", length_cm=6.0, reconstitutes="POP-BK"
+            ),
         ),
-        stents=(Stent(from_="SFA-D", to="POP-AK", from_cm=2.0, length_cm=10.0,
-                      line=line["stent"]),),
-        grafts=(Graft(conduit="vein", from_="CFA", to="POP-BK", line=line["graft"]),),
+        stents=(
+            Stent(from_="SFA-D", to="POP-AK", from_cm=2.0, length_cm=10.0, line=line["stent"]),
+        ),
+        grafts=(
+            Graft(
+                conduit="vein",
+                from_="CFA",
+                to="POP-BK",
+                samples={
+                    "proximal_anastomosis": Sample(
+                        psv=150.0, waveform=Waveform.BIPHASIC, line=line["g-pa"]
+                    ),
+                    "mid": Sample(psv=80.0, edv=10.0, line=line["g-mid"]),
+                    "distal_anastomosis": Sample(psv=310.0, proximal_psv=90.0, line=line["g-da"]),
+                },
+                line=line["graft"],
+            ),
+        ),
     )
     return Study(
         source=source,
-        patient=Patient(name="Demo, Ada", id="D-0001", birth_date=dt.date(1948, 3, 14),
-                        sex="female"),
-        exam=Exam(date=dt.date(2026, 11, 20), accession="X-1234", site="Example Vascular Lab",
-                  operator="A. Sonographer", referrer="B. Referrer",
-                  indication="Left calf claudication at 100 m", criteria="native",
-                  study_uid="1.2.826.0.1.3680043.2.1143.1"),
-        pressures=Pressures(brachial_right=142.0, brachial_left=136.0,
-                            right=LimbPressures(pt=120.0, dp=118.0, toe=88.0),
-                            left=LimbPressures(pt=74.0, dp=70.0, toe=40.0)),
+        patient=Patient(
+            name="Demo, Ada", id="D-0001", birth_date=dt.date(1948, 3, 14), sex="female"
+        ),
+        exam=Exam(
+            date=dt.date(2026, 11, 20),
+            accession="X-1234",
+            site="Example Vascular Lab",
+            operator="A. Sonographer",
+            referrer="B. Referrer",
+            indication="Left calf claudication at 100 m",
+            criteria="native",
+            study_uid="1.2.826.0.1.3680043.2.1143.1",
+        ),
+        pressures=Pressures(
+            brachial_right=142.0,
+            brachial_left=136.0,
+            right=LimbPressures(pt=120.0, dp=118.0, toe=88.0),
+            left=LimbPressures(pt=74.0, dp=70.0, toe=40.0),
+        ),
         limbs={Side.RIGHT: right, Side.LEFT: left},
         prior="../2026-05-02/study.yaml",
         notes="free text",
@@ -464,14 +571,38 @@ def test_every_object_in_the_schema_forbids_unknown_keys() -> None:
         assert obj["additionalProperties"] is False or isinstance(obj["additionalProperties"], dict)
 
 
-def test_schema_sample_keys_are_the_dataclass_fields() -> None:
+def _fields(cls: type, *drop: str) -> set[str]:
     import dataclasses
 
-    defs = study_schema()["$defs"]
-    sample_fields = {f.name for f in dataclasses.fields(SegmentFinding)} - {"id", "line"}
-    assert set(defs["segment"]["properties"]) == sample_fields
-    lesion_fields = {f.name for f in dataclasses.fields(Lesion)} - {"line"}
-    assert set(defs["lesion"]["properties"]) == lesion_fields
+    names = {f.name for f in dataclasses.fields(cls)} - {"line", *drop}
+    return {"from" if name == "from_" else name for name in names}
+
+
+def test_schema_keys_are_the_dataclass_fields() -> None:
+    schema = study_schema()
+    defs, top = schema["$defs"], schema["properties"]
+    assert set(defs["segment"]["properties"]) == _fields(SegmentFinding, "id")
+    assert set(defs["lesion"]["properties"]) == _fields(Lesion)
+    assert set(defs["stent"]["properties"]) == _fields(Stent)
+    assert set(defs["graft"]["properties"]) == _fields(Graft)
+    assert tuple(defs["graft"]["properties"]["samples"]["properties"]) == GRAFT_SITES
+    assert set(defs["limb"]["properties"]) == _fields(Limb, "side")
+    assert set(defs["limb_pressures"]["properties"]) == _fields(LimbPressures)
+    assert set(top["patient"]["properties"]) == _fields(Patient)
+    assert set(top["exam"]["properties"]) == _fields(Exam)
+    assert set(top) == _fields(Study, "source")
+    assert set(top["limbs"]["properties"]) == {side.value for side in Side}
+
+
+def test_exam_criteria_names_are_carried() -> None:
+    text = "format: 1\nexam: {criteria: lab.yaml, stent_criteria: s.yaml, graft_criteria: g.yaml}\n"
+    exam = load_study_text(text, "c.yaml", ".yaml").exam
+    assert (exam.criteria, exam.stent_criteria, exam.graft_criteria) == (
+        "lab.yaml",
+        "s.yaml",
+        "g.yaml",
+    )
+    assert load_study_text("format: 1\n", "c.yaml", ".yaml").exam == Exam()
 
 
 def test_import_stays_light() -> None:
