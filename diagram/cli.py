@@ -117,6 +117,30 @@ def check(study: Path, as_json: bool, criteria: str | None) -> None:
         click.echo(f"\n{CAUTION}")
 
 
+@cli.group()
+def criteria() -> None:
+    """List and show criteria sets (shipped, or a lab's own file)."""
+
+
+@criteria.command("list")
+def criteria_list() -> None:
+    """List the shipped criteria sets."""
+    from diagram.criteria import load_criteria, shipped_names
+
+    for name in shipped_names():
+        crit = load_criteria(name)
+        click.echo(f"{name:8}  {crit.kind:7}  {crit.title}")
+
+
+@criteria.command("show")
+@click.argument("name_or_path")
+def criteria_show(name_or_path: str) -> None:
+    """Print a criteria set (a shipped NAME or a lab file PATH) as a table, with its sources."""
+    from diagram.criteria import criteria_table, load_criteria
+
+    click.echo(criteria_table(load_criteria(name_or_path)))
+
+
 @cli.command()
 def schema() -> None:
     """Print the JSON Schema of the study file."""

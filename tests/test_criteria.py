@@ -101,3 +101,64 @@ def test_unknown_shipped_name_gets_a_hint() -> None:
     with pytest.raises(CriteriaError) as err:
         load_criteria("natve")
     assert "(did you mean native?)" in str(err.value)
+
+
+def test_criteria_commands(capsys: pytest.CaptureFixture[str], tmp_path: Path) -> None:
+    from diagram.cli import main
+
+    with pytest.raises(SystemExit) as done:
+        main(["criteria", "list"])
+    out = capsys.readouterr().out
+    assert done.value.code == 0
+    assert [line.split()[0] for line in out.splitlines()] == ["graft", "native", "stent"]
+
+    with pytest.raises(SystemExit) as done:
+        main(["criteria", "show", "native"])
+    out = capsys.readouterr().out
+    rows = [" ".join(line.split()) for line in out.splitlines()]
+    assert "50-74 50-74% Vr >= 2 Vr >= 2.0 (Jager 1985; Kohler 1987)" in rows
+
+    bad = tmp_path / "lab.yaml"
+    bad.write_text(GOOD.replace("format: 1", "format: 2"))
+    with pytest.raises(SystemExit) as done:
+        main(["criteria", "show", str(bad)])
+    assert done.value.code == 2
+    assert capsys.readouterr().err.strip().endswith("lab.yaml:1: format: 2 must be 1.")
+
+
+# In-stent restenosis (Bandyk group angioplasty-site criteria, confirmed secondary):
+# >= 50% PSV 180-300 and Vr 2-3.5; >= 70% PSV > 300 and Vr > 3.5 (boundaries to the higher band).
+@pytest.mark.parametrize(
+    ("vr", "psv", "band"),
+    [
+        (1.99, 250, "isr-lt50"),
+        (2.0, 179, "isr-lt50"),
+        (2.0, 180, "isr-50-69"),
+        (3.49, 320, "isr-50-69"),
+        (3.5, 299, "isr-50-69"),
+        (3.5, 300, "isr-70-99"),
+        (None, 150, "isr-lt50"),  # PSV alone rules out restenosis >= 50%
+        (None, 350, None),  # PSV alone cannot decide: left ungraded
+    ],
+)
+def test_stent_set_boundaries(vr: float | None, psv: float, band: str | None) -> None:
+    rule = load_criteria("stent").grade(vr, psv, lesion=True)
+    assert (rule.id if rule else None) == band
+
+
+# Vein graft surveillance (SVS 2018, Zierler; after Bandyk 1988, confirmed): low PSV < 180 and
+# Vr < 2.0; moderate PSV 180-300 or Vr > 2.0; high PSV > 300 and Vr > 3.5.
+@pytest.mark.parametrize(
+    ("vr", "psv", "band"),
+    [
+        (1.99, 179, "graft-low"),
+        (2.0, 150, "graft-moderate"),
+        (1.5, 180, "graft-moderate"),
+        (3.5, 299, "graft-moderate"),
+        (3.49, 310, "graft-moderate"),
+        (3.5, 300, "graft-high"),
+    ],
+)
+def test_graft_set_boundaries(vr: float, psv: float, band: str) -> None:
+    rule = load_criteria("graft").grade(vr, psv, lesion=False)
+    assert rule is not None and rule.id == band

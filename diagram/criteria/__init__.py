@@ -190,6 +190,22 @@ class CriteriaSets:
         return -1 if look is None else LOOK_SEVERITY[look]
 
 
+def criteria_table(crit: Criteria) -> str:
+    """Return a criteria set as a plain-text table, mildest band first, with each source."""
+    rows = [("band", "label", "rule", "source")]
+    rows += [(b.id, b.label, crit.describe(b), b.source) for b in crit.bands]
+    widths = [max(len(r[i]) for r in rows) for i in range(3)]
+    body = [
+        "  ".join(c.ljust(w) for c, w in zip(r[:3], widths, strict=True)) + "  " + r[3]
+        for r in rows
+    ]
+    origin = "shipped with limbchart" if crit.origin == "shipped" else f"lab file {crit.origin}"
+    head = [f"{crit.name}: {crit.title} ({crit.kind}; {origin})", f"source: {crit.source}"]
+    if crit.lesion_floor:
+        head.append(f"a documented lesion is graded at least {crit.lesion_floor}")
+    return "\n".join([*head, *body])
+
+
 def shipped_names() -> tuple[str, ...]:
     """Return the names of the criteria sets shipped with the package."""
     folder = resources.files("diagram.criteria")
