@@ -428,6 +428,12 @@ class _Checker:
         self.seen.add((line, _dotted(loc), rule))
         self.problems.append(Problem(self.name, line, _dotted(loc), text, rule, hint))
 
+    def refuse(
+        self, item: dict[str, object], loc: Loc, key: str, rule: str, hint: str | None = None
+    ) -> None:
+        """Report the value of ``key`` in the mapping ``item`` found at ``loc``."""
+        self.report((*loc, key), rule, item[key], hint=hint)
+
     def check(self) -> None:
         import jsonschema
 
@@ -621,10 +627,8 @@ class _Checker:
     def sample(self, loc: Loc, sample: dict[str, object], noun: str) -> None:
         psv, edv = _number(sample.get("psv")), _number(sample.get("edv"))
         if psv is not None and edv is not None and edv > psv:
-            self.report(
-                (*loc, "edv"),
-                f"is above the PSV ({_num(psv)}): EDV cannot exceed PSV.",
-                sample["edv"],
+            self.refuse(
+                sample, loc, "edv", f"is above the PSV ({_num(psv)}): EDV cannot exceed PSV."
             )
         for flag, why in (
             ("occluded", f"an occluded {noun} has no velocity"),
@@ -633,29 +637,27 @@ class _Checker:
             if sample.get(flag) is True:
                 for key in _MEASURED if flag == "not_assessed" else ("psv", "edv", "shift_hz"):
                     if key in sample:
-                        self.report((*loc, key), f"is refused: {why}.", sample[key])
+                        self.refuse(sample, loc, key, f"is refused: {why}.")
 
     def extent(self, loc: Loc, seg: str, item: dict[str, object]) -> None:
         """Check that an extent starts inside ``seg`` and ends inside the limb."""
         nominal = anatomy.SEGMENTS[seg].length_cm
         start = _number(item.get("from_cm"))
         if start is not None and start > nominal and (*loc, "from_cm") not in self.bad:
-            self.report(
-                (*loc, "from_cm"),
+            self.refuse(
+                item,
+                loc,
+                "from_cm",
                 f"is beyond the end of {seg} (nominal length {_num(nominal)} cm).",
-                item["from_cm"],
             )
             return
         length = _number(item.get("length_cm"))
         remaining = anatomy.remaining_length_cm(seg, start or 0.0)
         if length is not None and length > remaining:
             where = f"{seg} at {_num(start)} cm" if start else f"the start of {seg}"
-            self.report(
-                (*loc, "length_cm"),
-                f"is longer than the limb: {_num(remaining)} cm "
-                f"remain below {where} (nominal lengths).",
-                item["length_cm"],
-            )
+            rule = f"is longer than the limb: {_num(remaining)} cm remain below {where}"
+            rule += " (nominal lengths)."
+            self.refuse(item, loc, "length_cm", rule)
 
     def lesion(self, loc: Loc, lesion: dict[str, object]) -> str | None:
         self.sample(loc, lesion, "lesion")
@@ -668,18 +670,11 @@ class _Checker:
         if target is None:
             return seg
         if lesion.get("occluded") is not True:
-            self.report(
-                (*loc, "reconstitutes"),
-                "is refused: only an occluded lesion reconstitutes.",
-                lesion["reconstitutes"],
-                hint="add occluded: true",
-            )
+            rule = "is refused: only an occluded lesion reconstitutes."
+            self.refuse(lesion, loc, "reconstitutes", rule, hint="add occluded: true")
         elif seg is not None and not anatomy.is_downstream(target, seg):
-            self.report(
-                (*loc, "reconstitutes"),
-                f"is not downstream of {seg}, where the occlusion starts.",
-                lesion["reconstitutes"],
-            )
+            rule = f"is not downstream of {seg}, where the occlusion starts."
+            self.refuse(lesion, loc, "reconstitutes", rule)
         return seg
 
     def stent(self, loc: Loc, stent: dict[str, object]) -> None:
@@ -693,12 +688,8 @@ class _Checker:
             and end != start
             and (not anatomy.is_downstream(end, start))
         ):
-            self.report(
-                (*loc, "to"),
-                f"is not on one path downstream of {start}: a stent runs "
-                "from a segment down to the same or a downstream one.",
-                stent["to"],
-            )
+            rule = f"is not {start} or downstream of it: a stent runs down one path."
+            self.refuse(stent, loc, "to", rule)
 
 
 # --- building the study -----------------------------------------------------------------------
