@@ -223,7 +223,7 @@ class _Reader:
     viewbox: tuple[float, float, float, float] | None = None
     _stack: list[_Frame] = field(default_factory=list)
     _locator: Locator | None = None
-    _root_seen: bool = False
+    fatal: bool = False  # the XML could not be read to its end: contract checks are moot
 
     def feed(self, data: bytes) -> None:
         from xml.sax import SAXException, SAXParseException
@@ -270,24 +270,20 @@ class _Reader:
         source.setByteStream(BytesIO(data))
         try:
             parser.parse(source)
-        except DefusedXmlException as exc:
+        except DefusedXmlException:
+            self.fatal = True
             self.problem(
                 "<!DOCTYPE>",
-                type(exc).__name__,
+                None,
                 "DTDs, entity declarations and external entities are refused",
                 "remove the <!DOCTYPE ...> declaration and any entities",
             )
         except SAXParseException as exc:
-            self.problems.append(
-                Problem(
-                    self.file,
-                    exc.getLineNumber(),
-                    "xml",
-                    None,
-                    f"is not well-formed XML: {exc.getMessage()}",
-                )
-            )
+            self.fatal = True
+            rule = f"is not well-formed XML: {exc.getMessage()}"
+            self.problems.append(Problem(self.file, exc.getLineNumber(), "xml", None, rule))
         except SAXException as exc:
+            self.fatal = True
             self.problem("xml", None, f"cannot be read as XML: {exc.getMessage()}")
 
     def line(self) -> int | None:
@@ -612,6 +608,8 @@ def _shape_to_d(tag: str, a: dict[str, str]) -> str:
 
 def _build(reader: _Reader, display: str, name: str) -> tuple[Template | None, tuple[Problem, ...]]:
     problems = list(reader.problems)
+    if reader.fatal:
+        return None, tuple(problems)
 
     def add(line: int | None, where: str, value: Any, rule: str, hint: str | None = None) -> None:
         problems.append(
@@ -647,7 +645,15 @@ def _build(reader: _Reader, display: str, name: str) -> tuple[Template | None, t
         for r in reader.vessels
         if r.side is not None or r.segment in anatomy.UNPAIRED
     }
-    for side, seg in _EXPECTED:
+    if not reader.vessels and not reader.fatal:
+        add(
+            None,
+            "vessels",
+            None,
+            f"no vessel centre lines found (0 of {len(_EXPECTED)})",
+            'name each centre line with data-segment="..." and data-side="right|left"',
+        )
+    for side, seg in _EXPECTED if reader.vessels else ():
         key = anatomy.vessel_key(side, seg)
         if key not in declared:
             attrs = f'data-segment="{seg}"' + (
