@@ -343,11 +343,15 @@ _TYPE_RULES = {
     "array": "must be a list",
 }
 _LIMIT_LABELS = {"psv": "PSV", "edv": "EDV", "proximal_psv": "a proximal PSV"}
+_IDENTITY_KEYS = {f.name for cls in (Patient, Exam) for f in dataclasses.fields(cls)}
 _YAML_BOOLEAN_WORDS = {"yes", "no", "on", "off"}
 _PLAIN_DECIMAL = re.compile(r"[-+]?(0|[1-9][0-9]*)(\.[0-9]*)?([eE][-+]?[0-9]+)?|[-+]?\.[0-9]+")
 
 
 def _dotted(loc: Loc) -> str:
+    """Return the field path as messages print it: ``limbs.left.lesions[0].psv``."""
+    if loc[:1] in (("patient",), ("exam",)) and len(loc) > 1 and loc[1] not in _IDENTITY_KEYS:
+        loc = (loc[0], "(unknown key)", *loc[2:])  # a stray key there may itself identify
     out = ""
     for key in loc:
         out += f"[{key}]" if isinstance(key, int) else (f".{key}" if out else key)
@@ -695,85 +699,70 @@ class _Checker:
 # --- building the study -----------------------------------------------------------------------
 
 
-def _id(name: str) -> str:
-    """Return the canonical id of a checked segment name."""
-    return anatomy.resolve(name) or name
+_ENUMS: dict[str, type[Waveform | Flow | Plaque]] = {
+    "waveform": Waveform,
+    "flow": Flow,
+    "plaque": Plaque,
+}
+_SEGMENT_REFS = ("at", "reconstitutes", "from", "to")
 
 
-def _float(value: Any) -> float | None:
-    return None if value is None else float(value)
+def _fields(cls: type, item: dict[str, Any], line: int | None = None) -> dict[str, Any]:
+    """Return the fields of ``cls`` from a checked mapping: numbers as floats, words as enums,
+    segment names as canonical ids (the only value changed), and the line it was read from."""
+    names = {f.name for f in dataclasses.fields(cls)}
+    out: dict[str, Any] = {"line": line} if "line" in names else {}
+    for key, value in item.items():
+        name = "from_" if key == "from" else key
+        if name not in names or key == "samples":
+            continue
+        if key in _ENUMS:
+            out[name] = _ENUMS[key](value)
+        elif key in _SEGMENT_REFS:
+            out[name] = anatomy.resolve(value) or value
+        elif isinstance(value, int | float) and not isinstance(value, bool):
+            out[name] = float(value)
+        else:
+            out[name] = value
+    return out
+
+
+def _limb(side: str, limb: dict[str, Any], lines: dict[Loc, int]) -> Limb:
+    def at(*loc: Key) -> int | None:
+        return lines.get(("limbs", side, *loc))
+
+    segments = {}
+    for key, item in limb.get("segments", {}).items():
+        seg = anatomy.resolve(key) or key
+        segments[seg] = SegmentFinding(**_fields(SegmentFinding, item, at("segments", key)), id=seg)
+    grafts = []
+    for i, item in enumerate(limb.get("grafts", [])):
+        samples = {
+            site: Sample(**_fields(Sample, sample, at("grafts", i, "samples", site)))
+            for site, sample in item.get("samples", {}).items()
+        }
+        grafts.append(Graft(**_fields(Graft, item, at("grafts", i)), samples=samples))
+    return Limb(
+        side=Side(side),
+        segments=segments,
+        lesions=tuple(
+            Lesion(**_fields(Lesion, item, at("lesions", i)))
+            for i, item in enumerate(limb.get("lesions", []))
+        ),
+        stents=tuple(
+            Stent(**_fields(Stent, item, at("stents", i)))
+            for i, item in enumerate(limb.get("stents", []))
+        ),
+        grafts=tuple(grafts),
+    )
 
 
 def _date(value: Any) -> dt.date | None:
     return None if value is None else dt.date.fromisoformat(value)
 
 
-_ENUMS: dict[str, type[Waveform | Flow | Plaque]] = {
-    "waveform": Waveform,
-    "flow": Flow,
-    "plaque": Plaque,
-}
-_FLAGS_AND_TEXT = ("occluded", "not_assessed", "band", "comment")
-
-
-def _sample_fields(item: dict[str, Any], line: int | None) -> dict[str, Any]:
-    """Return every Sample field from a checked mapping: numbers as floats, words as enums."""
-    fields: dict[str, Any] = {"line": line}
-    for name in (f.name for f in dataclasses.fields(Sample) if f.name != "line"):
-        if name not in item:
-            continue
-        value = item[name]
-        if name in _ENUMS:
-            fields[name] = _ENUMS[name](value)
-        else:
-            fields[name] = value if name in _FLAGS_AND_TEXT else float(value)
-    return fields
-
-
-def _limb(side: str, limb: dict[str, Any], lines: dict[Loc, int]) -> Limb:
-    base: Loc = ("limbs", side)
-    segments = {}
-    for key, item in limb.get("segments", {}).items():
-        seg = _id(key)
-        segments[seg] = SegmentFinding(
-            **_sample_fields(item, lines.get((*base, "segments", key))), id=seg
-        )
-    lesions = tuple(
-        Lesion(
-            **_sample_fields(item, lines.get((*base, "lesions", i))),
-            at=_id(item["at"]),
-            from_cm=_float(item.get("from_cm")),
-            length_cm=_float(item.get("length_cm")),
-            reconstitutes=anatomy.resolve(item.get("reconstitutes", "")),
-        )
-        for i, item in enumerate(limb.get("lesions", []))
-    )
-    stents = tuple(
-        Stent(
-            from_=_id(item["from"]),
-            to=_id(item["to"]),
-            from_cm=_float(item.get("from_cm")),
-            length_cm=_float(item.get("length_cm")),
-            line=lines.get((*base, "stents", i)),
-        )
-        for i, item in enumerate(limb.get("stents", []))
-    )
-    grafts = tuple(
-        Graft(
-            conduit=item["conduit"],
-            from_=_id(item["from"]),
-            to=_id(item["to"]),
-            samples={
-                site: Sample(
-                    **_sample_fields(sample, lines.get((*base, "grafts", i, "samples", site)))
-                )
-                for site, sample in item.get("samples", {}).items()
-            },
-            line=lines.get((*base, "grafts", i)),
-        )
-        for i, item in enumerate(limb.get("grafts", []))
-    )
-    return Limb(side=Side(side), segments=segments, lesions=lesions, stents=stents, grafts=grafts)
+def _float(value: Any) -> float | None:
+    return None if value is None else float(value)
 
 
 def _build(parsed: _Parsed, name: str) -> Study:
@@ -784,8 +773,7 @@ def _build(parsed: _Parsed, name: str) -> Study:
     brachial = pressures.get("brachial", {})
 
     def limb_pressures(side: str) -> LimbPressures:
-        values = pressures.get(side, {})
-        return LimbPressures(**{key: _float(values.get(key)) for key in ("pt", "dp", "toe")})
+        return LimbPressures(**_fields(LimbPressures, pressures.get(side, {})))
 
     return Study(
         source=name,

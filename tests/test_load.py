@@ -9,6 +9,8 @@ from pathlib import Path
 
 import jsonschema
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from diagram import anatomy
 from diagram.anatomy import Side
@@ -100,6 +102,7 @@ def test_patient_identifiers_are_never_echoed() -> None:
     for secret in ("1234567", "14.03.1948", "99887766", "1.2.840.0099.1", "'F'", "'no'", "no as"):
         assert secret not in text
     assert "patient.birth_date: must be a date written YYYY-MM-DD." in text
+    assert "Doe" not in "\n".join(problems("tests/data/invalid/identifier_as_key.yaml"))
 
 
 # --- files refused as a whole -------------------------------------------------------------------
@@ -609,3 +612,31 @@ def test_import_stays_light() -> None:
     code = "import sys, diagram.load; print('jsonschema' in sys.modules, 'yaml' in sys.modules)"
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.split() == ["False", "False"]
+
+
+FUZZ_BASES = {
+    name: (ROOT / "tests/data/valid" / name).read_text("utf-8")
+    for name in ("full.yaml", "full.json")
+}
+
+
+@settings(max_examples=400, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(
+    name=st.sampled_from(sorted(FUZZ_BASES)),
+    where=st.floats(min_value=0, max_value=1),
+    cut=st.integers(min_value=0, max_value=6),
+    insert=st.text(max_size=6),
+)
+def test_damaged_files_give_a_study_or_problems_never_a_traceback(
+    name: str, where: float, cut: int, insert: str
+) -> None:
+    base = FUZZ_BASES[name]
+    pos = int(where * len(base))
+    text = base[:pos] + insert + base[pos + cut :]
+    try:
+        load_study_text(text, name, Path(name).suffix)
+    except StudyError as err:
+        assert err.lines()
+        for line in err.lines():
+            assert line.startswith(f"{name}")
+            assert "Demo, Ada" not in line and "D-0001" not in line
