@@ -1,0 +1,235 @@
+"""The Scene: a laid-out sheet as drawing primitives, the contract between layout and renderers.
+
+Coordinates are page points (1/72 in) with the origin at the top left and y growing downwards.
+Items are listed in paint order. Every item carries an id derived from what it shows, so the same
+study always gives the same ids. A fill may name a band (``band``): the renderer paints the band's
+tint and texture from ``Scene.bands`` instead of the plain ``fill``.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import re
+from collections.abc import Iterator
+from dataclasses import dataclass
+from enum import StrEnum
+
+from diagram.style import BandStyle
+
+Point = tuple[float, float]
+
+MM_PER_PT = 25.4 / 72.0
+
+
+class Anchor(StrEnum):
+    """Where a text's x lies on its line."""
+
+    START = "start"
+    MIDDLE = "middle"
+    END = "end"
+
+
+class Weight(StrEnum):
+    """Font weight of a text."""
+
+    NORMAL = "normal"
+    BOLD = "bold"
+
+
+@dataclass(frozen=True)
+class Box:
+    """An axis-aligned rectangle: left, top, width, height."""
+
+    x: float
+    y: float
+    w: float
+    h: float
+
+    @property
+    def right(self) -> float:
+        return self.x + self.w
+
+    @property
+    def bottom(self) -> float:
+        return self.y + self.h
+
+    def intersects(self, other: Box) -> bool:
+        """Return True when the two boxes share interior area (touching edges do not count)."""
+        return (
+            self.x < other.right
+            and other.x < self.right
+            and self.y < other.bottom
+            and other.y < self.bottom
+        )
+
+    def union(self, other: Box) -> Box:
+        """Return the smallest box holding both."""
+        x, y = min(self.x, other.x), min(self.y, other.y)
+        return Box(x, y, max(self.right, other.right) - x, max(self.bottom, other.bottom) - y)
+
+
+@dataclass(frozen=True)
+class Rect:
+    """A rectangle."""
+
+    id: str
+    x: float
+    y: float
+    w: float
+    h: float
+    fill: str = "none"
+    stroke: str = "none"
+    stroke_width: float = 0.0
+    band: str | None = None
+    dash: tuple[float, ...] = ()
+
+
+@dataclass(frozen=True)
+class Polygon:
+    """A closed polygon, e.g. a stretch of vessel."""
+
+    id: str
+    points: tuple[Point, ...]
+    fill: str = "none"
+    stroke: str = "none"
+    stroke_width: float = 0.0
+    band: str | None = None
+    dash: tuple[float, ...] = ()
+
+
+PathCommand = tuple[str, tuple[float, ...]]
+
+
+@dataclass(frozen=True)
+class PathItem:
+    """A path as absolute SVG commands in page points: ``("M", (x, y))``, ``("C", (...))``, ..."""
+
+    id: str
+    commands: tuple[PathCommand, ...]
+    fill: str = "none"
+    stroke: str = "none"
+    stroke_width: float = 0.0
+    dash: tuple[float, ...] = ()
+
+
+@dataclass(frozen=True)
+class Line:
+    """An open polyline, e.g. a leader line or a tick."""
+
+    id: str
+    points: tuple[Point, ...]
+    stroke: str
+    stroke_width: float
+    dash: tuple[float, ...] = ()
+
+
+@dataclass(frozen=True)
+class Circle:
+    """A circle."""
+
+    id: str
+    cx: float
+    cy: float
+    r: float
+    fill: str = "none"
+    stroke: str = "none"
+    stroke_width: float = 0.0
+
+
+@dataclass(frozen=True)
+class Text:
+    """One line of text; ``y`` is the baseline."""
+
+    id: str
+    x: float
+    y: float
+    text: str
+    size: float
+    weight: Weight = Weight.NORMAL
+    anchor: Anchor = Anchor.START
+    fill: str = "#000000"
+
+
+@dataclass(frozen=True)
+class Group:
+    """Items that belong together (a vessel, a label, the legend); ``role`` names what it is."""
+
+    id: str
+    items: tuple[Item, ...]
+    role: str = ""
+
+
+Item = Rect | Polygon | PathItem | Line | Circle | Text | Group
+
+
+@dataclass(frozen=True)
+class LabelBox:
+    """A placed margin label: its text box and the point on the vessel its leader reaches."""
+
+    id: str
+    side: str  # "right" / "left": the patient's leg whose margin holds it
+    kind: str  # "segment", "lesion" or "reconstitution"
+    target: str  # vessel key the label points at
+    text: str
+    box: Box
+    anchor: Point
+
+
+@dataclass(frozen=True)
+class Region:
+    """An area of the sheet kept free for a later stage (ankle pressure boxes)."""
+
+    id: str
+    side: str
+    box: Box
+
+
+@dataclass(frozen=True)
+class Scene:
+    """A laid-out sheet."""
+
+    page: str  # "a4", "letter" or "map"
+    width_pt: float
+    height_pt: float
+    unit: str  # "mm" or "in": the unit the SVG states its size in
+    font_family: str
+    bands: tuple[BandStyle, ...]  # every band an item may name, in legend order
+    items: tuple[Item, ...]
+    map_box: Box  # where the template's viewBox sits on the page
+    vessel_box: Box  # bounding box of the drawn vessels
+    label_boxes: tuple[LabelBox, ...]
+    pressure_regions: tuple[Region, ...]  # empty when the study has no pressures
+
+    def walk(self) -> Iterator[Item]:
+        """Yield every item, groups before their members, in paint order."""
+        stack: list[Item] = list(reversed(self.items))
+        while stack:
+            item = stack.pop()
+            yield item
+            if isinstance(item, Group):
+                stack.extend(reversed(item.items))
+
+    def size_in_unit(self) -> tuple[float, float]:
+        """Return the page size in ``unit``."""
+        factor = MM_PER_PT if self.unit == "mm" else 1.0 / 72.0
+        return self.width_pt * factor, self.height_pt * factor
+
+
+def fmt(value: float) -> str:
+    """Return ``value`` with at most two decimals and no trailing zeros (the one number format)."""
+    text = f"{value:.2f}".rstrip("0").rstrip(".")
+    return "0" if text in ("-0", "") else text
+
+
+_UNSAFE = re.compile(r"[^A-Za-z0-9_-]+")
+
+
+def make_id(*parts: object) -> str:
+    """Return an XML-safe id built from ``parts``; a short digest keeps rewritten parts unique."""
+    raw = "-".join(str(p) for p in parts)
+    safe = _UNSAFE.sub("_", raw)
+    if safe != raw:
+        safe += "_" + hashlib.sha1(raw.encode("utf-8")).hexdigest()[:6]
+    if not safe[:1].isalpha():
+        safe = "i" + safe
+    return safe
