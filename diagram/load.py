@@ -343,14 +343,14 @@ _TYPE_RULES = {
     "array": "must be a list",
 }
 _LIMIT_LABELS = {"psv": "PSV", "edv": "EDV", "proximal_psv": "a proximal PSV"}
-_IDENTITY_KEYS = {f.name for cls in (Patient, Exam) for f in dataclasses.fields(cls)}
+_PATIENT_KEYS = {f.name for f in dataclasses.fields(Patient)}
 _YAML_BOOLEAN_WORDS = {"yes", "no", "on", "off"}
 _PLAIN_DECIMAL = re.compile(r"[-+]?(0|[1-9][0-9]*)(\.[0-9]*)?([eE][-+]?[0-9]+)?|[-+]?\.[0-9]+")
 
 
 def _dotted(loc: Loc) -> str:
     """Return the field path as messages print it: ``limbs.left.lesions[0].psv``."""
-    if loc[:1] in (("patient",), ("exam",)) and len(loc) > 1 and loc[1] not in _IDENTITY_KEYS:
+    if loc[:1] == ("patient",) and len(loc) > 1 and loc[1] not in _PATIENT_KEYS:
         loc = (loc[0], "(unknown key)", *loc[2:])  # a stray key there may itself identify
     out = ""
     for key in loc:
