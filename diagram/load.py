@@ -686,12 +686,7 @@ class _Checker:
         end = self.segment((*loc, "to"), stent.get("to"))
         if start is not None:
             self.extent(loc, start, stent)
-        if (
-            start is not None
-            and end is not None
-            and end != start
-            and (not anatomy.is_downstream(end, start))
-        ):
+        if start and end and end != start and not anatomy.is_downstream(end, start):
             rule = f"is not {start} or downstream of it: a stent runs down one path."
             self.refuse(stent, loc, "to", rule)
 
@@ -708,8 +703,11 @@ _SEGMENT_REFS = ("at", "reconstitutes", "from", "to")
 
 
 def _fields(cls: type, item: dict[str, Any], line: int | None = None) -> dict[str, Any]:
-    """Return the fields of ``cls`` from a checked mapping: numbers as floats, words as enums,
-    segment names as canonical ids (the only value changed), and the line it was read from."""
+    """Return the keyword arguments of ``cls`` from a checked mapping.
+
+    Numbers become floats and words enums; segment names become canonical ids, the only value
+    changed on the way in. ``samples`` is left to the caller.
+    """
     names = {f.name for f in dataclasses.fields(cls)}
     out: dict[str, Any] = {"line": line} if "line" in names else {}
     for key, value in item.items():

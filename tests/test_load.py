@@ -609,9 +609,10 @@ def test_exam_criteria_names_are_carried() -> None:
 
 
 def test_import_stays_light() -> None:
-    code = "import sys, diagram.load; print('jsonschema' in sys.modules, 'yaml' in sys.modules)"
+    # rule of the product: jsonschema is imported only inside the function that validates
+    code = "import sys, diagram.load; print('jsonschema' in sys.modules)"
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
-    assert out.stdout.split() == ["False", "False"]
+    assert out.stdout.split() == ["False"]
 
 
 FUZZ_BASES = {
