@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import importlib
 import io
 import json
 import os
@@ -93,7 +94,7 @@ def test_existing_file_replaced_only_by_a_complete_one(
     def failing_writer(drawing: Drawing, options: ExportOptions) -> bytes:
         raise Boom
 
-    from diagram import export as export_mod
+    export_mod = importlib.import_module("diagram.export")  # the package re-exports export()
 
     monkeypatch.setitem(export_mod.WRITERS, "pdf", failing_writer)
     with pytest.raises(Boom):
