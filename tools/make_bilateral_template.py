@@ -146,10 +146,8 @@ def vessels() -> list[Drawn]:
     """Return every vessel, the aorta first, then the right and left trees in anatomy order."""
     out: list[Drawn] = []
     seg = anatomy.SEGMENTS["AO"]
-    start_deg, chord_deg, end_deg = SHAPES["AO"]
-    aorta = _shaped(
-        AORTA_TOP, None, start_deg, chord_deg, end_deg, seg.length_cm * PELVIS_UNITS_PER_CM
-    )
+    _, chord_deg, end_deg = SHAPES["AO"]
+    aorta = _shaped(AORTA_TOP, None, 0.0, chord_deg, end_deg, seg.length_cm * PELVIS_UNITS_PER_CM)
     out.append(Drawn(None, "AO", aorta, end_deg))
     for side in ("right", "left"):
         drawn: dict[str, Drawn] = {"AO": out[0]}

@@ -1,0 +1,724 @@
+"""Map templates: the shipped bilateral map, the template contract, and hostile files refused."""
+
+from __future__ import annotations
+
+import contextlib
+import math
+import os
+import re
+import socket
+import subprocess
+import sys
+import time
+from collections.abc import Iterator
+from importlib import resources
+from pathlib import Path
+
+import pytest
+
+from diagram import anatomy
+from diagram.errors import TemplateError
+from diagram.geometry import PathGeometry, Point, format_number
+from diagram.template import (
+    DIAMETER_MM_RANGE,
+    JOIN_TOLERANCE,
+    LENGTH_CM_RANGE,
+    MAX_TEMPLATE_BYTES,
+    Template,
+    Vessel,
+    check_template,
+    load_template,
+)
+
+SHIPPED = Path(str(resources.files("diagram.templates_svg") / "bilateral.svg"))
+FIXTURES = Path(__file__).parent / "data" / "templates"
+PAIRED = [s for s in anatomy.SEGMENT_IDS if s not in anatomy.UNPAIRED]
+ALL_KEYS = {"AO"} | {anatomy.vessel_key(side, s) for side in ("right", "left") for s in PAIRED}
+
+# --------------------------------------------------------------------------- helpers
+
+_RECORDERS: list[list[tuple[str, str]]] = []
+_WATCHED = {"open", "socket.connect", "socket.getaddrinfo", "urllib.Request", "subprocess.Popen"}
+
+
+def _audit(event: str, args: tuple[object, ...]) -> None:
+    if _RECORDERS and event in _WATCHED:
+        _RECORDERS[-1].append((event, repr(args)))
+
+
+sys.addaudithook(_audit)
+
+
+@contextlib.contextmanager
+def recorded() -> Iterator[list[tuple[str, str]]]:
+    """Record file opens and network use (Python audit events) inside the block."""
+    events: list[tuple[str, str]] = []
+    _RECORDERS.append(events)
+    try:
+        yield events
+    finally:
+        _RECORDERS.pop()
+
+
+def variant(tmp_path: Path, old: str, new: str, name: str = "variant.svg") -> Path:
+    """Write the shipped template with ``old`` (which must occur once) replaced by ``new``."""
+    text = SHIPPED.read_text(encoding="utf-8")
+    assert text.count(old) == 1, old
+    out = tmp_path / name
+    out.write_text(text.replace(old, new), encoding="utf-8")
+    return out
+
+
+def line_of(path: Path, needle: str) -> int:
+    for number, line in enumerate(path.read_text(encoding="utf-8").splitlines(), start=1):
+        if needle in line:
+            return number
+    raise AssertionError(needle)
+
+
+def problem_lines(path: Path) -> list[str]:
+    return [str(p) for p in check_template(path)]
+
+
+def x_at_y(vessels: list[Vessel], y: float) -> float:
+    """Return the x where the first of ``vessels`` spanning height ``y`` crosses it."""
+    for v in vessels:
+        pts = v.geometry.polyline(0, v.geometry.length(), 0.25)
+        if min(p[1] for p in pts) <= y <= max(p[1] for p in pts):
+            return min(pts, key=lambda p: abs(p[1] - y))[0]
+    raise AssertionError(f"no vessel spans y={y}")
+
+
+def inside(point: Point, polygon: tuple[Point, ...]) -> bool:
+    """Even-odd ray casting."""
+    x, y = point
+    hit = False
+    for (x1, y1), (x2, y2) in zip(polygon, polygon[1:] + polygon[:1], strict=True):
+        if (y1 > y) != (y2 > y) and x < x1 + (y - y1) * (x2 - x1) / (y2 - y1):
+            hit = not hit
+    return hit
+
+
+@pytest.fixture(scope="module")
+def shipped() -> Template:
+    return load_template()
+
+
+# --------------------------------------------------------------------------- the shipped map
+
+
+def test_shipped_template_passes_its_own_contract(shipped: Template) -> None:
+    assert check_template() == []
+    assert check_template(SHIPPED) == []
+    assert set(shipped.vessels) == ALL_KEYS
+    assert len(shipped.vessels) == 2 * 22 + 1
+    assert shipped.viewbox == (0.0, 0.0, 400.0, 1000.0)
+    assert shipped.name == "bilateral" and shipped.source == "bilateral.svg"
+    assert len(shipped.silhouette) == 1 and shipped.silhouette[0].endswith("Z")
+    assert shipped.vessel("right", "CFA") is shipped.vessels["right/CFA"]
+    assert shipped.vessel(None, "AO") is shipped.vessels["AO"]
+
+
+@pytest.mark.parametrize("key", sorted(ALL_KEYS))
+def test_each_shipped_vessel_is_drawn_to_scale(shipped: Template, key: str) -> None:
+    vessel = shipped.vessels[key]
+    assert vessel.geometry.length() > 0
+    assert vessel.length_cm == anatomy.SEGMENTS[vessel.segment].length_cm
+    # 7 units per cm in the pelvis, 8.5 from the groin down (the generator's scales; the
+    # path data carries 3 decimals).
+    expected = 7.0 if vessel.segment in {"AO", "CIA", "IIA", "EIA"} else 8.5
+    assert vessel.units_per_cm == pytest.approx(expected, abs=2e-3)
+
+
+# Lorbeer R et al., PLoS One 2018, upper reference diameters (clinical-values.md): CIA 11.8,
+# EIA 10.3, proximal femoral 10.2, distal femoral 7.7, popliteal 6.9, AT 4.2, PT 3.8, peroneal 4.0.
+# From memory: distal aorta 16, internal iliac 6, profunda 6, TPT 5, pedal arteries 2.5.
+@pytest.mark.parametrize(
+    ("segment", "diameter_mm"),
+    [
+        ("AO", 16.0),
+        ("CIA", 11.8),
+        ("IIA", 6.0),
+        ("EIA", 10.3),
+        ("CFA", 10.2),
+        ("PFA", 6.0),
+        ("SFA-P", 7.7),
+        ("SFA-M", 7.7),
+        ("SFA-D", 7.7),
+        ("POP-AK", 6.9),
+        ("POP-BK", 6.9),
+        ("TPT", 5.0),
+        ("ATA-P", 4.2),
+        ("ATA-M", 4.2),
+        ("ATA-D", 4.2),
+        ("PTA-P", 3.8),
+        ("PTA-M", 3.8),
+        ("PTA-D", 3.8),
+        ("PER-P", 4.0),
+        ("PER-M", 4.0),
+        ("PER-D", 4.0),
+        ("DPA", 2.5),
+        ("PLA", 2.5),
+    ],
+)
+def test_shipped_diameters(shipped: Template, segment: str, diameter_mm: float) -> None:
+    sides = [None] if segment in anatomy.UNPAIRED else ["right", "left"]
+    for side in sides:
+        assert shipped.vessel(side, segment).diameter_mm == diameter_mm
+
+
+def test_shipped_children_start_exactly_at_their_parents_end(shipped: Template) -> None:
+    for vessel in shipped.vessels.values():
+        parent = anatomy.SEGMENTS[vessel.segment].parent
+        if parent is not None:
+            end = shipped.vessel(vessel.side, parent).geometry.end
+            assert math.dist(vessel.geometry.start, end) < 1e-3, vessel.key
+
+
+def test_shipped_in_line_continuations_are_smooth(shipped: Template) -> None:
+    for vessel in shipped.vessels.values():
+        nxt = anatomy.SEGMENTS[vessel.segment].continues_to
+        if nxt is None:
+            continue
+        a = vessel.geometry.tangent_at(vessel.geometry.length())
+        b = shipped.vessel(vessel.side, nxt).geometry.tangent_at(0)
+        if vessel.segment == "AO" or (vessel.segment, nxt) == ("POP-BK", "TPT"):
+            continue  # the bifurcations turn on purpose
+        assert a[0] * b[0] + a[1] * b[1] > math.cos(math.radians(1)), vessel.key
+
+
+def test_shipped_sides_patient_right_on_viewer_left(shipped: Template) -> None:
+    mid_x = shipped.vessels["AO"].geometry.end[0]
+    assert mid_x == 200
+    for vessel in shipped.vessels.values():
+        if vessel.side is None:
+            continue
+        pts = vessel.geometry.polyline(0.5, vessel.geometry.length(), 1)
+        if vessel.side == "right":
+            assert all(p[0] < mid_x for p in pts), vessel.key
+        else:
+            assert all(p[0] > mid_x for p in pts), vessel.key
+
+
+def test_shipped_map_is_mirror_symmetric(shipped: Template) -> None:
+    for segment in PAIRED:
+        right = shipped.vessel("right", segment).geometry
+        left = shipped.vessel("left", segment).geometry
+        for f in (0.0, 0.5, 1.0):
+            rx, ry = right.point_at(f * right.length())
+            lx, ly = left.point_at(f * left.length())
+            assert (400 - rx, ry) == pytest.approx((lx, ly), abs=2e-3)
+
+
+@pytest.mark.parametrize("side", ["right", "left"])
+def test_shipped_anatomy_lateral_to_medial(shipped: Template, side: str) -> None:
+    # clinical-values.md, "Anatomy for the map": profunda arises laterally; in a frontal view below
+    # the knee the anterior tibial is most lateral, the posterior tibial most medial, the peroneal
+    # between (recalled ordering).
+    lateral = -1 if side == "right" else 1  # lateral is toward the viewer's left on the right leg
+
+    def stem(name: str) -> list[Vessel]:
+        return [shipped.vessel(side, f"{name}-{third}") for third in "PMD"]
+
+    for level in range(640, 790, 10):
+        at, per, pt = (x_at_y(stem(n), level) for n in ("ATA", "PER", "PTA"))
+        assert lateral * at > lateral * per > lateral * pt, level
+    pfa = shipped.vessel(side, "PFA").geometry
+    for f in (0.25, 0.5, 1.0):
+        x, y = pfa.point_at(f * pfa.length())
+        assert lateral * x > lateral * x_at_y([shipped.vessel(side, "SFA-P")], y)
+    # The internal iliac turns toward the midline pelvis; the external iliac runs laterally.
+    cia_end = shipped.vessel(side, "CIA").geometry.end[0]
+    assert lateral * shipped.vessel(side, "IIA").geometry.end[0] < lateral * cia_end
+    assert lateral * shipped.vessel(side, "EIA").geometry.end[0] > lateral * cia_end
+
+
+def test_shipped_vessels_sit_inside_the_silhouette(shipped: Template) -> None:
+    outline = PathGeometry.from_d(shipped.silhouette[0])
+    polygon = outline.polyline(0, outline.length(), 1.0)
+    for vessel in shipped.vessels.values():
+        for p in vessel.geometry.polyline(0, vessel.geometry.length(), 2.0):
+            assert inside(p, polygon), (vessel.key, p)
+
+
+def test_shipped_file_is_plain_data() -> None:
+    text = SHIPPED.read_text(encoding="utf-8")
+    assert "<script" not in text and "href" not in text and "url(" not in text
+    assert "<!DOCTYPE" not in text and 'id="silhouette"' in text and 'id="vessels"' in text
+    assert len(re.findall(r"<path [^>]*data-segment=", text)) == 45
+
+
+def test_template_is_read_only(shipped: Template) -> None:
+    with pytest.raises(TypeError):
+        shipped.vessels["AO"] = shipped.vessels["right/CFA"]  # type: ignore[index]
+
+
+def test_import_stays_light() -> None:
+    code = "import sys, diagram.template; print('defusedxml' in sys.modules)"
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "False"
+
+
+# --------------------------------------------------------------------------- caching
+
+
+def test_parsed_templates_are_cached_until_the_file_changes(tmp_path: Path) -> None:
+    assert load_template() is load_template()
+    copy = tmp_path / "lab.svg"
+    copy.write_bytes(SHIPPED.read_bytes())
+    first = load_template(copy)
+    assert load_template(str(copy)) is not None
+    assert load_template(copy) is first
+    stat = copy.stat()
+    os.utime(copy, ns=(stat.st_atime_ns, stat.st_mtime_ns + 1_000_000_000))
+    second = load_template(copy)
+    assert second is not first and second.vessels.keys() == first.vessels.keys()
+
+
+# --------------------------------------------------------------------------- broken templates
+
+
+def test_transform_heavy_template_equals_the_shipped_geometry(shipped: Template) -> None:
+    # Mirrored layer, rotated/scaled/skewed groups, a matrix on every path, relative path data,
+    # names from id and inkscape:label: after transforms, the same map (to the 3 decimals the
+    # shipped file carries, magnified by the fixture's scales).
+    other = load_template(FIXTURES / "transformed.svg")
+    assert set(other.vessels) == ALL_KEYS
+    for key, vessel in shipped.vessels.items():
+        g, h = vessel.geometry, other.vessels[key].geometry
+        assert h.length() == pytest.approx(g.length(), abs=2e-3)
+        for f in (0.0, 0.3, 0.5, 1.0):
+            assert math.dist(g.point_at(f * g.length()), h.point_at(f * h.length())) < 2e-3
+
+
+@pytest.mark.parametrize(
+    ("fixture", "expected"),
+    [
+        (
+            "missing-segment.svg",
+            [
+                '{f}: vessels.left/PER-M: is missing (add a <path data-segment="PER-M" '
+                'data-side="left"> drawn from its parent\'s distal end)'
+            ],
+        ),
+        (
+            "gap.svg",
+            [
+                "{f}:14: vessels.right/POP-BK: gap=4.00 must start within 1.5 units of the distal "
+                "end of right/POP-AK (move its first point onto the end of right/POP-AK)"
+            ],
+        ),
+        (
+            "duplicate.svg",
+            [
+                "{f}:12: path[data-segment=SFA-M][data-side=right]: right/SFA-M appears more than "
+                "once (first on line 11) (delete the duplicate or fix its data-segment/data-side)"
+            ],
+        ),
+    ],
+)
+def test_broken_fixtures_report_exactly_their_defect(fixture: str, expected: list[str]) -> None:
+    path = FIXTURES / fixture
+    assert problem_lines(path) == [e.format(f=path) for e in expected]
+    with pytest.raises(TemplateError) as err:
+        load_template(path)
+    assert err.value.lines() == [e.format(f=path) for e in expected]
+    assert err.value.exit_code == 2
+
+
+def test_swapped_sides_are_reported_for_every_vessel() -> None:
+    path = FIXTURES / "swapped-sides.svg"
+    lines = problem_lines(path)
+    assert len(lines) == 44
+    assert lines[0] == (
+        f"{path}:5: vessels.left/CIA: x=181.6 must be > 200.0 (the aorta's x): a left-side vessel "
+        "lies on the viewer's right (the patient's right is on the viewer's left; check data-side)"
+    )
+    assert all("the aorta's x" in line for line in lines)
+
+
+@pytest.mark.parametrize(
+    "attrs",
+    [
+        'id="right-SFA-M"',
+        'id="R_SFA-M"',
+        'id="SFA-M-right"',
+        'id="rt.sfa mid"',
+        'id="path77" inkscape:label="Right superficial femoral mid"',
+        'data-segment="superficial femoral mid" data-side="Right"',
+        'data-segment="FA-M" data-side="R"',
+    ],
+)
+def test_vessel_names_from_attributes_ids_and_labels(tmp_path: Path, attrs: str) -> None:
+    path = variant(
+        tmp_path,
+        'id="right-SFA-M" data-segment="SFA-M" data-side="right"',
+        attrs,
+    )
+    if "inkscape:" in attrs:
+        text = path.read_text(encoding="utf-8").replace(
+            "<svg ", '<svg xmlns:inkscape="http://www.inkscape.org/namespaces/inkscape" ', 1
+        )
+        path.write_text(text, encoding="utf-8")
+    assert problem_lines(path) == []
+    assert load_template(path).vessels["right/SFA-M"].segment == "SFA-M"
+
+
+def test_side_inherited_from_a_group(tmp_path: Path) -> None:
+    text = SHIPPED.read_text(encoding="utf-8")
+    rows = [r for r in text.splitlines() if 'data-side="left"' in r]
+    grouped = [
+        '    <g data-side="left">',
+        *(r.replace(' data-side="left"', "") for r in rows),
+        "    </g>",
+    ]
+    text = text.replace("\n".join(rows), "\n".join(grouped))
+    path = tmp_path / "grouped.svg"
+    path.write_text(text, encoding="utf-8")
+    assert problem_lines(path) == []
+
+
+def _reversed_path_row(text: str, key: str) -> tuple[str, str]:
+    side, seg = key.split("/")
+    row = next(r for r in text.splitlines() if f'id="{side}-{seg}"' in r)
+    d = re.search(r' d="([^"]+)"', row)
+    assert d is not None
+    piece = PathGeometry.from_d(d.group(1)).pieces[0].reversed()
+    pts = [piece.start, *(getattr(piece, n) for n in ("p1", "p2", "p3"))]
+    fmt = [f"{format_number(x)} {format_number(y)}" for x, y in pts]
+    return row, row.replace(d.group(1), f"M {fmt[0]} C {fmt[1]} {fmt[2]} {fmt[3]}")
+
+
+def test_a_vessel_drawn_backwards_gets_a_hint(tmp_path: Path) -> None:
+    row, backwards = _reversed_path_row(SHIPPED.read_text(encoding="utf-8"), "right/SFA-M")
+    path = variant(tmp_path, row, backwards)
+    lines = problem_lines(path)
+    assert len(lines) == 2
+    assert lines[0].startswith(f"{path}:{line_of(path, 'right-SFA-M')}: vessels.right/SFA-M: gap=")
+    assert lines[0].endswith("(it looks drawn distal to proximal: reverse its path)")
+    assert lines[1].endswith("(right/SFA-M looks drawn distal to proximal: reverse its path)")
+
+
+@pytest.mark.parametrize(
+    ("old", "new", "expected"),
+    [
+        (
+            'data-segment="SFA-M" data-side="right"',
+            'data-segment="SFA-X" data-side="right"',
+            [
+                "{f}:{line}: path[data-segment=SFA-X][data-side=right]: 'SFA-X' is not a segment id "
+                "(did you mean SFA-P?)",
+                '{f}: vessels.right/SFA-M: is missing (add a <path data-segment="SFA-M" '
+                'data-side="right"> drawn from its parent\'s distal end)',
+            ],
+        ),
+        (
+            'data-segment="SFA-M" data-side="right"',
+            'data-segment="SFA-M" data-side="up"',
+            [
+                "{f}:{line}: path[data-segment=SFA-M][data-side=up]: 'up' data-side must be right or "
+                "left",
+                "{f}:{line}: path[data-segment=SFA-M][data-side=up]: SFA-M needs a side (add "
+                'data-side="right" or data-side="left")',
+                '{f}: vessels.right/SFA-M: is missing (add a <path data-segment="SFA-M" '
+                'data-side="right"> drawn from its parent\'s distal end)',
+            ],
+        ),
+        (
+            'id="AO" data-segment="AO"',
+            'id="AO" data-segment="AO" data-side="right"',
+            [
+                "{f}:{line}: path[data-segment=AO][data-side=right]: 'right' AO is unpaired and takes no "
+                "data-side (remove data-side)",
+            ],
+        ),
+        (
+            'data-segment="SFA-M" data-side="right" data-length-cm="9"',
+            'data-segment="SFA-M" data-side="right"',
+            [
+                "{f}:{line}: path[data-segment=SFA-M][data-side=right].data-length-cm: is missing "
+                "(declare the segment's nominal cm in data-length-cm)",
+            ],
+        ),
+        (
+            'stroke-width="4.235" d="M 141.457 287.321',
+            'stroke-width="4.235" d="M 141.457 287.321 L',
+            [
+                "{f}:{line}: path[data-segment=SFA-M][data-side=right].d: 'M 141.457 287.321 L C "
+                "144.336 314.708 146.203 336.054 148...' path data: L expects a number at "
+                "offset 20 (found 'C 144.336 31')",
+            ],
+        ),
+        (
+            'id="right-SFA-M" data-segment',
+            'id="right-SFA-M" style="transform: rotate(3deg)" data-segment',
+            [
+                "{f}:{line}: path[data-segment=SFA-M][data-side=right].style: 'transform: "
+                "rotate(3deg)' CSS transform is not read (use the transform attribute instead)",
+            ],
+        ),
+    ],
+)
+def test_vessel_attribute_problems(tmp_path: Path, old: str, new: str, expected: list[str]) -> None:
+    path = variant(tmp_path, old, new)
+    line = line_of(path, new)
+    assert problem_lines(path) == [e.format(f=path, line=line) for e in expected]
+
+
+@pytest.mark.parametrize(
+    ("attr", "value", "ok"),
+    [
+        # Plausibility bounds (common practice): 0 < length <= 60 cm, 0 < diameter <= 40 mm.
+        ("data-length-cm", "0.0001", True),
+        ("data-length-cm", "60", True),
+        ("data-length-cm", "60.0001", False),
+        ("data-length-cm", "0", False),
+        ("data-length-cm", "-3", False),
+        ("data-length-cm", "nan", False),
+        ("data-length-cm", "nine", False),
+        ("data-diameter-mm", "0.0001", True),
+        ("data-diameter-mm", "40", True),
+        ("data-diameter-mm", "40.01", False),
+        ("data-diameter-mm", "0", False),
+        ("data-diameter-mm", "inf", False),
+    ],
+)
+def test_declared_length_and_diameter_bounds(
+    tmp_path: Path, attr: str, value: str, ok: bool
+) -> None:
+    assert LENGTH_CM_RANGE == (0.0, 60.0) and DIAMETER_MM_RANGE == (0.0, 40.0)
+    current = "9" if attr == "data-length-cm" else "7.7"
+    path = variant(
+        tmp_path,
+        'data-side="right" data-length-cm="9" data-diameter-mm="7.7" stroke-width="4.235" '
+        'd="M 141.457',
+        'data-side="right" data-length-cm="9" data-diameter-mm="7.7" stroke-width="4.235" '
+        'd="M 141.457'.replace(f'{attr}="{current}"', f'{attr}="{value}"'),
+    )
+    lines = problem_lines(path)
+    if ok:
+        assert lines == []
+    else:
+        bound = "60" if attr == "data-length-cm" else "40"
+        assert lines == [
+            f"{path}:{line_of(path, 'right-SFA-M')}: path[data-segment=SFA-M][data-side=right]."
+            f"{attr}: {value!r} must be a number above 0 and at most {bound}"
+        ]
+
+
+def test_join_tolerance_boundary(tmp_path: Path) -> None:
+    # right/SFA-M starts at (141.457, 287.321), the end of right/SFA-P: move only its first point.
+    assert JOIN_TOLERANCE == 1.5
+    for dy, ok in ((1.49, True), (1.5, True), (1.52, False)):
+        path = variant(tmp_path, 'd="M 141.457 287.321', f'd="M 141.457 {287.321 + dy:.3f}')
+        lines = problem_lines(path)
+        assert (lines == []) is ok, (dy, lines)
+
+
+# --------------------------------------------------------------------------- hostile templates
+
+
+@pytest.mark.parametrize("fixture", ["billion-laughs.svg", "external-entity.svg"])
+def test_entities_are_refused_before_anything_is_expanded_or_read(fixture: str) -> None:
+    path = FIXTURES / fixture
+    started = time.perf_counter()
+    with recorded() as events, pytest.raises(TemplateError) as err:
+        load_template(path)
+    assert time.perf_counter() - started < 1.0
+    assert err.value.lines() == [
+        f"{path}:2: <!DOCTYPE>: DTDs, entity declarations and external entities are refused "
+        "(remove the <!DOCTYPE ...> declaration and any entities)"
+    ]
+    assert not any("passwd" in args for _, args in events)
+    assert not any(event != "open" for event, _ in events)
+
+
+def test_external_http_entity_is_never_fetched(tmp_path: Path) -> None:
+    with socket.socket() as server:
+        server.bind(("127.0.0.1", 0))
+        server.listen(1)
+        server.settimeout(0.3)
+        port = server.getsockname()[1]
+        path = tmp_path / "http-entity.svg"
+        path.write_text(
+            '<?xml version="1.0"?>\n'
+            f'<!DOCTYPE svg [<!ENTITY x SYSTEM "http://127.0.0.1:{port}/x">]>\n'
+            '<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 400 1000">&x;</svg>\n',
+            encoding="utf-8",
+        )
+        with recorded() as events, pytest.raises(TemplateError):
+            load_template(path)
+        with pytest.raises(TimeoutError):
+            server.accept()
+    assert not any(event.startswith(("socket", "urllib")) for event, _ in events)
+
+
+def test_external_image_references_are_refused_and_not_read() -> None:
+    path = FIXTURES / "image-href.svg"
+    with recorded() as events, pytest.raises(TemplateError) as err:
+        load_template(path)
+    hint = "(embed the artwork as paths; only '#id' references are allowed)"
+    assert err.value.lines() == [
+        f"{path}:4: image.href: 'file:///etc/passwd' external references are refused {hint}",
+        f"{path}:5: image.href: 'http://127.0.0.1:9/logo.png' external references are refused "
+        f"{hint}",
+        f"{path}: vessels: no vessel centre lines found (0 of 45) (name each centre line with "
+        'data-segment="..." and data-side="right|left")',
+    ]
+    assert not any("passwd" in args or event != "open" for event, args in events)
+
+
+def test_scripts_and_embedded_content_are_refused() -> None:
+    path = FIXTURES / "script.svg"
+    lines = problem_lines(path)
+    assert lines[:3] == [
+        f"{path}:2: svg.onload: 'alert(1)' event attributes are refused (remove it: the template "
+        "is read as data only)",
+        f"{path}:3: script: <script> is refused in a map template (remove it: the template is "
+        "read as data only)",
+        f"{path}:4: foreignObject: <foreignObject> is refused in a map template (remove it: the "
+        "template is read as data only)",
+    ]
+
+
+@pytest.mark.parametrize(
+    ("old", "new", "field", "rule"),
+    [
+        (
+            '<g id="silhouette" fill="none"',
+            '<g id="silhouette" fill="url(http://x/p.svg#a)"',
+            "g[id=silhouette].fill",
+            "external references are refused",
+        ),
+        (
+            '<g id="silhouette" fill="none"',
+            '<g id="silhouette" style="fill:url(data:x)"',
+            "g[id=silhouette].style",
+            "external references are refused",
+        ),
+        (
+            "<title>",
+            '<style>@import "http://x/a.css";</style><title>',
+            "style",
+            "external stylesheets are refused",
+        ),
+        (
+            "<svg ",
+            '<?xml-stylesheet href="http://x/a.css"?><svg ',
+            "<?xml-stylesheet?>",
+            "external stylesheets are refused",
+        ),
+        (
+            "<title>",
+            '<a href="http://x/">x</a><title>',
+            "a.href",
+            "external references are refused",
+        ),
+        ("<title>", '<svg viewBox="0 0 1 1"/><title>', "svg", "nested <svg> elements are not read"),
+        (
+            '<g id="vessels"',
+            '<g id="vessels" onclick="x()"',
+            "g[id=vessels].onclick",
+            "event attributes are refused",
+        ),
+    ],
+)
+def test_hostile_additions_to_a_valid_template(
+    tmp_path: Path, old: str, new: str, field: str, rule: str
+) -> None:
+    path = variant(tmp_path, old, new)
+    problems = check_template(path)
+    assert [p.field for p in problems] == [field]
+    assert problems[0].rule == rule
+    assert problems[0].line == line_of(path, new.split(">")[0].split("<")[-1][:20] or new)
+
+
+def test_local_references_are_allowed(tmp_path: Path) -> None:
+    path = variant(
+        tmp_path,
+        "<title>",
+        '<defs><linearGradient id="g"/></defs><use href="#body-outline"/>'
+        '<rect fill="url(#g)" width="1" height="1"/><title>',
+    )
+    assert problem_lines(path) == []
+
+
+def test_oversized_file_is_refused_unread(tmp_path: Path) -> None:
+    path = tmp_path / "huge.svg"
+    with open(path, "wb") as fh:
+        fh.truncate(MAX_TEMPLATE_BYTES + 1)
+    with recorded() as events:
+        lines = problem_lines(path)
+    assert lines == [
+        f"{path}: (file): {MAX_TEMPLATE_BYTES + 1} bytes is larger than the {MAX_TEMPLATE_BYTES} "
+        "bytes a map template may have (simplify the artwork or remove embedded content)"
+    ]
+    assert not any("huge.svg" in args for _, args in events)
+
+
+@pytest.mark.parametrize(
+    ("text", "expected"),
+    [
+        ("<svg", "{f}:1: xml: is not well-formed XML: unclosed token"),
+        (
+            '<svg xmlns="http://www.w3.org/2000/svg">\n<g>\n</svg>',
+            "{f}:3: xml: is not well-formed XML: mismatched tag",
+        ),
+        (
+            "<svg viewBox='0 0 400 1000'/>",
+            "{f}:1: <svg>: the root element must be <svg> in the SVG namespace (use <svg "
+            'xmlns="http://www.w3.org/2000/svg" viewBox="...">)',
+        ),
+        (
+            "<svg xmlns='http://www.w3.org/2000/svg'>&foo;</svg>",
+            "{f}:1: xml: is not well-formed XML: undefined entity",
+        ),
+    ],
+)
+def test_unreadable_xml(tmp_path: Path, text: str, expected: str) -> None:
+    path = tmp_path / "bad.svg"
+    path.write_text(text, encoding="utf-8")
+    assert expected.format(f=path) in problem_lines(path)
+
+
+@pytest.mark.parametrize(
+    ("viewbox", "ok"),
+    [
+        ("0 0 400 1000", True),
+        ("0,0,1,1", True),
+        ("-100000 0 100000 100000", True),
+        ("0 0 0 1000", False),
+        ("0 0 400 -1000", False),
+        ("0 0 100001 1000", False),
+        ("0 0 400", False),
+        ("a b c d", False),
+        ("0 0 nan 1000", False),
+    ],
+)
+def test_viewbox_must_be_sane(tmp_path: Path, viewbox: str, ok: bool) -> None:
+    path = variant(tmp_path, 'viewBox="0 0 400 1000"', f'viewBox="{viewbox}"')
+    fields = [p.field for p in check_template(path)]
+    if ok:
+        assert "svg.viewBox" not in fields
+    else:
+        assert fields[0] == "svg.viewBox"
+
+
+def test_missing_viewbox_and_missing_file(tmp_path: Path) -> None:
+    path = variant(tmp_path, 'viewBox="0 0 400 1000" ', "")
+    assert [p.field for p in check_template(path)] == ["svg.viewBox"]
+    gone = tmp_path / "nowhere.svg"
+    assert problem_lines(gone) == [
+        f"{gone}: (file): cannot be read: No such file or directory (check the --template path)"
+    ]
+
+
+def test_vessel_hidden_in_defs_is_reported(tmp_path: Path) -> None:
+    row = next(r for r in SHIPPED.read_text(encoding="utf-8").splitlines() if "right-PLA" in r)
+    path = variant(tmp_path, row, f"<defs>{row.strip()}</defs>")
+    assert problem_lines(path) == [
+        f"{path}:{line_of(path, 'right-PLA')}: path[data-segment=PLA][data-side=right]: is inside "
+        "<defs> and never drawn (move it into the vessels layer)",
+        f'{path}: vessels.right/PLA: is missing (add a <path data-segment="PLA" data-side="right">'
+        " drawn from its parent's distal end)",
+    ]
