@@ -15,7 +15,7 @@ from __future__ import annotations
 import math
 import re
 from collections.abc import Callable, Mapping, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 from diagram.anatomy import SEGMENT_IDS, Side, ancestors, run_on, vessel_key
 from diagram.assess.results import Assessment, LesionResult, SegmentResult
@@ -658,14 +658,21 @@ def _labels(
 
 
 def _fit_map(
-    template: Template, x0: float, x1: float, top: float, bottom: float, column_w: float
+    template: Template,
+    x0: float,
+    x1: float,
+    top: float,
+    bottom: float,
+    margins: tuple[float, float],
 ) -> tuple[_Fit, Box]:
+    """Scale the template into the room between the two label margins (widths given)."""
     vx, vy, vw, vh = template.viewbox
-    avail_w = (x1 - x0) - 2 * (column_w + GUTTER_PT)
-    scale = max(min(avail_w / vw, (bottom - top) / vh), 1e-3)
+    lo, hi = x0 + margins[0] + GUTTER_PT, x1 - margins[1] - GUTTER_PT
+    scale = max(min((hi - lo) / vw, (bottom - top) / vh), 1e-3)
     w, h = vw * scale, vh * scale
-    left = (x0 + x1) / 2 - w / 2
-    return _Fit(scale, left - vx * scale, top - vy * scale), Box(left, top, w, h)
+    left = (x0 + x1) / 2 - w / 2 if margins[0] == margins[1] else (lo + hi) / 2 - w / 2
+    down = bottom - h  # a map narrower than its room sits on the ankle pressure strip
+    return _Fit(scale, left - vx * scale, down - vy * scale), Box(left, down, w, h)
 
 
 def _stack_height(count: int, columns: int, height: float, gap: float) -> float:
@@ -689,7 +696,8 @@ def _place_labels(
     template: Template,
     fit: _Fit,
     map_box: Box,
-    columns: int,
+    bounds: tuple[float, float],
+    columns: Mapping[Side, int],
     half_widths: Mapping[str, float],
     st: Style,
     bands: Mapping[str, BandStyle],
@@ -700,9 +708,9 @@ def _place_labels(
     texts: list[Item] = []
     asc, _ = line_extents(st.label_pt)
     pad = st.label_pad_pt
-    widest = max((lb.width for lb in labels), default=0.0)
     for margin in (Side.RIGHT, Side.LEFT):
         mine = [lb for lb in labels if lb.margin is margin]
+        widest = max((lb.width for lb in mine), default=0.0)
         anchors = {
             lb.id: _anchor_point(
                 template.vessels[lb.target], fit, lb.s, half_widths.get(lb.target, 2.0), margin
@@ -710,14 +718,13 @@ def _place_labels(
             for lb in mine
         }
         mine.sort(key=lambda lb: (anchors[lb.id][1], lb.kind, lb.id))
-        for col in range(columns):
-            members = mine[col::columns]
+        for col in range(columns[margin]):
+            members = mine[col :: columns[margin]]
             tops = pack_1d(
                 [anchors[lb.id][1] for lb in members],
                 [lb.height for lb in members],
                 st.line_gap_pt,
-                map_box.y,
-                map_box.bottom,
+                *bounds,
             )
             for lb, top in zip(members, tops, strict=True):
                 if margin is Side.RIGHT:
@@ -1089,6 +1096,52 @@ def _pressure_regions(
     return tuple(out)
 
 
+def _register_bands(assessment: Assessment, st: Style, bands: dict[str, BandStyle]) -> None:
+    """Add a style for any band the results use that the criteria sets did not list."""
+    for limb in assessment.limbs.values():
+        for seg in limb.segments.values():
+            _band(bands, st, seg.band)
+        for les in limb.lesions:
+            _band(bands, st, les.band)
+
+
+def _choose_columns(
+    assessment: Assessment,
+    template: Template,
+    st: Style,
+    bands: dict[str, BandStyle],
+    height: float,
+) -> tuple[list[_Label], dict[Side, int], Style]:
+    """Return the labels, the columns of each margin and the label style that fit ``height``.
+
+    One column at the house size; then one column set denser; then more columns in the margin
+    that needs them (the map shrinks to make room: the last resort for very crowded studies).
+    """
+    dense = replace(st, label_pt=min(st.label_pt, 6.0), line_gap_pt=0.6, label_pad_pt=0.6)
+    for style in (st, dense):
+        labels = _labels(assessment, template, style, bands)
+        label_h = labels[0].height if labels else 0.0
+        columns: dict[Side, int] = {}
+        for margin in Side:
+            n = sum(1 for lb in labels if lb.margin is margin)
+            columns[margin] = next(
+                (
+                    k
+                    for k in range(1, MAX_COLUMNS + 1)
+                    if _stack_height(n, k, label_h, style.line_gap_pt) <= height
+                ),
+                MAX_COLUMNS,
+            )
+        if max(columns.values()) == 1:
+            break
+    return labels, columns, style
+
+
+def _margin_width(labels: Sequence[_Label], margin: Side, columns: int) -> float:
+    widest = max((lb.width for lb in labels if lb.margin is margin), default=0.0)
+    return max(MIN_COLUMN_PT, columns * widest + (columns - 1) * COLUMN_GAP_PT)
+
+
 def layout(
     assessment: Assessment,
     template: Template,
@@ -1118,37 +1171,33 @@ def layout(
     notes: list[Item] = []
     if spec.furniture:
         notes, bottom = _notes(assessment, st, x0, x1, bottom - BLOCK_GAP_PT / 2)
-    labels = _labels(assessment, template, st, bands)
-    # Draw every band the map uses first so the legend lists it (in the criteria set's order).
-    legend_bands_known = list(bands)
+    _register_bands(assessment, st, bands)
     pressure_sides = _pressure_sides(assessment)
     reserve = PRESSURE_BOX_PT[1] + BLOCK_GAP_PT if pressure_sides else 0.0
-
-    widest = max((lb.width for lb in labels), default=0.0)
-    counts = [sum(1 for lb in labels if lb.margin is m) for m in Side]
-    label_h = labels[0].height if labels else 0.0
     symbols = _symbols_used(assessment)
-
-    def arrange(legend_bottom: float) -> tuple[int, _Fit, Box, list[Item], float]:
-        legend, legend_top = _legend(
-            [bands[b] for b in bands], symbols, st, x0, x1, legend_bottom, bands
-        )
-        area_top = top + SIDE_MARK_STRIP_PT
-        area_bottom = legend_top - BLOCK_GAP_PT - reserve
-        for columns in range(1, MAX_COLUMNS + 1):
-            column_w = max(MIN_COLUMN_PT, columns * widest + (columns - 1) * COLUMN_GAP_PT)
-            fit, map_box = _fit_map(template, x0, x1, area_top, area_bottom, column_w)
-            if all(_stack_height(n, columns, label_h, st.line_gap_pt) <= map_box.h for n in counts):
-                break
-        return columns, fit, map_box, legend, area_bottom
-
-    columns, fit, map_box, legend, _ = arrange(bottom - BLOCK_GAP_PT)
+    legend, legend_top = _legend(
+        list(bands.values()), symbols, st, x0, x1, bottom - BLOCK_GAP_PT, bands
+    )
+    area_top = top + SIDE_MARK_STRIP_PT
+    area_bottom = legend_top - BLOCK_GAP_PT - reserve
+    labels, columns, label_st = _choose_columns(
+        assessment, template, st, bands, area_bottom - area_top
+    )
+    widths = tuple(_margin_width(labels, m, columns[m]) for m in (Side.RIGHT, Side.LEFT))
+    if max(columns.values()) == 1:  # keep the map centred on the page
+        widths = (max(widths), max(widths))
+    fit, map_box = _fit_map(template, x0, x1, area_top, area_bottom, widths)
     drawn = _draw_map(assessment, template, fit, st, bands)
-    if list(bands) != legend_bands_known:  # the map used a band the criteria set did not list
-        columns, fit, map_box, legend, _ = arrange(bottom - BLOCK_GAP_PT)
-        drawn = _draw_map(assessment, template, fit, st, bands)
     label_boxes, leaders, label_items = _place_labels(
-        labels, template, fit, map_box, columns, drawn.half_widths, st, bands
+        labels,
+        template,
+        fit,
+        map_box,
+        (area_top, area_bottom),
+        columns,
+        drawn.half_widths,
+        label_st,
+        bands,
     )
 
     silhouette = tuple(
@@ -1188,7 +1237,7 @@ def layout(
     for box in drawn.boxes.values():
         vessel_box = box if vessel_box is None else vessel_box.union(box)
     regions = _pressure_regions(
-        pressure_sides, drawn.boxes, map_box, x0, x1, map_box.bottom + BLOCK_GAP_PT / 2
+        pressure_sides, drawn.boxes, map_box, x0, x1, area_bottom + BLOCK_GAP_PT / 2
     )
     items: list[Item] = [
         Rect("page", 0, 0, spec.width_pt, spec.height_pt, fill="#FFFFFF"),
