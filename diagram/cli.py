@@ -43,12 +43,12 @@ def cli() -> None:
     "--output",
     required=True,
     type=click.Path(path_type=Path),
-    help="Output file; the format follows its suffix (.svg .pdf .png .json).",
+    help="Output file; the format follows its suffix (.svg .pdf .png .dcm .json).",
 )
 @click.option(
     "--format",
     "fmt",
-    type=click.Choice(["svg", "pdf", "png", "json"]),
+    type=click.Choice(["svg", "pdf", "png", "dcm", "json"]),
     help="Force the output format whatever the suffix.",
 )
 @click.option(

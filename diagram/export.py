@@ -16,17 +16,27 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from importlib import resources
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from diagram.errors import ExportError
+
+if TYPE_CHECKING:
+    from diagram.dicom import DicomIdentity
+    from diagram.study import Study
 
 
 @dataclass(frozen=True)
 class Drawing:
-    """What the pipeline produced for one study: the SVG text and the results document."""
+    """What the pipeline produced for one study: the SVG text and the results document.
+
+    ``study`` gives the DICOM header its patient and exam attributes; ``dicom`` overrides them
+    (the teaching export passes de-identified ones).
+    """
 
     svg: str
     results: dict[str, Any]
+    study: Study | None = None
+    dicom: DicomIdentity | None = None
 
 
 @dataclass(frozen=True)
@@ -81,13 +91,32 @@ def _png(drawing: Drawing, options: ExportOptions) -> bytes:
     return data
 
 
+def _dcm(drawing: Drawing, options: ExportOptions) -> bytes:
+    from diagram._version import __version__
+    from diagram.dicom import DicomIdentity, encapsulated_pdf, identity_from_study
+
+    if drawing.dicom is not None:
+        ident = drawing.dicom
+    elif drawing.study is not None:
+        ident = identity_from_study(drawing.study)
+    else:
+        ident = DicomIdentity()
+    return encapsulated_pdf(_pdf(drawing, options), ident, version=__version__)
+
+
 def _json(drawing: Drawing, options: ExportOptions) -> bytes:
     return (
         json.dumps(drawing.results, indent=2, sort_keys=False, ensure_ascii=False) + "\n"
     ).encode("utf-8")
 
 
-WRITERS: dict[str, Writer] = {"svg": _svg, "pdf": _pdf, "png": _png, "json": _json}
+WRITERS: dict[str, Writer] = {
+    "svg": _svg,
+    "pdf": _pdf,
+    "png": _png,
+    "dcm": _dcm,
+    "json": _json,
+}
 FORMATS: tuple[str, ...] = tuple(WRITERS)
 
 

@@ -28,7 +28,11 @@ def draw(
 
     assessment = assess_study(study, criteria=criteria)
     scene = layout(assessment, load_template(template), page=page, version=__version__)
-    return Drawing(svg=render_svg(scene), results=results_document(assessment, version=__version__))
+    return Drawing(
+        svg=render_svg(scene),
+        results=results_document(assessment, version=__version__),
+        study=study,
+    )
 
 
 def assess_study(study: Study, *, criteria: str | None = None) -> Assessment:

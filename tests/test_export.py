@@ -38,7 +38,7 @@ def test_format_from_suffix_or_forced(name: str, forced: str | None, fmt: str) -
 
 @pytest.mark.parametrize("name", ["a.docx", "a"])
 def test_unknown_format_is_refused(name: str) -> None:
-    with pytest.raises(ExportError, match="is not one of svg, pdf, png, json"):
+    with pytest.raises(ExportError, match="is not one of svg, pdf, png, dcm, json"):
         format_for(Path(name))
 
 

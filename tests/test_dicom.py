@@ -1,0 +1,81 @@
+"""DICOM Encapsulated PDF: read back with pydicom and checked by dicom3tools' dciodvfy."""
+
+from __future__ import annotations
+
+import io
+import shutil
+import subprocess
+from pathlib import Path
+
+import pytest
+
+from diagram.export import Drawing, export
+from diagram.load import load_study
+
+ROOT = Path(__file__).resolve().parents[1]
+SVG = (
+    '<svg xmlns="http://www.w3.org/2000/svg" width="100mm" height="40mm" viewBox="0 0 283 113">'
+    '<text x="10" y="50" font-family="DejaVu Sans" font-size="14">PSV 385</text></svg>'
+)
+
+
+@pytest.fixture()
+def dcm(tmp_path: Path) -> tuple[Path, bytes]:
+    study = load_study(ROOT / "examples" / "claudicant-sfa.yaml")
+    out = export(Drawing(svg=SVG, results={}, study=study), tmp_path / "sheet.dcm")
+    from diagram.export import render_bytes
+
+    pdf = render_bytes(Drawing(svg=SVG, results={}), "pdf")
+    return out, pdf
+
+
+def test_reads_back_with_the_pdf_inside(dcm: tuple[Path, bytes]) -> None:
+    import pydicom
+    from pydicom.uid import EncapsulatedPDFStorage
+
+    path, _ = dcm
+    data = path.read_bytes()
+    assert data[128:132] == b"DICM"  # Part 10 preamble + prefix
+    ds = pydicom.dcmread(path)
+    # PS3.3 A.45.1 (standards.md): SOP class, modality DOC, MIME type, burned-in annotation
+    assert ds.SOPClassUID == EncapsulatedPDFStorage
+    assert ds.Modality == "DOC"
+    assert ds.MIMETypeOfEncapsulatedDocument == "application/pdf"
+    assert ds.BurnedInAnnotation == "YES"
+    assert ds.DocumentTitle == "Leg arterial duplex map"
+    assert str(ds.PatientName) == "Testcase^Morgan" and ds.PatientID == "DEMO-0101"
+    assert ds.StudyDate == "20261120" and ds.PatientBirthDate == "19570602"
+    doc = bytes(ds.EncapsulatedDocument)[: int(ds.EncapsulatedDocumentLength)]
+    assert doc[:5] == b"%PDF-" and doc.rstrip(b"\n").endswith(b"%%EOF")
+
+
+def test_pdf_bytes_round_trip_exactly(tmp_path: Path) -> None:
+    import pydicom
+
+    from diagram.dicom import DicomIdentity, encapsulated_pdf
+
+    for pdf in (b"%PDF-1.5 odd length\n%%EOF", b"%PDF-1.5 even length\n%%EOF\n"):
+        ds = pydicom.dcmread(io.BytesIO(encapsulated_pdf(pdf, DicomIdentity())))
+        assert bytes(ds.EncapsulatedDocument)[: int(ds.EncapsulatedDocumentLength)] == pdf
+
+
+def test_study_uid_is_reused_and_new_uids_made(tmp_path: Path) -> None:
+    import pydicom
+
+    from diagram.dicom import DicomIdentity, encapsulated_pdf
+
+    uid = "1.2.826.0.1.3680043.8.498.12345"
+    a = pydicom.dcmread(io.BytesIO(encapsulated_pdf(b"%PDF-", DicomIdentity(study_uid=uid))))
+    b = pydicom.dcmread(io.BytesIO(encapsulated_pdf(b"%PDF-", DicomIdentity(study_uid=uid))))
+    assert a.StudyInstanceUID == b.StudyInstanceUID == uid
+    assert a.SeriesInstanceUID != b.SeriesInstanceUID and a.SOPInstanceUID != b.SOPInstanceUID
+
+
+@pytest.mark.skipif(shutil.which("dciodvfy") is None, reason="dicom3tools not installed")
+def test_dciodvfy_finds_no_errors(dcm: tuple[Path, bytes]) -> None:
+    path, _ = dcm
+    done = subprocess.run(["dciodvfy", str(path)], capture_output=True, text=True, check=False)
+    report = done.stdout + done.stderr
+    assert "EncapsulatedPDF" in report
+    errors = [line for line in report.splitlines() if line.startswith("Error")]
+    assert errors == []
