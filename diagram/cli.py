@@ -7,6 +7,7 @@ No domain logic lives here. Heavy libraries are imported by the commands that ne
 from __future__ import annotations
 
 import json
+import os
 import sys
 from pathlib import Path
 from typing import Any
@@ -15,6 +16,8 @@ import click
 
 from diagram._version import __version__
 from diagram.errors import DiagramError
+
+FORMATS = ("svg", "pdf", "png", "dcm", "json")
 
 CAUTION = (
     "Schematic aid for the report - not a substitute for the images or the interpreting "
@@ -37,19 +40,21 @@ def cli() -> None:
 
 
 @cli.command()
-@click.argument("study", type=click.Path(dir_okay=False, path_type=Path))
+@click.argument("studies", nargs=-1, required=True, type=click.Path(path_type=Path))
 @click.option(
     "-o",
     "--output",
     required=True,
-    type=click.Path(path_type=Path),
-    help="Output file; the format follows its suffix (.svg .pdf .png .dcm .json).",
+    type=click.Path(),
+    help="Output file (format from its suffix: .svg .pdf .png .dcm .json), or a folder "
+    "(ending in /) for many studies.",
 )
 @click.option(
     "--format",
-    "fmt",
-    type=click.Choice(["svg", "pdf", "png", "dcm", "json"]),
-    help="Force the output format whatever the suffix.",
+    "formats",
+    multiple=True,
+    type=click.Choice(FORMATS),
+    help="Output format, whatever the suffix; repeat it for several formats in a batch.",
 )
 @click.option(
     "--page",
@@ -75,24 +80,138 @@ def cli() -> None:
     show_default=True,
     help="Resolution of PNG output.",
 )
+@click.option("--jobs", type=click.IntRange(1, 256), help="Worker processes (default: CPU count).")
+@click.option("--quiet", is_flag=True, help="No progress bar and no per-study lines.")
+@click.option("--overwrite", is_flag=True, help="Replace existing files in the output folder.")
+@click.option(
+    "--name",
+    "name_pattern",
+    default="map-{n:04d}",
+    show_default=True,
+    help="Output name pattern in a batch; fields {n} {stem} {accession} {patient_id} "
+    "{exam_date} (the last three put identifiers in file names).",
+)
 def draw(
-    study: Path,
-    output: Path,
-    fmt: str | None,
+    studies: tuple[Path, ...],
+    output: str,
+    formats: tuple[str, ...],
     page: str,
     template: Path | None,
     criteria: str | None,
     dpi: float,
+    jobs: int | None,
+    quiet: bool,
+    overwrite: bool,
+    name_pattern: str,
 ) -> None:
-    """Draw the map of one STUDY file to OUTPUT."""
+    """Draw the map of each STUDY (a file, a folder of files, or a .txt list of paths)."""
     from diagram.export import ExportOptions, export, format_for
-    from diagram.load import load_study
-    from diagram.pipeline import draw as draw_study
 
-    chosen = format_for(output, fmt)  # refuse a bad format before any work
-    drawing = draw_study(load_study(study), page=page, template=template, criteria=criteria)
-    written = export(drawing, output, chosen, ExportOptions(png_dpi=dpi))
-    click.echo(f"wrote {written}", err=True)
+    as_folder = output.endswith(("/", os.sep)) or Path(output).is_dir()
+    single = (
+        len(studies) == 1
+        and studies[0].suffix.lower() in (".yaml", ".yml", ".json")
+        and not as_folder
+    )
+    if single:
+        from diagram.load import load_study
+        from diagram.pipeline import draw as draw_study
+
+        if len(formats) > 1:
+            raise click.UsageError("one output file takes one --format; give a folder for more.")
+        chosen = format_for(Path(output), formats[0] if formats else None)  # refuse before any work
+        study = load_study(studies[0])
+        drawing = draw_study(study, page=page, template=template, criteria=criteria)
+        written = export(drawing, Path(output), chosen, ExportOptions(png_dpi=dpi))
+        if not quiet:
+            click.echo(f"wrote {written}", err=True)
+        return
+    _draw_batch(
+        studies,
+        Path(output),
+        formats or ("pdf",),
+        page,
+        template,
+        criteria,
+        dpi,
+        jobs,
+        quiet,
+        overwrite,
+        name_pattern,
+    )
+
+
+def _draw_batch(
+    studies: tuple[Path, ...],
+    out_dir: Path,
+    formats: tuple[str, ...],
+    page: str,
+    template: Path | None,
+    criteria: str | None,
+    dpi: float,
+    jobs: int | None,
+    quiet: bool,
+    overwrite: bool,
+    name_pattern: str,
+) -> None:
+    from diagram.batch import (
+        BatchResult,
+        BatchTask,
+        check_pattern,
+        default_jobs,
+        expand_inputs,
+        run_batch,
+        show_progress,
+    )
+    from diagram.errors import ExportError
+
+    check_pattern(name_pattern)
+    paths = expand_inputs(studies)
+    try:
+        out_dir.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise ExportError(f"{out_dir}: cannot be made a folder: {exc.strerror}.") from None
+    if not out_dir.is_dir():
+        raise ExportError(f"{out_dir}: is not a folder.")
+    tasks = [
+        BatchTask(
+            n,
+            p,
+            out_dir,
+            tuple(dict.fromkeys(formats)),
+            name_pattern,
+            page,
+            template,
+            criteria,
+            dpi,
+            overwrite,
+        )
+        for n, p in enumerate(paths, start=1)
+    ]
+    bar_wanted = show_progress(quiet)
+
+    def report(result: BatchResult) -> None:
+        if not result.ok:
+            for line in result.errors:
+                click.echo(line, err=True)
+        elif not quiet and not bar_wanted:
+            click.echo(f"{result.study} -> {', '.join(result.written)}", err=True)
+
+    if bar_wanted:
+        with click.progressbar(length=len(tasks), label="drawing", file=sys.stderr) as bar:
+
+            def tick(result: BatchResult) -> None:
+                report(result)
+                bar.update(1)
+
+            summary = run_batch(tasks, jobs=jobs or default_jobs(), on_result=tick)
+    else:
+        summary = run_batch(tasks, jobs=jobs or default_jobs(), on_result=report)
+    click.echo(summary.line(len(tasks)), err=True)
+    if summary.interrupted:
+        sys.exit(130)
+    if summary.failed:
+        sys.exit(2)
 
 
 @cli.command()
