@@ -16,14 +16,9 @@ import click
 
 from diagram._version import __version__
 from diagram.errors import DiagramError
+from diagram.summary import CAUTION
 
 FORMATS = ("svg", "pdf", "png", "dcm", "json")
-
-CAUTION = (
-    "Schematic aid for the report - not a substitute for the images or the interpreting "
-    "physician's judgement. Criteria must be validated locally; follow local protocols and "
-    "licensed practice."
-)
 
 
 @click.group(
@@ -261,8 +256,14 @@ def criteria_show(name_or_path: str) -> None:
 
 
 @cli.command()
-def schema() -> None:
-    """Print the JSON Schema of the study file."""
+@click.option("--results", is_flag=True, help="Print the schema of the results document instead.")
+def schema(results: bool) -> None:
+    """Print the JSON Schema of the study file (or of the results document)."""
+    if results:
+        from diagram.summary import results_schema
+
+        click.echo(json.dumps(results_schema(), indent=2))
+        return
     from diagram.load import study_schema
 
     click.echo(json.dumps(study_schema(), indent=2))

@@ -6,7 +6,22 @@ from typing import Any
 
 from diagram import anatomy
 from diagram.anatomy import Side
-from diagram.assess.results import Assessment, LesionResult, Reference, SegmentResult, Span
+from diagram.assess.results import (
+    Assessment,
+    GraftResult,
+    LesionResult,
+    Reference,
+    SegmentResult,
+    Span,
+    StentResult,
+)
+from diagram.study import Study
+
+CAUTION = (
+    "Schematic aid for the report - not a substitute for the images or the interpreting "
+    "physician's judgement. Criteria must be validated locally; follow local protocols and "
+    "licensed practice."
+)
 
 RESULTS_FORMAT = 1
 
@@ -66,36 +81,126 @@ def _lesion(r: LesionResult) -> dict[str, Any]:
     }
 
 
-def results_document(assessment: Assessment, *, version: str) -> dict[str, Any]:
-    """Return the results as plain data (identifiers are not included)."""
+def _stent(r: StentResult) -> dict[str, Any]:
+    return {"from": r.from_, "to": r.to, "extent": [_span(s) for s in r.spans]}
+
+
+def _graft(r: GraftResult) -> dict[str, Any]:
     return {
-        "results_format": RESULTS_FORMAT,
-        "tool": {"name": "limbchart", "version": version},
-        "criteria": {
-            "name": assessment.criteria_name,
-            "title": assessment.criteria_title,
-            "source": assessment.criteria_source,
-        },
-        "bands": [{"id": b.id, "label": b.label} for b in assessment.bands],
-        "limbs": {
-            side.value: {
-                "segments": {seg: _segment(limb.segments[seg]) for seg in anatomy.SEGMENT_IDS},
-                "lesions": [_lesion(les) for les in limb.lesions],
-            }
-            for side, limb in sorted(
-                assessment.limbs.items(), key=lambda kv: kv[0].value != "right"
-            )
-        },
-        "warnings": [
+        "conduit": r.conduit,
+        "from": r.from_,
+        "to": r.to,
+        "band": r.band,
+        "flow_velocity": _num(r.flow_velocity),
+        "basis": r.basis,
+        "sites": [
             {
-                "code": w.code,
-                "side": w.side.value if w.side else None,
-                "segment": w.segment,
-                "message": w.message,
+                "site": g.site,
+                "band": g.band,
+                "psv": _num(g.psv),
+                "vr": _num(g.vr),
+                "reference": _ref(g.reference),
+                "basis": g.basis,
             }
-            for w in assessment.warnings
+            for g in r.sites
         ],
     }
+
+
+def _limb(assessment: Assessment, side: Side) -> dict[str, Any]:
+    limb = assessment.limbs[side]
+    out: dict[str, Any] = {
+        "segments": {seg: _segment(limb.segments[seg]) for seg in anatomy.SEGMENT_IDS},
+        "lesions": [_lesion(les) for les in limb.lesions],
+        "stents": [_stent(s) for s in limb.stents],
+        "grafts": [_graft(g) for g in limb.grafts],
+    }
+    ix = assessment.indices.get(side)
+    if ix is not None:
+        out.update(
+            {
+                "abi": _num(ix.abi),
+                "abi_category": ix.abi_category,
+                "abi_severity": ix.abi_severity,
+                "abi_basis": ix.abi_basis,
+                "tbi": _num(ix.tbi),
+                "tbi_category": ix.tbi_category,
+                "tbi_basis": ix.tbi_basis,
+                "ischaemia_grade": ix.ischaemia_grade,
+                "ischaemia_basis": ix.ischaemia_basis,
+            }
+        )
+    return out
+
+
+def _study_echo(study: Study) -> dict[str, Any]:
+    p, e = study.patient, study.exam
+    return {
+        "patient": {
+            "name": p.name,
+            "id": p.id,
+            "birth_date": p.birth_date.isoformat() if p.birth_date else None,
+            "sex": p.sex,
+        },
+        "exam": {
+            "date": e.date.isoformat() if e.date else None,
+            "accession": e.accession,
+            "site": e.site,
+            "operator": e.operator,
+            "referrer": e.referrer,
+            "indication": e.indication,
+            "study_uid": e.study_uid,
+        },
+    }
+
+
+def results_document(
+    assessment: Assessment, *, version: str, identified: bool = True
+) -> dict[str, Any]:
+    """Return the results as plain data; the study's identifiers only when ``identified``."""
+    doc: dict[str, Any] = {
+        "results_format": RESULTS_FORMAT,
+        "tool": {"name": "limbchart", "version": version},
+        "caution": CAUTION,
+    }
+    if identified:
+        doc["study"] = _study_echo(assessment.study)
+    doc.update(
+        {
+            "criteria": {
+                "name": assessment.criteria_name,
+                "title": assessment.criteria_title,
+                "source": assessment.criteria_source,
+                "used": [
+                    {"name": n, "title": t, "origin": o} for n, t, o in assessment.criteria_used
+                ],
+            },
+            "bands": [
+                {"id": b.id, "label": b.label, "look": b.look or None} for b in assessment.bands
+            ],
+            "limbs": {side.value: _limb(assessment, side) for side in (Side.RIGHT, Side.LEFT)},
+            "warnings": [
+                {
+                    "code": w.code,
+                    "side": w.side.value if w.side else None,
+                    "segment": w.segment,
+                    "message": w.message,
+                }
+                for w in assessment.warnings
+            ],
+        }
+    )
+    return doc
+
+
+def results_schema() -> dict[str, Any]:
+    """Return the JSON Schema of the results document (shipped in the package)."""
+    import json
+    from importlib import resources
+
+    text = (resources.files("diagram") / "schema" / "results.schema.json").read_text("utf-8")
+    schema: dict[str, Any] = json.loads(text)
+    return schema
 
 
 def _fmt(value: float | None) -> str:

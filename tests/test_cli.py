@@ -53,7 +53,13 @@ def test_check_json_has_the_documented_fields(capsys: pytest.CaptureFixture[str]
     assert isinstance(doc["warnings"], list)
     for w in doc["warnings"]:
         assert set(w) == {"code", "side", "segment", "message"}
-    assert "Testcase" not in out and "DEMO-0101" not in out  # no identifiers in results
+    # identifiers appear only in the study echo of a normal (identified) export
+    assert doc["study"]["patient"]["id"] == "DEMO-0101"
+    del doc["study"]
+    assert "Testcase" not in json.dumps(doc) and "DEMO-0101" not in json.dumps(doc)
+    # pressure indices: 2016 AHA/ACC PAD guideline; left PT 96 / brachial 138 = 0.696 -> 0.70
+    assert (left["abi"], left["abi_category"]) == (0.7, "abnormal")
+    assert left["tbi"] == 0.51 and left["ischaemia_grade"] == 1  # toe 70 / 138; WIfI ABI 0.60-0.79
 
 
 def test_schema_is_a_json_schema(capsys: pytest.CaptureFixture[str]) -> None:

@@ -1,0 +1,51 @@
+"""The results document: every example validates against the shipped results schema."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+
+from diagram._version import __version__
+from diagram.assess import assess
+from diagram.load import load_study
+from diagram.summary import results_document, results_schema
+
+ROOT = Path(__file__).resolve().parents[1]
+STUDIES = sorted((ROOT / "examples").glob("*.yaml")) + sorted(
+    (ROOT / "tests" / "data" / "valid").glob("*.*")
+)
+
+
+def validator():  # type: ignore[no-untyped-def]
+    import jsonschema
+
+    schema = results_schema()
+    jsonschema.Draft202012Validator.check_schema(schema)
+    return jsonschema.Draft202012Validator(schema)
+
+
+@pytest.mark.parametrize("path", STUDIES, ids=lambda p: p.name)
+def test_results_of_every_study_validate(path: Path) -> None:
+    doc = results_document(assess(load_study(path)), version=__version__)
+    doc = json.loads(json.dumps(doc))  # exactly what the JSON file holds
+    errors = [e.message for e in validator().iter_errors(doc)]
+    assert errors == []
+
+
+def test_the_schema_rejects_a_damaged_document() -> None:
+    doc = results_document(assess(load_study(STUDIES[0])), version=__version__)
+    doc = json.loads(json.dumps(doc))
+    doc["limbs"]["left"]["segments"]["SFA-M"]["vr"] = "high"
+    del doc["limbs"]["right"]["segments"]["CFA"]
+    assert len(list(validator().iter_errors(doc))) == 2
+
+
+def test_unidentified_results_carry_no_study_echo() -> None:
+    a = assess(load_study(ROOT / "examples" / "claudicant-sfa.yaml"))
+    doc = results_document(a, version=__version__, identified=False)
+    assert "study" not in doc
+    text = json.dumps(doc)
+    for ident in ("Testcase", "DEMO-0101", "DEMO-ACC-0101", "1957", "Demo Vascular Lab"):
+        assert ident not in text
