@@ -18,6 +18,7 @@ import itertools
 import math
 import re
 from dataclasses import dataclass, field
+from types import MappingProxyType
 
 Point = tuple[float, float]
 
@@ -126,14 +127,16 @@ class Affine:
 IDENTITY = Affine()
 
 _TRANSFORM_FN = re.compile(r"\s*([A-Za-z]+)\s*\(([^()]*)\)\s*,?")
-_ARITY = {
-    "matrix": (6,),
-    "translate": (1, 2),
-    "scale": (1, 2),
-    "rotate": (1, 3),
-    "skewX": (1,),
-    "skewY": (1,),
-}
+_ARITY = MappingProxyType(
+    {
+        "matrix": (6,),
+        "translate": (1, 2),
+        "scale": (1, 2),
+        "rotate": (1, 3),
+        "skewX": (1,),
+        "skewY": (1,),
+    }
+)
 
 
 def parse_transform(text: str) -> Affine:
@@ -199,11 +202,20 @@ def _numbers(text: str, what: str) -> list[float]:
 # --------------------------------------------------------------------------- curve pieces
 
 
-def _gl(speed_fn: _Speed, t0: float, t1: float) -> float:
+_GL_PAIRS = tuple(zip(_GL_X, _GL_W, strict=True))
+
+
+def _gl(speed: _Speed, t0: float, t1: float) -> float:
     """Return the integral of the speed over [t0, t1] by Gauss-Legendre quadrature."""
     half = 0.5 * (t1 - t0)
     mid = 0.5 * (t1 + t0)
-    return half * sum(w * speed_fn(mid + half * x) for x, w in zip(_GL_X, _GL_W, strict=True))
+    ax, ay, bx, by, cx, cy = speed.ax, speed.ay, speed.bx, speed.by, speed.cx, speed.cy
+    hypot = math.hypot
+    total = 0.0
+    for x, w in _GL_PAIRS:  # inlined |B'(t)|: this loop is the hot path of every query
+        t = mid + half * x
+        total += w * hypot((ax * t + bx) * t + cx, (ay * t + by) * t + cy)
+    return half * total
 
 
 class _Speed:
@@ -341,7 +353,7 @@ class Cubic:
         t = lo + (hi - lo) * ((s - base_s) / span if span > 0 else 0.5)
         for _ in range(60):
             err = base_s + _gl(self._speed, base_t, t) - s
-            if abs(err) < 1e-10:
+            if abs(err) < 1e-9:
                 return t
             if err > 0:
                 hi = t
@@ -893,8 +905,10 @@ class PathGeometry:
         span = b - a
         for s, is_join in self._stations(a, b, step):
             w = w0 if span == 0 else w0 + (w1 - w0) * (s - a) / span
-            p = self.point_at(s)
-            tangents = [self.tangent_at(s)]
+            i, t = self._locate(s)
+            piece = self.pieces[i]
+            p = piece.point(t)
+            tangents = [piece.direction(t)]
             if is_join:
                 i = bisect.bisect_left(self._cum, s)
                 incoming = self.pieces[i - 1].direction(1.0)

@@ -57,18 +57,24 @@ MAX_VIEWBOX = 100_000.0
 LENGTH_CM_RANGE = (0.0, 60.0)  # exclusive, inclusive
 DIAMETER_MM_RANGE = (0.0, 40.0)  # exclusive, inclusive
 
-_REFUSED_ELEMENTS = frozenset({"script", "foreignobject", "iframe", "embed", "object", "handler"})
+_REFUSED_ELEMENTS = frozenset(
+    {"script", "foreignobject", "iframe", "embed", "object", "handler"}
+    | {"animate", "animatemotion", "animatetransform", "set", "discard"}  # they rewrite attributes
+)
+_LAYERS = ("silhouette", "landmarks", "vessels")
 _HIDDEN_CONTAINERS = frozenset({"defs", "symbol", "clippath", "mask", "pattern", "marker"})
 _CENTRE_LINES = frozenset({"path", "line", "polyline"})
 _OUTLINE_SHAPES = frozenset({"path", "line", "polyline", "polygon", "rect", "circle", "ellipse"})
-_SIDE_WORDS = {
-    "right": "right",
-    "rt": "right",
-    "r": "right",
-    "left": "left",
-    "lt": "left",
-    "l": "left",
-}
+_SIDE_WORDS = MappingProxyType(
+    {
+        "right": "right",
+        "rt": "right",
+        "r": "right",
+        "left": "left",
+        "lt": "left",
+        "l": "left",
+    }
+)
 _NAMED = re.compile(
     r"^(?:(?P<pre>right|left|rt|lt|r|l)[\s_.:-]+)?(?P<name>.+?)"
     r"(?:[\s_.:-]+(?P<post>right|left|rt|lt|r|l))?$",
@@ -144,22 +150,15 @@ def _read_file(path: Path, display: str) -> tuple[Template | None, tuple[Problem
     try:
         resolved = path.resolve(strict=True)
         stat = resolved.stat()
+        if not resolved.is_file():
+            return None, (Problem(display, None, "", None, "is not a file"),)
+        if stat.st_size > MAX_TEMPLATE_BYTES:
+            return None, (_too_big(display, stat.st_size),)
+        # An OSError raised inside is not cached, so a fixed permission takes effect at once.
+        return _parse_cached(str(resolved), display, stat.st_mtime_ns, stat.st_size)
     except OSError as exc:
-        return None, (
-            Problem(
-                display,
-                None,
-                "",
-                None,
-                f"cannot be read: {exc.strerror}",
-                "check the --template path",
-            ),
-        )
-    if not resolved.is_file():
-        return None, (Problem(display, None, "", None, "is not a file"),)
-    if stat.st_size > MAX_TEMPLATE_BYTES:
-        return None, (_too_big(display, stat.st_size),)
-    return _parse_cached(str(resolved), display, stat.st_mtime_ns, stat.st_size)
+        rule = f"cannot be read: {exc.strerror or exc}"
+        return None, (Problem(display, None, "", None, rule, "check the --template path"),)
 
 
 def _too_big(display: str, size: int) -> Problem:
@@ -224,6 +223,7 @@ class _Reader:
     _stack: list[_Frame] = field(default_factory=list)
     _locator: Locator | None = None
     fatal: bool = False  # the XML could not be read to its end: contract checks are moot
+    _style_text: list[str] = field(default_factory=list)
 
     def feed(self, data: bytes) -> None:
         from xml.sax import SAXException, SAXParseException
@@ -244,11 +244,14 @@ class _Reader:
                 reader.start(name, attrs)
 
             def endElementNS(self, name: tuple[str | None, str], qname: str | None) -> None:
-                reader._stack.pop()
+                if reader._stack.pop().tag == "style":
+                    # Checked whole: the parser may split text anywhere, even inside "url(".
+                    reader.check_css("".join(reader._style_text), "style")
+                    reader._style_text.clear()
 
             def characters(self, content: str) -> None:
                 if reader._stack and reader._stack[-1].tag == "style":
-                    reader.check_css(content, "style")
+                    reader._style_text.append(content)
 
             def processingInstruction(self, target: str, data: str) -> None:
                 if target.lower() == "xml-stylesheet":
@@ -330,11 +333,13 @@ class _Reader:
             except ValueError as exc:
                 self.problem(f"{where}.transform", plain["transform"], str(exc))
         group = parent.group if parent else ""
-        if tag == "g" and plain.get("id") in ("silhouette", "landmarks", "vessels"):
-            group = plain["id"]
+        label = attrs.get((INKSCAPE_NS, "label"), "") if tag == "g" else ""
+        for layer_name in (plain.get("id", ""), label):
+            if tag == "g" and layer_name.strip().lower() in _LAYERS:
+                group = layer_name.strip().lower()
         hidden = (parent.hidden if parent else False) or tag in _HIDDEN_CONTAINERS
         side = parent.side if parent else None
-        if "data-side" in plain and tag != "path":
+        if "data-side" in plain and tag not in _CENTRE_LINES:
             side = _side_word(plain["data-side"]) or side
         self._stack.append(_Frame(tag, transform, group, hidden, side))
         if uri == SVG_NS and tag in _OUTLINE_SHAPES | _CENTRE_LINES:
@@ -645,13 +650,21 @@ def _build(reader: _Reader, display: str, name: str) -> tuple[Template | None, t
         for r in reader.vessels
         if r.side is not None or r.segment in anatomy.UNPAIRED
     }
-    if not reader.vessels and not reader.fatal:
+    if not reader.vessels:
         add(
             None,
             "vessels",
             None,
             f"no vessel centre lines found (0 of {len(_EXPECTED)})",
             'name each centre line with data-segment="..." and data-side="right|left"',
+        )
+    if not reader.silhouette:
+        add(
+            None,
+            "silhouette",
+            None,
+            "no body outline found",
+            'draw the outline as paths inside <g id="silhouette">',
         )
     for side, seg in _EXPECTED if reader.vessels else ():
         key = anatomy.vessel_key(side, seg)

@@ -284,6 +284,10 @@ def test_transform_heavy_template_equals_the_shipped_geometry(shipped: Template)
     # shipped file carries, magnified by the fixture's scales).
     other = load_template(FIXTURES / "transformed.svg")
     assert set(other.vessels) == ALL_KEYS
+    # The outline sits in an editor's layer named by inkscape:label, under its own transform.
+    mine, theirs = (PathGeometry.from_d(t.silhouette[0]) for t in (shipped, other))
+    assert theirs.length() == pytest.approx(mine.length(), abs=1e-6)
+    assert math.dist(theirs.point_at(500), mine.point_at(500)) < 1e-6
     for key, vessel in shipped.vessels.items():
         g, h = vessel.geometry, other.vessels[key].geometry
         assert h.length() == pytest.approx(g.length(), abs=2e-3)
@@ -564,6 +568,7 @@ def test_external_image_references_are_refused_and_not_read() -> None:
         f"{hint}",
         f"{path}: vessels: no vessel centre lines found (0 of 45) (name each centre line with "
         'data-segment="..." and data-side="right|left")',
+        f'{path}: silhouette: no body outline found (draw the outline as paths inside <g id="silhouette">)',
     ]
     assert not any("passwd" in args or event != "open" for event, args in events)
 
@@ -615,6 +620,12 @@ def test_scripts_and_embedded_content_are_refused() -> None:
             "external references are refused",
         ),
         ("<title>", '<svg viewBox="0 0 1 1"/><title>', "svg", "nested <svg> elements are not read"),
+        (
+            "<title>",
+            '<set attributeName="href" to="http://x/"/><title>',
+            "set",
+            "<set> is refused in a map template",
+        ),
         (
             '<g id="vessels"',
             '<g id="vessels" onclick="x()"',
@@ -704,6 +715,27 @@ def test_viewbox_must_be_sane(tmp_path: Path, viewbox: str, ok: bool) -> None:
         assert fields[0] == "svg.viewBox"
 
 
+def test_url_split_across_parser_buffers_is_still_seen(tmp_path: Path) -> None:
+    # The SAX reader feeds expat 65 516-byte blocks and text arrives in pieces: put "url(" across
+    # the first block boundary; the style text is checked whole.
+    text = SHIPPED.read_text(encoding="utf-8")
+    head = text[: text.index("<title>")] + "<style>/*"
+    pad = 65_516 - len(head.encode("utf-8")) - len("*/ rect { fill: ur")
+    style = "<style>/*" + "x" * pad + "*/ rect { fill: url(http://x/) }</style>"
+    path = variant(tmp_path, "<title>", style + "<title>")
+    data = path.read_bytes()
+    assert data[65_514:65_518] == b"url("
+    assert [p.rule for p in check_template(path)] == ["external references are refused"]
+
+
+def test_missing_silhouette(tmp_path: Path) -> None:
+    row = next(r for r in SHIPPED.read_text(encoding="utf-8").splitlines() if "body-outline" in r)
+    path = variant(tmp_path, row, "")
+    assert problem_lines(path) == [
+        f'{path}: silhouette: no body outline found (draw the outline as paths inside <g id="silhouette">)'
+    ]
+
+
 def test_missing_viewbox_and_missing_file(tmp_path: Path) -> None:
     path = variant(tmp_path, 'viewBox="0 0 400 1000" ', "")
     assert [p.field for p in check_template(path)] == ["svg.viewBox"]
@@ -711,6 +743,7 @@ def test_missing_viewbox_and_missing_file(tmp_path: Path) -> None:
     assert problem_lines(gone) == [
         f"{gone}: (file): cannot be read: No such file or directory (check the --template path)"
     ]
+    assert problem_lines(tmp_path) == [f"{tmp_path}: (file): is not a file"]
 
 
 def test_vessel_hidden_in_defs_is_reported(tmp_path: Path) -> None:

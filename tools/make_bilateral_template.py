@@ -30,6 +30,7 @@ from diagram.geometry import (  # noqa: E402
     Point,
     format_number,
     parse_transform,
+    transform_path_d,
 )
 
 VIEW_W, VIEW_H = 400.0, 1000.0
@@ -372,6 +373,9 @@ def _wrap(rows: list[str]) -> str:
             '  <g id="vessels" fill="none" stroke="#a8322a">',
             *rows,
             "  </g>",
+            '  <g id="silhouette" fill="none" stroke="#b9b9b2">',
+            f'    <path d="{silhouette_d()}"/>',
+            "  </g>",
             "</svg>",
             "",
         ]
@@ -402,6 +406,7 @@ def _transformed_fixture() -> str:
         "left": "skewX(20),translate(-7 11) skewY(-4)",
     }
     groups = {side: parse_transform(text) for side, text in group_text.items()}
+    outline_inverse = parse_transform("translate(10 20) scale(0.5)").inverse()
     rows: dict[str | None, list[str]] = {None: [], "right": [], "left": []}
     for i, d in enumerate(vessels()):
         own = Affine(0.9, 0.1, -0.2, 1.1, 3 + i, -2 * i)
@@ -441,6 +446,11 @@ def _transformed_fixture() -> str:
             *group(None),
             *group("right"),
             *group("left"),
+            "  </g>",
+            # An editor's layer: named by its label, moved by a transform the path data undoes.
+            '  <g inkscape:groupmode="layer" inkscape:label="Silhouette" id="layer1" '
+            'transform="translate(10 20) scale(0.5)">',
+            f'    <path d="{transform_path_d(silhouette_d(), outline_inverse)}"/>',
             "  </g>",
             "</svg>",
             "",
