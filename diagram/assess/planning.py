@@ -1,0 +1,535 @@
+"""Planning summary of one leg: disease per level, occlusions, runoff, GLASS grades and stage, TASC.
+
+Sources (clinical-values.md): GLASS in the Global Vascular Guidelines, Conte MS et al., J Vasc
+Surg 2019;69:3S (target path, calcification, inflow apart confirmed; grades and stage recalled);
+TASC II, Norgren L et al., J Vasc Surg 2007;45:S5 (femoropopliteal, confirmed); SVS standards,
+Rutherford RB et al., J Vasc Surg 1997;26:517 (runoff scale and the added 1, confirmed).
+
+Choices the sources leave open (stated in the results):
+
+* Disease is severity >= 2 (>= 50%) on the common scale, occlusion 4. Lengths are the extents the
+  map draws, a union per segment. A segment >= 50% from its own sample with no lesion behind it
+  counts as a 1 cm stenosis at its start, or occluded over its nominal length (an assumption).
+* GLASS lengths in the guideline's cm (1/3 of the SFA ~ 10 cm); tibial fractions of the nominal
+  length of the vessel's thirds; for PTA and PER targets the TPT is on the path and counts.
+* "calcified" plaque on a lesion >= 50% is taken as severe calcification (an assumption).
+* Default target: the lowest IP grade; ties go to in-line flow to the foot (ATA into a patent
+  DPA, PTA into patent plantar arteries; the peroneal ends above the ankle), then fewer occluded
+  and diseased cm, then the order ATA, PTA, PER (arbitrary, only to be deterministic).
+* Runoff: a tibial artery is patent to the ankle when every segment of its path (TPT included for
+  PTA and PER) was assessed and none is occluded; one not fully assessed is never counted patent.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Sequence
+from dataclasses import dataclass
+from enum import StrEnum
+
+from diagram.anatomy import SEGMENT_IDS, SEGMENTS, Side
+from diagram.assess.grading import FOCAL_LENGTH_CM
+from diagram.assess.results import LimbResult, Span
+from diagram.criteria import LOOK_SEVERITY, NOT_ASSESSED, SIGNIFICANT_SEVERITY, CriteriaSets
+from diagram.study import Plaque, Study
+
+OCCLUDED = LOOK_SEVERITY["occluded"]
+_EPS = 1e-6
+
+
+class PlanLevel(StrEnum):
+    """Levels of the planning summary; the CFA counts with inflow (GVG 2019)."""
+
+    INFLOW = "inflow"
+    FEMOROPOPLITEAL = "femoropopliteal"
+    INFRAPOPLITEAL = "infrapopliteal"
+    PEDAL = "pedal"
+
+
+INFLOW_PATH = ("AO", "CIA", "EIA", "CFA")  # in line to the leg; the internal iliac is not
+SFA = ("SFA-P", "SFA-M", "SFA-D")
+POPLITEAL = ("POP-AK", "POP-BK")
+TIBIALS = ("ATA", "PTA", "PER")
+LEVEL_SEGMENTS: dict[PlanLevel, tuple[str, ...]] = {
+    PlanLevel.INFLOW: ("AO", "CIA", "IIA", "EIA", "CFA"),
+    PlanLevel.FEMOROPOPLITEAL: ("PFA", *SFA, *POPLITEAL),
+    PlanLevel.INFRAPOPLITEAL: ("TPT", *(f"{v}-{t}" for v in TIBIALS for t in "PMD")),
+    PlanLevel.PEDAL: ("DPA", "PLA"),
+}
+PEDAL_CONTINUATION = {"ATA": "DPA", "PTA": "PLA"}  # the peroneal ends above the ankle
+
+# GLASS femoropopliteal grade (GVG 2019 figure 5.1, recalled). Centimetres as the guideline gives.
+FP_SFA_DISEASE_CM = (10.0, 20.0)  # < 10 FP1 . 10-20 FP2 . > 20 FP3
+FP_FOCAL_OCCLUSION_CM = 5.0  # one non-flush occlusion < 5 cm: FP1
+FP_OCCLUSION_CM = (10.0, 20.0)  # non-flush < 10 FP2 . 10-20 FP3 . flush <= 20 FP3 . > 20 FP4
+FP_POP_STENOSIS_CM = (2.0, 5.0)  # < 2 FP2 . 2-5 FP3 . > 5 FP4; trifurcation or occlusion FP4
+# GLASS infrapopliteal grade (GVG 2019 figure 5.2, recalled); fractions of the vessel length.
+IP_FOCAL_CM = 3.0  # stenosis < 3 cm IP1; one occlusion < 3 cm (not origin, not TPT) IP2
+IP_FRACTIONS = ((1, 3), (2, 3))  # disease <= 1/3 IP2, <= 2/3 IP3, more IP4; occlusion > 1/3 IP4
+# GLASS limb stage (GVG 2019 figure 5.3, recalled): rows FP0..FP4, columns IP0..IP4; None = n/a.
+STAGE_TABLE: tuple[tuple[str | None, ...], ...] = (
+    (None, "I", "I", "II", "III"),
+    ("I", "I", "II", "II", "III"),
+    ("I", "II", "II", "II", "III"),
+    ("II", "II", "II", "III", "III"),
+    ("III", "III", "III", "III", "III"),
+)
+# TASC II femoropopliteal (Norgren 2007, confirmed), cm.
+TASC_A_STENOSIS_CM = 10.0  # single stenosis <= 10
+TASC_A_OCCLUSION_CM = 5.0  # single occlusion <= 5 (heavily calcified: B)
+TASC_B_EACH_CM = 5.0  # multiple lesions each <= 5
+TASC_B_SINGLE_CM = 15.0  # single lesion <= 15 not involving the infrageniculate popliteal
+TASC_C_TOTAL_CM = 15.0  # multiple lesions totalling > 15
+TASC_D_OCCLUSION_CM = 20.0  # occlusion of the SFA > 20 involving the popliteal
+# Runoff vessel scale (Rutherford 1997, confirmed): 0 <= 20%, 1 21-49%, 2 50-99%, 2.5 occluded
+# <= half its length, 3 more. Our <50% band spans 1-49%, so it scores 1: documented disease is
+# not scored as normal (the same rule as the grading's lesion floor).
+RUNOFF_SCALE_BY_SEVERITY = {0: 0.0, 1: 1.0, 2: 2.0, 3: 2.0}
+RUNOFF_OCCLUDED_HALF, RUNOFF_OCCLUDED_MORE = 2.5, 3.0
+CALCIFICATION_ASSUMPTION = "plaque 'calcified' on a lesion >= 50% is taken as severe calcification"
+
+
+@dataclass(frozen=True)
+class LevelSummary:
+    """Disease at one level: worst band, lengths >= 50% and occluded, significant lesions."""
+
+    level: PlanLevel
+    worst_band: str
+    diseased_cm: float
+    occluded_cm: float
+    lesion_count: int  # lesions (and segment samples) >= 50% touching the level
+    not_assessed: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class Occlusion:
+    """An occlusion: where it starts, its length and where flow returns (None when unknown)."""
+
+    segment: str
+    start_cm: float
+    length_cm: float
+    reconstitutes: str | None
+    source: str
+
+
+@dataclass(frozen=True)
+class RunoffVessel:
+    """One tibial artery's runoff: patent / occluded / not-assessed and its SVS vessel scale."""
+
+    vessel: str
+    state: str
+    scale: float | None
+    basis: str
+
+
+@dataclass(frozen=True)
+class VesselGrade:
+    """The IP grade a tibial artery would have as the target."""
+
+    vessel: str
+    grade: int | None
+    diseased_cm: float
+    occluded_cm: float
+    drivers: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class Planning:
+    """The surgeon's summary of one leg; every grade carries the text of what set it."""
+
+    side: Side
+    levels: tuple[LevelSummary, ...]
+    occlusions: tuple[Occlusion, ...]
+    runoff: tuple[RunoffVessel, ...]
+    runoff_vessels: int  # assessed tibial arteries patent to the ankle
+    runoff_unassessed: tuple[str, ...]
+    runoff_score: float | None
+    runoff_basis: str
+    inflow_band: str
+    inflow_significant: bool | None
+    inflow_drivers: tuple[str, ...]
+    fp_grade: int | None
+    fp_drivers: tuple[str, ...]
+    target: str | None
+    target_basis: str
+    ip_grade: int | None
+    ip_drivers: tuple[str, ...]
+    ip_by_vessel: tuple[VesselGrade, ...]
+    stage: str | None
+    stage_basis: str
+    tasc_fp: str | None
+    tasc_drivers: tuple[str, ...]
+    assumptions: tuple[str, ...]
+
+
+def planning_note() -> str:
+    """Return the fixed statement printed with every planning summary."""
+    return (
+        "Grades, stage and runoff are derived from the duplex findings and nominal segment "
+        "lengths; confirm them on the imaging used to plan treatment."
+    )
+
+
+def stage_of(fp: int, ip: int) -> str | None:
+    """Return the GLASS limb stage for FP and IP grades 0-4 (None for FP0/IP0: not applicable)."""
+    return STAGE_TABLE[fp][ip]
+
+
+def _cm(value: float) -> str:
+    return f"{round(value, 1):g} cm"
+
+
+@dataclass(frozen=True)
+class _Extent:
+    """A stretch of disease >= 50%: a graded lesion or a segment graded from its own sample."""
+
+    label: str
+    severity: int
+    spans: tuple[Span, ...]
+    calcified: bool
+    reconstitutes: str | None
+
+    @property
+    def occluded(self) -> bool:
+        return self.severity >= OCCLUDED
+
+    @property
+    def length_cm(self) -> float:
+        return round(sum(s.end_cm - s.start_cm for s in self.spans), 3)
+
+    def cm_in(self, segs: Sequence[str]) -> float:
+        return round(sum(s.end_cm - s.start_cm for s in self.spans if s.segment in segs), 3)
+
+    def touches(self, segs: Sequence[str]) -> bool:
+        return any(s.segment in segs for s in self.spans)
+
+    def occlusion(self) -> Occlusion:
+        first = self.spans[0]
+        return Occlusion(
+            first.segment, float(first.start_cm), self.length_cm, self.reconstitutes, self.label
+        )
+
+    def at_origin(self, seg: str) -> bool:
+        return any(s.segment == seg and s.start_cm <= _EPS for s in self.spans)
+
+    def reaches_end(self, seg: str) -> bool:
+        length = SEGMENTS[seg].length_cm
+        return any(s.segment == seg and s.end_cm >= length - _EPS for s in self.spans)
+
+
+def _union_cm(extents: Iterable[_Extent], segs: Sequence[str]) -> float:
+    """Return the length covered by the extents in these segments, overlaps counted once."""
+    total, pool = 0.0, list(extents)
+    for seg in segs:
+        cover = sorted((s.start_cm, s.end_cm) for e in pool for s in e.spans if s.segment == seg)
+        end = -1.0
+        for lo, hi in cover:
+            if hi > end:
+                total += hi - max(lo, end)
+                end = hi
+    return round(total, 3)
+
+
+def _extents(study: Study, limb: LimbResult, sets: CriteriaSets) -> tuple[list[_Extent], list[str]]:
+    """Collect every stretch >= 50% with the assumptions made to measure it."""
+    out: list[_Extent] = []
+    notes: list[str] = []
+    given = study.limb(limb.side).lesions
+    for les in limb.lesions:
+        sev = sets.severity(les.band)
+        n = les.index + 1
+        if sev < 0:
+            notes.append(f"lesion {n} ({les.at}) has no grade and is not counted")
+            continue
+        if sev < SIGNIFICANT_SEVERITY:
+            continue
+        src = given[les.index] if les.index < len(given) else None
+        length = round(sum(s.end_cm - s.start_cm for s in les.spans), 3)
+        if les.length_cm is None:
+            notes.append(f"lesion {n} ({les.at}): length not recorded; counted as {_cm(length)}")
+        recon = les.reconstitution.segment if les.reconstitution else les.reconstitutes
+        label = f"lesion {n} ({les.band}, {les.at} at {les.from_cm:g} cm, {_cm(length)})"
+        calcified = src is not None and src.plaque is Plaque.CALCIFIED
+        out.append(_Extent(label, sev, les.spans, calcified, recon))
+    for seg in SEGMENT_IDS:
+        res = limb.segments.get(seg)
+        if res is None or (sev := sets.severity(res.band)) < SIGNIFICANT_SEVERITY:
+            continue
+        if max((sets.severity(limb.lesions[i].band) for i in res.lesions), default=-1) >= sev:
+            continue
+        seg_len = SEGMENTS[seg].length_cm
+        length = seg_len if sev >= OCCLUDED else min(FOCAL_LENGTH_CM, seg_len)
+        what = "occluded over" if sev >= OCCLUDED else "a stenosis of"
+        notes.append(f"{seg}: {res.band} from its sample, no lesion; counted {what} {_cm(length)}")
+        sample = study.limb(limb.side).segments.get(seg)
+        calcified = sample is not None and sample.plaque is Plaque.CALCIFIED
+        span = (Span(seg, 0.0, length, 0.0, round(length / seg_len, 6)),)
+        out.append(_Extent(f"{seg} sample ({res.band}, {_cm(length)})", sev, span, calcified, None))
+    if any(e.calcified for e in out):
+        notes.append(CALCIFICATION_ASSUMPTION)
+    return out, notes
+
+
+def _unassessed(limb: LimbResult, sets: CriteriaSets, segs: Iterable[str]) -> tuple[str, ...]:
+    return tuple(s for s in segs if sets.severity(limb.segments[s].band) < 0)
+
+
+def _worst_band(limb: LimbResult, sets: CriteriaSets, segs: Iterable[str]) -> str:
+    return max((limb.segments[s].band for s in segs), key=sets.severity, default=NOT_ASSESSED)
+
+
+def _step(value: float, first: int, bounds: Sequence[float]) -> int:
+    """Return ``first`` below the first bound, then one more per bound passed (later ones <=)."""
+    if value < bounds[0]:
+        return first
+    return first + 1 + sum(value > b for b in bounds[1:])
+
+
+def _finish(
+    found: list[tuple[int, str]], ext: list[_Extent], what: str, none: str, missing: Sequence[str]
+) -> tuple[int, tuple[str, ...]]:
+    """Return the worst grade found, raised for severe calcification, with what set it."""
+    grade = max((g for g, _ in found), default=0)
+    drivers = [t for g, t in found if g == grade] or [none]
+    calc = [e.label for e in ext if e.calcified]
+    if calc and grade > 0:
+        raised = min(grade + 1, 4)
+        drivers.append(f"{what}{grade} -> {raised} for severe calcification: {', '.join(calc)}")
+        grade = raised
+    if missing:
+        drivers.append("not assessed: " + ", ".join(missing))
+    return grade, tuple(drivers)
+
+
+def _fp_grade(
+    limb: LimbResult, sets: CriteriaSets, extents: list[_Extent]
+) -> tuple[int | None, tuple[str, ...]]:
+    """Return the GLASS femoropopliteal grade and the descriptors that set it."""
+    path = SFA + POPLITEAL
+    missing = _unassessed(limb, sets, path)
+    if len(missing) == len(path):
+        return None, ("SFA and popliteal artery not assessed",)
+    ext = [e for e in extents if e.touches(path)]
+    found: list[tuple[int, str]] = []
+    if (sfa_cm := _union_cm(ext, SFA)) > 0:
+        found.append((_step(sfa_cm, 1, FP_SFA_DISEASE_CM), f"SFA disease over {_cm(sfa_cm)}"))
+    occl = [e for e in ext if e.occluded and e.touches(SFA)]
+    for e in occl:
+        part, flush = e.cm_in(SFA), e.at_origin("SFA-P")
+        lo, hi = FP_OCCLUSION_CM
+        if part > hi:
+            g = 4
+        elif flush or part >= lo:
+            g = 3
+        else:  # one focal occlusion is FP1; a second one or one of 5 cm or more, FP2
+            g = 2 if part >= FP_FOCAL_OCCLUSION_CM or len(occl) > 1 else 1
+        found.append((g, f"{'flush ' if flush else ''}SFA occlusion of {_cm(part)}: {e.label}"))
+    pop = [e for e in ext if e.touches(POPLITEAL)]
+    for e in pop:
+        if e.occluded:
+            found.append((4, f"popliteal occlusion: {e.label}"))
+        elif e.reaches_end("POP-BK") or e.touches(("TPT",)):
+            found.append((4, f"popliteal disease into the trifurcation: {e.label}"))
+    if (pop_cm := _union_cm([e for e in pop if not e.occluded], POPLITEAL)) > 0:
+        g = _step(pop_cm, 2, FP_POP_STENOSIS_CM)
+        found.append((g, f"popliteal stenosis over {_cm(pop_cm)}"))
+    return _finish(found, ext, "FP", "no disease >= 50% in the SFA or popliteal", missing)
+
+
+def _tibial_path(vessel: str) -> tuple[str, ...]:
+    own = tuple(f"{vessel}-{t}" for t in "PMD")
+    return own if vessel == "ATA" else ("TPT", *own)
+
+
+def _ip_grade(
+    limb: LimbResult, sets: CriteriaSets, extents: list[_Extent], vessel: str
+) -> VesselGrade:
+    """Return the GLASS infrapopliteal grade the vessel would have as the target artery."""
+    path = _tibial_path(vessel)
+    own = path[-3:]
+    missing = _unassessed(limb, sets, path)
+    if set(own) <= set(missing):
+        return VesselGrade(vessel, None, 0.0, 0.0, (f"{vessel} not assessed",))
+    length = sum(SEGMENTS[s].length_cm for s in own)
+    third, two_thirds = (round(length * a / b, 3) for a, b in IP_FRACTIONS)
+    ext = [e for e in extents if e.touches(path)]
+    occl = [e for e in ext if e.occluded]
+    dis_cm, occl_cm = _union_cm(ext, path), _union_cm(occl, path)
+    of = f"of {_cm(length)}"
+    found: list[tuple[int, str]] = []
+    if dis_cm > 0:
+        g = _step(dis_cm, 1, (IP_FOCAL_CM, third, two_thirds))
+        found.append((g, f"{vessel} disease over {_cm(dis_cm)} {of}"))
+    found += [
+        (4, f"TPT occlusion, {vessel} the target: {e.label}") for e in occl if e.touches(("TPT",))
+    ]
+    if occl:
+        origin = any(e.at_origin(own[0]) for e in occl)
+        if occl_cm > third:
+            g = 4
+        else:  # one focal occlusion away from the origin is IP2; otherwise up to 1/3 is IP3
+            g = 2 if len(occl) == 1 and occl_cm < IP_FOCAL_CM and not origin else 3
+        names = ", ".join(e.label for e in occl)
+        at = " at its origin" if origin else ""
+        found.append((g, f"{vessel} occluded over {_cm(occl_cm)} {of}{at}: {names}"))
+    grade, drivers = _finish(found, ext, "IP", f"no disease >= 50% in the {vessel} path", missing)
+    return VesselGrade(vessel, grade, dis_cm, occl_cm, drivers)
+
+
+def _choose_target(
+    grades: Sequence[VesselGrade], limb: LimbResult, sets: CriteriaSets
+) -> tuple[str | None, str]:
+    """Return the least diseased tibial artery and why it was chosen."""
+    graded = [g for g in grades if g.grade is not None]
+    if not graded:
+        return None, "no tibial artery assessed"
+
+    def key(g: VesselGrade) -> tuple[int, int, float, float, int]:
+        pedal = PEDAL_CONTINUATION.get(g.vessel)
+        sev = sets.severity(limb.segments[pedal].band) if pedal else OCCLUDED
+        in_line = 0 if 0 <= sev < OCCLUDED else 1 if sev < 0 else 2
+        return (g.grade or 0, in_line, g.occluded_cm, g.diseased_cm, TIBIALS.index(g.vessel))
+
+    best = min(graded, key=key)
+    tied = [g.vessel for g in graded if g.grade == best.grade and g is not best]
+    basis = f"least diseased tibial artery (IP{best.grade})"
+    if tied:
+        basis += f"; preferred to {', '.join(tied)} for in-line flow to the foot, then length"
+    return best.vessel, basis
+
+
+def _runoff(
+    limb: LimbResult, sets: CriteriaSets, extents: list[_Extent]
+) -> tuple[RunoffVessel, ...]:
+    """Return each tibial artery's patency to the ankle and its SVS vessel scale."""
+    out = []
+    for vessel in TIBIALS:
+        path = _tibial_path(vessel)
+        sev = [sets.severity(limb.segments[s].band) for s in path]
+        unseen = [s for s, v in zip(path, sev, strict=True) if v < 0]
+        length = sum(SEGMENTS[s].length_cm for s in path)
+        scale: float | None
+        if max(sev) >= OCCLUDED:
+            occl_cm = _union_cm([e for e in extents if e.occluded], path)
+            half = occl_cm <= length / 2
+            state, scale = "occluded", RUNOFF_OCCLUDED_HALF if half else RUNOFF_OCCLUDED_MORE
+            basis = f"occluded over {_cm(occl_cm)} of {_cm(length)} ({'<=' if half else '>'} half)"
+            if unseen and half:  # the unseen rest could hold more occlusion
+                scale, basis = None, f"{basis}; not assessed: {', '.join(unseen)}"
+        elif unseen:
+            state, scale, basis = "not-assessed", None, "not assessed: " + ", ".join(unseen)
+        else:
+            state, scale = "patent", RUNOFF_SCALE_BY_SEVERITY[max(sev)]
+            basis = f"patent to the ankle; worst band {_worst_band(limb, sets, path)}"
+        out.append(RunoffVessel(vessel, state, scale, basis))
+    return tuple(out)
+
+
+def _tasc(extents: list[_Extent]) -> tuple[str | None, tuple[str, ...]]:
+    """Return the TASC II femoropopliteal class and the rule that set it."""
+    occl = [e for e in extents if e.occluded]
+    tri = [e for e in occl if e.touches(("TPT",)) or e.at_origin("ATA-P")]
+    for e in occl:
+        if e.touches(("CFA",)):
+            return "D", (f"CFA occlusion: {e.label}",)
+        if e.touches(SFA) and e.touches(POPLITEAL) and e.length_cm > TASC_D_OCCLUSION_CM:
+            return "D", (f"SFA occlusion > 20 cm involving the popliteal: {e.label}",)
+        if e.touches(POPLITEAL) and tri and (e.reaches_end("POP-BK") or e in tri):
+            names = ", ".join(dict.fromkeys(x.label for x in (e, *tri)))
+            return "D", (f"occlusion of the popliteal and proximal trifurcation vessels: {names}",)
+    ext = [e for e in extents if e.touches(SFA + POPLITEAL)]
+    if not ext:
+        return None, ("no femoropopliteal lesion >= 50%",)
+    names = ", ".join(e.label for e in ext)
+    if len(ext) > 1:
+        total = round(sum(e.length_cm for e in ext), 3)
+        if total > TASC_C_TOTAL_CM:
+            return "C", (f"multiple lesions totalling {_cm(total)} > 15 cm: {names}",)
+        if all(e.length_cm <= TASC_B_EACH_CM for e in ext):
+            return "B", (f"multiple lesions each <= 5 cm: {names}",)
+        return "C", (f"multiple lesions outside rules A, B and D, classed C: {names}",)
+    e = ext[0]
+    in_pop, cm = e.touches(POPLITEAL), e.length_cm
+    if not in_pop and not e.occluded and cm <= TASC_A_STENOSIS_CM:
+        return "A", (f"single stenosis <= 10 cm: {names}",)
+    if not in_pop and e.occluded and cm <= TASC_A_OCCLUSION_CM and not e.calcified:
+        return "A", (f"single occlusion <= 5 cm: {names}",)
+    if e.occluded and e.calcified and cm <= TASC_A_OCCLUSION_CM:
+        return "B", (f"heavily calcified occlusion <= 5 cm: {names}", CALCIFICATION_ASSUMPTION)
+    if cm <= TASC_B_SINGLE_CM and not e.touches(("POP-BK",)):
+        return "B", (f"single lesion <= 15 cm, not below the knee: {names}",)
+    if in_pop and not e.occluded and not e.touches(SFA):
+        return "B", (f"single popliteal stenosis: {names}",)
+    return "C", (f"single lesion outside rules A, B and D, classed C: {names}",)
+
+
+def _level(
+    level: PlanLevel, limb: LimbResult, sets: CriteriaSets, ext: list[_Extent]
+) -> LevelSummary:
+    segs = LEVEL_SEGMENTS[level]
+    ext = [e for e in ext if e.touches(segs)]
+    occl_cm = _union_cm([e for e in ext if e.occluded], segs)
+    band, missing = _worst_band(limb, sets, segs), _unassessed(limb, sets, segs)
+    return LevelSummary(level, band, _union_cm(ext, segs), occl_cm, len(ext), missing)
+
+
+def plan_limb(
+    study: Study, limb: LimbResult, sets: CriteriaSets, *, target: str | None = None
+) -> Planning:
+    """Summarise one graded leg for planning; ``target`` forces the tibial target artery."""
+    if target is not None and target not in TIBIALS:
+        raise ValueError(f"target {target!r} must be one of {', '.join(TIBIALS)} or None")
+    extents, notes = _extents(study, limb, sets)
+    runoff = _runoff(limb, sets, extents)
+    unscored = ", ".join(r.vessel for r in runoff if r.scale is None)
+    score = None if unscored else 1.0 + sum(r.scale or 0.0 for r in runoff)
+    terms = " + ".join(f"{r.vessel} {r.scale:g}" for r in runoff if r.scale is not None)
+    runoff_basis = f"not scored: {unscored} not fully assessed" if unscored else f"1 + {terms}"
+    inflow_band = _worst_band(limb, sets, INFLOW_PATH)
+    inflow_missing = _unassessed(limb, sets, INFLOW_PATH)
+    inflow_seen = len(inflow_missing) < len(INFLOW_PATH)
+    inflow_drivers = [f"worst inflow band {inflow_band}"]
+    inflow_drivers += [e.label for e in extents if e.touches(INFLOW_PATH)]
+    if inflow_missing:
+        inflow_drivers.append("not assessed: " + ", ".join(inflow_missing))
+    fp, fp_drivers = _fp_grade(limb, sets, extents)
+    by_vessel = tuple(_ip_grade(limb, sets, extents, v) for v in TIBIALS)
+    chosen, target_basis = (
+        _choose_target(by_vessel, limb, sets) if not target else (target, "given")
+    )
+    ip_row = next(g for g in by_vessel if g.vessel == chosen) if chosen else None
+    ip = ip_row.grade if ip_row else None
+    if fp is None or ip is None:
+        stage, stage_basis = None, f"not staged: {'FP' if fp is None else 'IP'} grade not available"
+    else:
+        stage = stage_of(fp, ip)
+        stage_basis = f"FP{fp} x IP{ip} -> {stage or 'n/a'} (GVG 2019 limb stage table, recalled)"
+    tasc, tasc_drivers = _tasc(extents)
+    if limb.grafts:
+        notes.append("a bypass graft is recorded; the grades describe the native arteries")
+    return Planning(
+        side=limb.side,
+        levels=tuple(_level(lv, limb, sets, extents) for lv in PlanLevel),
+        occlusions=tuple(e.occlusion() for e in extents if e.occluded),
+        runoff=runoff,
+        runoff_vessels=sum(r.state == "patent" for r in runoff),
+        runoff_unassessed=tuple(r.vessel for r in runoff if r.state == "not-assessed"),
+        runoff_score=score,
+        runoff_basis=runoff_basis,
+        inflow_band=inflow_band,
+        inflow_significant=sets.severity(inflow_band) >= SIGNIFICANT_SEVERITY
+        if inflow_seen
+        else None,
+        inflow_drivers=tuple(inflow_drivers),
+        fp_grade=fp,
+        fp_drivers=fp_drivers,
+        target=chosen,
+        target_basis=target_basis,
+        ip_grade=ip,
+        ip_drivers=ip_row.drivers if ip_row else ("no tibial artery assessed",),
+        ip_by_vessel=by_vessel,
+        stage=stage,
+        stage_basis=stage_basis,
+        tasc_fp=tasc,
+        tasc_drivers=tasc_drivers,
+        assumptions=tuple(dict.fromkeys(notes)),
+    )
