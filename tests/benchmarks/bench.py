@@ -1,0 +1,186 @@
+"""Benchmarks: figures measured side by side in one run, printed as ratios.
+
+    python tests/benchmarks/bench.py            # all sections
+    python tests/benchmarks/bench.py stages labels cold batch
+
+Sections:
+  stages  per study (normal, busy, synthetic worst case): load, assess, layout, render, PDF
+          export timed separately; our own work (load..render) as a ratio of cairosvg's
+          conversion of the same SVG to PDF. Target <= 0.5x.
+  labels  label packing cost for 10, 50, 200, 1000 labels; growth against n log n; 200 < 20 ms.
+  cold    `limbchart --help` and `limbchart check` against `python -c "import click"`.
+  batch   200 generated studies to PDF with --jobs 1 and --jobs 2: studies/s and speed-up
+          (target >= 1.7x on two cores); parent peak memory for 50 vs 500 studies.
+
+Not a test: nothing here asserts. Write the printed figures into DEVELOPERS.md.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import resource
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+from collections.abc import Callable
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+ROOT = HERE.parents[1]
+sys.path.insert(0, str(HERE))
+
+from generate import study as gen_study  # noqa: E402
+from generate import write_studies  # noqa: E402
+
+
+def best_of(fn: Callable[[], object], repeat: int = 7) -> float:
+    """Return the median wall time of ``fn`` in seconds over ``repeat`` runs (after a warm-up)."""
+    fn()
+    times = []
+    for _ in range(repeat):
+        t0 = time.perf_counter()
+        fn()
+        times.append(time.perf_counter() - t0)
+    return statistics.median(times)
+
+
+def stages() -> None:
+    import yaml
+
+    from diagram._version import __version__
+    from diagram.assess import assess
+    from diagram.export import Drawing, render_bytes
+    from diagram.layout import layout
+    from diagram.load import load_study
+    from diagram.render import render_svg
+    from diagram.template import load_template
+
+    tmp = Path(tempfile.mkdtemp())
+    worst = tmp / "worst.yaml"
+    worst.write_text(yaml.safe_dump(gen_study(1, crowded=True), sort_keys=False))
+    cases = {
+        "normal": ROOT / "examples" / "normal.yaml",
+        "busy": ROOT / "examples" / "multilevel-occlusion.yaml",
+        "worst": worst,
+    }
+    template = load_template(None)
+    print("stages (median of 7, ms)")
+    print(
+        f"{'study':8} {'load':>7} {'assess':>7} {'layout':>7} {'render':>7} "
+        f"{'ours':>7} {'pdf':>8} {'ours/pdf':>9}"
+    )
+    for name, path in cases.items():
+        study = load_study(path)
+        assessment = assess(study)
+        scene = layout(assessment, template, page="a4", version=__version__)
+        svg = render_svg(scene)
+        t_load = best_of(lambda p=path: load_study(p))  # type: ignore[misc]
+        t_assess = best_of(lambda s=study: assess(s))  # type: ignore[misc]
+        t_layout = best_of(
+            lambda a=assessment: layout(
+                a,
+                template,
+                page="a4",  # type: ignore[misc]
+                version=__version__,
+            )
+        )
+        t_render = best_of(lambda s=scene: render_svg(s))  # type: ignore[misc]
+        drawing = Drawing(svg=svg, results={})
+        t_pdf = best_of(lambda d=drawing: render_bytes(d, "pdf"), repeat=5)  # type: ignore[misc]
+        ours = t_load + t_assess + t_layout + t_render
+        print(
+            f"{name:8} {t_load * 1e3:7.1f} {t_assess * 1e3:7.1f} {t_layout * 1e3:7.1f} "
+            f"{t_render * 1e3:7.1f} {ours * 1e3:7.1f} {t_pdf * 1e3:8.1f} {ours / t_pdf:8.2f}x"
+        )
+
+
+def labels() -> None:
+    from diagram.layout import pack_1d
+
+    print("label packing (median of 7)")
+    print(f"{'labels':>7} {'ms':>8} {'ms / (n log2 n)':>16}")
+    base = None
+    for n in (10, 50, 200, 1000):
+        import random
+
+        rng = random.Random(n)
+        wanted = [rng.uniform(0, 800) for _ in range(n)]
+        heights = [rng.choice((9.0, 18.0)) for _ in range(n)]
+        bottom = 20.0 * n  # a column tall enough to hold them all
+
+        def run(w: list[float] = wanted, h: list[float] = heights, b: float = bottom) -> object:
+            return pack_1d(w, h, 1.5, 0.0, b)
+
+        t = best_of(run)
+        per = t * 1e3 / (n * math.log2(n))
+        base = base or per
+        print(
+            f"{n:7d} {t * 1e3:8.3f} {per:16.5f}  ({per / base:.2f}x the 10-label cost per n log n)"
+        )
+
+
+def cold() -> None:
+    def run(args: list[str]) -> float:
+        def once() -> None:
+            subprocess.run(args, check=True, capture_output=True)
+
+        return best_of(once, repeat=5)
+
+    py = sys.executable
+    click_t = run([py, "-c", "import click"])
+    help_t = run([py, "-m", "diagram", "--help"])
+    check_t = run([py, "-m", "diagram", "check", str(ROOT / "examples" / "normal.yaml")])
+    print("cold start (median of 5 processes, ms)")
+    print(f"  python -c 'import click'  {click_t * 1e3:7.1f}  1.00x")
+    print(f"  limbchart --help          {help_t * 1e3:7.1f}  {help_t / click_t:.2f}x")
+    print(f"  limbchart check (small)   {check_t * 1e3:7.1f}  {check_t / click_t:.2f}x")
+
+
+def _batch_once(folder: Path, jobs: int) -> tuple[float, float]:
+    out = Path(tempfile.mkdtemp())
+    code = (
+        "import resource, sys\n"
+        "from diagram.cli import main\n"
+        "try:\n"
+        f"    main(['draw', {str(folder)!r}, '-o', {str(out) + '/'!r}, '--format', 'pdf',"
+        f" '--jobs', '{jobs}', '--quiet'])\n"
+        "except SystemExit:\n"
+        "    pass\n"
+        "print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss)\n"
+    )
+    t0 = time.perf_counter()
+    done = subprocess.run([sys.executable, "-c", code], check=True, capture_output=True, text=True)
+    elapsed = time.perf_counter() - t0
+    return elapsed, float(done.stdout.strip().splitlines()[-1]) / 1024
+
+
+def batch() -> None:
+    tmp = Path(tempfile.mkdtemp())
+    write_studies(tmp / "s200", 200)
+    print(f"batch: 200 generated studies to PDF on {os.cpu_count()} CPUs")
+    t1, m1 = _batch_once(tmp / "s200", 1)
+    t2, m2 = _batch_once(tmp / "s200", 2)
+    print(f"  --jobs 1  {t1:6.1f} s  {200 / t1:6.1f} studies/s  parent peak {m1:6.1f} MB")
+    print(f"  --jobs 2  {t2:6.1f} s  {200 / t2:6.1f} studies/s  parent peak {m2:6.1f} MB")
+    print(f"  speed-up  {t1 / t2:.2f}x")
+    write_studies(tmp / "s50", 50)
+    write_studies(tmp / "s500", 500)
+    _, m50 = _batch_once(tmp / "s50", 2)
+    _, m500 = _batch_once(tmp / "s500", 2)
+    print(
+        f"  parent peak memory: 50 studies {m50:.1f} MB, 500 studies {m500:.1f} MB "
+        f"({m500 / m50:.2f}x)"
+    )
+
+
+SECTIONS = {"stages": stages, "labels": labels, "cold": cold, "batch": batch}
+
+if __name__ == "__main__":
+    wanted = sys.argv[1:] or list(SECTIONS)
+    for name in wanted:
+        SECTIONS[name]()
+        print()
+    _ = resource  # ru_maxrss is read in the child processes
