@@ -14,6 +14,7 @@ bisection. The results are deterministic: same input, same floats.
 from __future__ import annotations
 
 import bisect
+import functools
 import itertools
 import math
 import re
@@ -285,22 +286,21 @@ class Line:
 
 @dataclass(frozen=True)
 class Cubic:
-    """A cubic Bézier piece; carries a precomputed arc-length table (not part of equality)."""
+    """A cubic Bézier piece; its arc-length table is built on first use (not part of equality)."""
 
     p0: Point
     p1: Point
     p2: Point
     p3: Point
-    _speed: _Speed = field(init=False, repr=False, compare=False)
-    _ts: tuple[float, ...] = field(init=False, repr=False, compare=False)
-    _ss: tuple[float, ...] = field(init=False, repr=False, compare=False)
 
-    def __post_init__(self) -> None:
-        speed = _Speed(self.p0, self.p1, self.p2, self.p3)
-        object.__setattr__(self, "_speed", speed)
-        ts, ss = _length_table(speed)
-        object.__setattr__(self, "_ts", ts)
-        object.__setattr__(self, "_ss", ss)
+    # Derived data, computed on first use (outline path data never needs lengths).
+    @functools.cached_property
+    def _speed(self) -> _Speed:
+        return _Speed(self.p0, self.p1, self.p2, self.p3)
+
+    @functools.cached_property
+    def _table(self) -> tuple[tuple[float, ...], tuple[float, ...]]:
+        return _length_table(self._speed)
 
     @property
     def start(self) -> Point:
@@ -311,7 +311,7 @@ class Cubic:
         return self.p3
 
     def length(self) -> float:
-        return self._ss[-1]
+        return self._table[1][-1]
 
     def point(self, t: float) -> Point:
         u = 1 - t
@@ -340,7 +340,7 @@ class Cubic:
 
     def param_at(self, s: float) -> float:
         """Return t with arc length ``s`` from the start (Newton guarded by bisection)."""
-        ss, ts = self._ss, self._ts
+        ts, ss = self._table
         if s <= 0:
             return 0.0
         if s >= ss[-1]:
