@@ -8,6 +8,7 @@ definitions in page units, which cairosvg and rsvg-convert both paint.
 from __future__ import annotations
 
 import re
+from collections.abc import Mapping
 from typing import TYPE_CHECKING, Any
 
 from diagram.scene import (
@@ -64,77 +65,96 @@ def _paint(el: Any, fill: str, stroke: str, width: float, dash: tuple[float, ...
             el["stroke-dasharray"] = _dash(dash)
 
 
+# cairosvg paints a pattern tile from a raster one user unit per pixel, whatever the output
+# resolution: a 2.4 pt tile would be a blurred 2-pixel image. Tiles are therefore drawn TILE_SCALE
+# times larger and scaled back by patternTransform (crisp up to about 10 pixels per point).
+TILE_SCALE = 10
+
+
 def _pattern(dwg: svgwrite.Drawing, band: BandStyle) -> Any:
-    s = band.spacing_pt
+    k = TILE_SCALE
+    s = band.spacing_pt * k
     pat = dwg.pattern(id=pattern_id(band.id))
     pat["patternUnits"] = "userSpaceOnUse"
     pat["x"], pat["y"] = "0", "0"
     pat["width"], pat["height"] = fmt(s), fmt(s)
-    if band.angle_deg:
-        pat["patternTransform"] = f"rotate({fmt(band.angle_deg)})"
+    turn = f"rotate({fmt(band.angle_deg)}) " if band.angle_deg else ""
+    pat["patternTransform"] = f"{turn}scale({fmt(1 / k)})"
     ground = band.ink if band.hatch is Hatch.SOLID else band.tint
     bg = dwg.rect(id=make_id("band", band.id, "ground"))
     bg.update({"x": "0", "y": "0", "width": fmt(s), "height": fmt(s), "fill": ground})
     pat.add(bg)
     half = fmt(s / 2)
+    weight = band.weight_pt * k
     if band.hatch in (Hatch.DOTS, Hatch.RINGS):
         dot = dwg.circle(id=make_id("band", band.id, "mark"))
-        dot.update({"cx": half, "cy": half, "r": fmt(band.weight_pt)})
+        dot.update({"cx": half, "cy": half, "r": fmt(weight)})
         if band.hatch is Hatch.DOTS:
             dot["fill"] = band.ink
         else:
-            dot.update(
-                {"fill": "none", "stroke": band.ink, "stroke-width": fmt(band.weight_pt * 0.55)}
-            )
+            dot.update({"fill": "none", "stroke": band.ink, "stroke-width": fmt(weight * 0.55)})
         pat.add(dot)
     if band.hatch in (Hatch.LINES, Hatch.CROSS):
         # Lines a little longer than the tile so that anti-aliasing leaves no gaps at the seams.
+        over = fmt(-weight), fmt(s + weight)
         across = dwg.line(id=make_id("band", band.id, "mark"))
-        across.update({"x1": fmt(-0.5), "y1": half, "x2": fmt(s + 0.5), "y2": half})
+        across.update({"x1": over[0], "y1": half, "x2": over[1], "y2": half})
         marks = [across]
         if band.hatch is Hatch.CROSS:
             down = dwg.line(id=make_id("band", band.id, "mark2"))
-            down.update({"x1": half, "y1": fmt(-0.5), "x2": half, "y2": fmt(s + 0.5)})
+            down.update({"x1": half, "y1": over[0], "x2": half, "y2": over[1]})
             marks.append(down)
         for mark in marks:
-            mark.update({"stroke": band.ink, "stroke-width": fmt(band.weight_pt)})
+            mark.update({"stroke": band.ink, "stroke-width": fmt(weight)})
             pat.add(mark)
     return pat
 
 
-def _element(dwg: svgwrite.Drawing, item: Item) -> Any:
+def _shape(dwg: svgwrite.Drawing, item: Rect | Polygon, element_id: str) -> Any:
+    if isinstance(item, Rect):
+        el = dwg.rect(id=element_id)
+        el.update({"x": fmt(item.x), "y": fmt(item.y), "width": fmt(item.w), "height": fmt(item.h)})
+        return el
+    return dwg.polygon(_points(item.points), id=element_id)
+
+
+def _elements(dwg: svgwrite.Drawing, item: Item, bands: Mapping[str, BandStyle]) -> list[Any]:
+    """Return the SVG elements of one item (a banded shape gives two)."""
     if isinstance(item, Group):
         el = dwg.g(id=item.id)
         if item.role:
             el["class"] = item.role
         for child in item.items:
-            el.add(_element(dwg, child))
-        return el
-    if isinstance(item, Rect):
-        el = dwg.rect(id=item.id)
-        el.update({"x": fmt(item.x), "y": fmt(item.y), "width": fmt(item.w), "height": fmt(item.h)})
+            for sub in _elements(dwg, child, bands):
+                el.add(sub)
+        return [el]
+    if isinstance(item, Rect | Polygon):
+        out = []
+        if item.band:
+            # The band's plain colour under its texture: some PDF viewers leave hairline seams
+            # between pattern tiles, which then show this colour instead of white paper.
+            band = bands[item.band]
+            under = _shape(dwg, item, f"{item.id}-under")
+            _paint(under, band.ink if band.hatch is Hatch.SOLID else band.tint, "none", 0, ())
+            out.append(under)
+        el = _shape(dwg, item, item.id)
         fill = f"url(#{pattern_id(item.band)})" if item.band else item.fill
         _paint(el, fill, item.stroke, item.stroke_width, item.dash)
-        return el
-    if isinstance(item, Polygon):
-        el = dwg.polygon(_points(item.points), id=item.id)
-        fill = f"url(#{pattern_id(item.band)})" if item.band else item.fill
-        _paint(el, fill, item.stroke, item.stroke_width, item.dash)
-        return el
+        return [*out, el]
     if isinstance(item, PathItem):
         d = " ".join(" ".join((cmd, *(fmt(v) for v in args))) for cmd, args in item.commands)
         el = dwg.path(d=d, id=item.id)
         _paint(el, item.fill, item.stroke, item.stroke_width, item.dash)
-        return el
+        return [el]
     if isinstance(item, Line):
         el = dwg.polyline(_points(item.points), id=item.id)
         _paint(el, "none", item.stroke, item.stroke_width, item.dash)
-        return el
+        return [el]
     if isinstance(item, Circle):
         el = dwg.circle(id=item.id)
         el.update({"cx": fmt(item.cx), "cy": fmt(item.cy), "r": fmt(item.r)})
         _paint(el, item.fill, item.stroke, item.stroke_width, ())
-        return el
+        return [el]
     if isinstance(item, Text):
         el = dwg.text(clean_text(item.text), id=item.id)
         el.update(
@@ -144,7 +164,7 @@ def _element(dwg: svgwrite.Drawing, item: Item) -> Any:
             el["font-weight"] = "bold"
         if item.anchor.value != "start":
             el["text-anchor"] = item.anchor.value
-        return el
+        return [el]
     raise TypeError(f"not a scene item: {item!r}")  # a bug in layout, not a user error
 
 
@@ -161,7 +181,9 @@ def render_svg(scene: Scene) -> str:
         dwg.defs.add(_pattern(dwg, band))
     sheet = dwg.g(id="sheet")
     sheet["font-family"] = scene.font_family
+    bands = {band.id: band for band in scene.bands}
     for item in scene.items:
-        sheet.add(_element(dwg, item))
+        for el in _elements(dwg, item, bands):
+            sheet.add(el)
     dwg.add(sheet)
     return '<?xml version="1.0" encoding="utf-8"?>\n' + str(dwg.tostring()) + "\n"

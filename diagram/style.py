@@ -64,12 +64,12 @@ def _band(
 
 
 def _default_bands() -> tuple[BandStyle, ...]:
-    # Tints fall in lightness with severity (relative luminance about 0.91, 0.73, 0.40, 0.14,
+    # Tints fall in lightness with severity (relative luminance about 0.91, 0.62, 0.40, 0.14,
     # 0.013; a test pins the order); textures add the second, colour-free cue.
     return (
         # id          label           tint       hatch        spacing angle weight ink  outline
         _band("normal", "Normal", "#F2F6F3", Hatch.NONE, 4.0, 0.0, 0.0, "#4F6660", "#4F6660"),
-        _band("lt50", "<50%", "#F4DD8E", Hatch.DOTS, 2.6, 0.0, 0.5, "#5E4A0E", "#5E4A0E"),
+        _band("lt50", "<50%", "#ECCB6A", Hatch.DOTS, 2.6, 0.0, 0.5, "#5E4A0E", "#5E4A0E"),
         _band("50-74", "50-74%", "#E59A4E", Hatch.LINES, 2.4, 45.0, 0.55, "#4A2608", "#4A2608"),
         _band("75-99", "75-99%", "#A94A36", Hatch.CROSS, 2.2, 45.0, 0.5, "#2B0E07", "#2B0E07"),
         _band("occluded", "Occluded", "#241C20", Hatch.SOLID, 4.0, 0.0, 0.0, "#120D10", "#000000"),

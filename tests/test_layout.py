@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import datetime as dt
+import itertools
 import time
 
 import pytest
@@ -19,9 +20,9 @@ from diagram.assess.results import (
     Span,
 )
 from diagram.geometry import PathGeometry
-from diagram.layout import CAUTION, PAGES, lesion_label, layout, pack_1d, segment_label
-from diagram.scene import Box, Group, Line, Polygon, Rect, Scene, Text
-from diagram.study import Exam, Limb, Patient, Pressures, LimbPressures, Stent, Graft, Study
+from diagram.layout import CAUTION, PAGES, layout, lesion_label, pack_1d, segment_label
+from diagram.scene import Line, Polygon, Rect, Scene, Text
+from diagram.study import Exam, Graft, Limb, LimbPressures, Patient, Pressures, Stent, Study
 from diagram.template import Template, Vessel
 
 # ----------------------------------------------------------------------------- a small template
@@ -66,10 +67,10 @@ def make_template() -> Template:
             pa = (400 - a[0], a[1]) if mirror else a
             pb = (400 - b[0], b[1]) if mirror else b
             key = vessel_key(side, seg)
-            vessels[key] = Vessel(key, side, seg, SEGMENTS[seg].length_cm, diameter,
-                                  _line(pa, pb))
-    outline = ("M 60 20 L 340 20 L 360 300 L 300 990 L 220 990 L 200 330 "
-               "L 180 990 L 100 990 L 40 300 Z")
+            vessels[key] = Vessel(key, side, seg, SEGMENTS[seg].length_cm, diameter, _line(pa, pb))
+    outline = (
+        "M 60 20 L 340 20 L 360 300 L 300 990 L 220 990 L 200 330 L 180 990 L 100 990 L 40 300 Z"
+    )
     return Template("test", "test.svg", (0.0, 0.0, 400.0, 1000.0), vessels, (outline,))
 
 
@@ -101,24 +102,53 @@ def spans(at: str, from_cm: float, length_cm: float) -> tuple[Span, ...]:
 
 
 def lesion(
-    side: Side, index: int, at: str, band: str, *, from_cm: float = 1.0, length_cm: float = 2.0,
-    psv: float | None = None, edv: float | None = None, vr: float | None = None,
+    side: Side,
+    index: int,
+    at: str,
+    band: str,
+    *,
+    from_cm: float = 1.0,
+    length_cm: float = 2.0,
+    psv: float | None = None,
+    edv: float | None = None,
+    vr: float | None = None,
     reconstitutes: str | None = None,
 ) -> LesionResult:
     occluded = band == "occluded"
     recon = None
     if reconstitutes:
-        recon = Span(reconstitutes, 1.0, 1.0, 1.0 / SEGMENTS[reconstitutes].length_cm,
-                     1.0 / SEGMENTS[reconstitutes].length_cm)
+        recon = Span(
+            reconstitutes,
+            1.0,
+            1.0,
+            1.0 / SEGMENTS[reconstitutes].length_cm,
+            1.0 / SEGMENTS[reconstitutes].length_cm,
+        )
     ref = Reference(90.0, "segment", "CFA") if vr is not None else None
-    return LesionResult(index, side, at, band, psv, edv, vr, "computed" if vr else "none", ref,
-                        length_cm, from_cm, occluded, reconstitutes, recon,
-                        spans(at, from_cm, length_cm), "test")
+    return LesionResult(
+        index,
+        side,
+        at,
+        band,
+        psv,
+        edv,
+        vr,
+        "computed" if vr else "none",
+        ref,
+        length_cm,
+        from_cm,
+        occluded,
+        reconstitutes,
+        recon,
+        spans(at, from_cm, length_cm),
+        "test",
+    )
 
 
 def segment(side: Side, seg: str, band: str, psv: float | None) -> SegmentResult:
-    return SegmentResult(side, seg, band, psv, None, None, None, "triphasic", (), "test",
-                         band != "not-assessed")
+    return SegmentResult(
+        side, seg, band, psv, None, None, None, "triphasic", (), "test", band != "not-assessed"
+    )
 
 
 def study(**pressures: LimbPressures) -> Study:
@@ -129,8 +159,12 @@ def study(**pressures: LimbPressures) -> Study:
     return Study(
         source="test.yaml",
         patient=Patient("Example, Pat", "T-0001", dt.date(1950, 2, 3), "female"),
-        exam=Exam(date=dt.date(2026, 11, 20), accession="ACC-1", site="Example Vascular Lab",
-                  indication="Bilateral calf claudication at 100 m"),
+        exam=Exam(
+            date=dt.date(2026, 11, 20),
+            accession="ACC-1",
+            site="Example Vascular Lab",
+            indication="Bilateral calf claudication at 100 m",
+        ),
         pressures=Pressures(142, 136, **pressures),
         limbs=limbs,
     )
@@ -141,18 +175,19 @@ def crowded(**pressures: LimbPressures) -> Assessment:
     lesions = {
         Side.RIGHT: (
             lesion(Side.RIGHT, 0, "EIA", "50-74", psv=330, edv=70, vr=3.1),
-            lesion(Side.RIGHT, 1, "SFA-P", "occluded", from_cm=6, length_cm=21,
-                   reconstitutes="POP-AK"),
+            lesion(
+                Side.RIGHT, 1, "SFA-P", "occluded", from_cm=6, length_cm=21, reconstitutes="POP-AK"
+            ),
             lesion(Side.RIGHT, 2, "ATA-M", "75-99", psv=390, edv=40, vr=4.2),
             lesion(Side.RIGHT, 3, "TPT", "lt50", psv=150, vr=None),
             lesion(Side.RIGHT, 4, "PTA-P", "50-74", psv=180, edv=20, vr=2.4, length_cm=1),
         ),
         Side.LEFT: (
             lesion(Side.LEFT, 0, "CFA", "lt50", psv=160, edv=20, vr=1.5),
-            lesion(Side.LEFT, 1, "SFA-M", "75-99", from_cm=3, length_cm=4, psv=390, edv=40,
-                   vr=4.2),
-            lesion(Side.LEFT, 2, "POP-BK", "occluded", from_cm=2, length_cm=6,
-                   reconstitutes="PTA-P"),
+            lesion(Side.LEFT, 1, "SFA-M", "75-99", from_cm=3, length_cm=4, psv=390, edv=40, vr=4.2),
+            lesion(
+                Side.LEFT, 2, "POP-BK", "occluded", from_cm=2, length_cm=6, reconstitutes="PTA-P"
+            ),
             lesion(Side.LEFT, 3, "PER-M", "50-74", psv=200, vr=2.1),
         ),
     }
@@ -166,8 +201,12 @@ def crowded(**pressures: LimbPressures) -> Assessment:
             segs[seg] = segment(side, seg, band, 40.0 + 3 * k)
         limbs[side] = LimbResult(side, segs, lesions[side])
     warnings = tuple(
-        Finding("angle", Side.LEFT, "SFA-M", f"left SFA-M sample {k}: angle 66° is above 60°; "
-                "the velocity may be overestimated")
+        Finding(
+            "angle",
+            Side.LEFT,
+            "SFA-M",
+            f"left SFA-M sample {k}: angle 66° is above 60°; the velocity may be overestimated",
+        )
         for k in range(9)
     )
     return Assessment(
@@ -224,7 +263,7 @@ def test_pack_1d_never_overlaps_and_stays_in_bounds() -> None:
         heights = [rng.uniform(6, 14) for _ in range(n)]
         tops = pack_1d(centres, heights, 1.5, 0.0, 700.0)
         spans = sorted(zip(tops, heights, strict=True))
-        for (t0, h0), (t1, _) in zip(spans, spans[1:], strict=False):
+        for (t0, h0), (t1, _) in itertools.pairwise(spans):
             assert t1 >= t0 + h0 + 1.5 - 1e-9
         assert min(tops) >= -1e-9
         assert max(t + h for t, h in zip(tops, heights, strict=True)) <= 700.0 + 1e-9
@@ -299,7 +338,7 @@ def test_labels_lie_in_the_margins(template: Template, page: str) -> None:
     legend_top = next(i for i in scene.walk() if i.id == "legend-rule").points[0][1]
     for lb in scene.label_boxes:
         assert not lb.box.intersects(vessels), lb.text
-        assert 0 <= lb.box.x and lb.box.right <= scene.width_pt
+        assert lb.box.x >= 0 and lb.box.right <= scene.width_pt
         assert area.y <= lb.box.y and lb.box.bottom <= legend_top
         if lb.side == "right":  # the patient's right leg is on the viewer's left
             assert lb.box.right <= area.x
@@ -313,8 +352,10 @@ def test_each_leg_labels_its_own_margin(template: Template) -> None:
         if lb.target != "AO":
             assert lb.target.startswith(lb.side + "/"), lb
     ao = [lb for lb in scene.label_boxes if lb.target == "AO"]
-    counts = {s: sum(1 for lb in scene.label_boxes if lb.side == s and lb.target != "AO")
-              for s in ("right", "left")}
+    counts = {
+        s: sum(1 for lb in scene.label_boxes if lb.side == s and lb.target != "AO")
+        for s in ("right", "left")
+    }
     assert len(ao) == 1 and ao[0].side == min(counts, key=lambda s: (counts[s], s == "right"))
 
 
@@ -334,9 +375,7 @@ def test_many_labels_spill_into_a_second_column(template: Template) -> None:
     a = crowded()
     extra = tuple(
         lesion(Side.RIGHT, 10 + k, seg, "lt50", psv=150 + k, vr=1.5, from_cm=0.5, length_cm=1)
-        for k, seg in enumerate(
-            [s for s in SEGMENTS if s != "AO" and s != "PER-D"] * 2
-        )
+        for k, seg in enumerate([s for s in SEGMENTS if s != "AO" and s != "PER-D"] * 2)
     )
     from dataclasses import replace
 
@@ -417,8 +456,16 @@ def test_header_shows_only_what_the_study_has(template: Template) -> None:
 
     a = crowded()
     full = texts(layout(a, template, version="0.0.0"))
-    for word in ("Example Vascular Lab", "Example, Pat", "T-0001", "1950-02-03", "female",
-                 "2026-11-20", "ACC-1", "Bilateral calf claudication at 100 m"):
+    for word in (
+        "Example Vascular Lab",
+        "Example, Pat",
+        "T-0001",
+        "1950-02-03",
+        "female",
+        "2026-11-20",
+        "ACC-1",
+        "Bilateral calf claudication at 100 m",
+    ):
         assert word in full
     bare = replace(a.study, patient=Patient(), exam=Exam())
     shown = texts(layout(replace(a, study=bare), template, version="0.0.0"))
@@ -431,7 +478,7 @@ def test_map_page_has_no_header_but_keeps_caution_and_footer(template: Template)
     shown = texts(scene)
     assert "Example, Pat" not in shown and "Example Vascular Lab" not in shown
     assert "Measurement notes" not in shown
-    assert " ".join(t for t in shown if t and t[0] not in "RL") .count("Schematic aid") == 1
+    assert " ".join(t for t in shown if t and t[0] not in "RL").count("Schematic aid") == 1
     assert "limbchart 0.0.0" in shown
 
 
@@ -454,12 +501,23 @@ def test_warnings_block_shows_the_first_few_then_a_count(template: Template) -> 
 
 def test_legend_lists_every_band_and_the_symbols_in_use(template: Template) -> None:
     scene = layout(crowded(), template, version="0.0.0")
-    swatches = {i.band for i in scene.walk() if isinstance(i, Rect) and i.id.startswith(
-        "legend-swatch")}
+    swatches = {
+        i.band for i in scene.walk() if isinstance(i, Rect) and i.id.startswith("legend-swatch")
+    }
     assert swatches == {b.id for b in BANDS}
     shown = texts(scene)
-    for label in ("Normal", "<50%", "50-74%", "75-99%", "Occluded", "Not assessed",
-                  "reconstitution", "stent", "bypass graft", "lesion extent"):
+    for label in (
+        "Normal",
+        "<50%",
+        "50-74%",
+        "75-99%",
+        "Occluded",
+        "Not assessed",
+        "reconstitution",
+        "stent",
+        "bypass graft",
+        "lesion extent",
+    ):
         assert label in shown
 
 
@@ -469,8 +527,9 @@ def test_legend_leaves_out_symbols_not_in_use(template: Template) -> None:
     a = crowded()
     bare_limbs = {s: Limb(s) for s in Side}
     limbs = {s: replace(r, lesions=()) for s, r in a.limbs.items()}
-    scene = layout(replace(a, study=replace(a.study, limbs=bare_limbs), limbs=limbs), template,
-                   version="0.0.0")
+    scene = layout(
+        replace(a, study=replace(a.study, limbs=bare_limbs), limbs=limbs), template, version="0.0.0"
+    )
     shown = texts(scene)
     for label in ("reconstitution", "stent", "bypass graft", "lesion extent"):
         assert label not in shown
@@ -491,12 +550,12 @@ def test_band_of_another_set_is_drawn_with_its_look(template: Template) -> None:
     from dataclasses import replace
 
     a = crowded()
-    bands = (*a.bands[:-1], BandDef("isr-50-69", "ISR 50-69%", 2, "50-74", "stent"),
-             a.bands[-1])
+    bands = (*a.bands[:-1], BandDef("isr-50-69", "ISR 50-69%", 2, "50-74", "stent"), a.bands[-1])
     les = replace(a.limbs[Side.LEFT].lesions[0], band="isr-50-69")
     left = replace(a.limbs[Side.LEFT], lesions=(les, *a.limbs[Side.LEFT].lesions[1:]))
-    scene = layout(replace(a, bands=bands, limbs={**a.limbs, Side.LEFT: left}), template,
-                   version="x")
+    scene = layout(
+        replace(a, bands=bands, limbs={**a.limbs, Side.LEFT: left}), template, version="x"
+    )
     style = {b.id: b for b in scene.bands}
     assert style["isr-50-69"].hatch == style["50-74"].hatch
     assert style["isr-50-69"].label == "ISR 50-69%"
