@@ -6,8 +6,7 @@ vessel is a tube in its segment's band; each lesion is painted over it from ``st
 ``end_frac`` of each segment it touches (arc length s = frac x path length), with ticks at its
 ends. Labels sit in the margins (the right leg's on the left) with leader lines to their vessel,
 stacked per column by ``pack_1d`` so that no two overlap; text is measured with the shipped font.
-The sheet furniture (header, legend, notes, caution, footer) is in ``diagram.sheet``-style helpers
-at the end of this module.
+The sheet furniture (header, legend, measurement notes, caution, footer) closes the module.
 """
 
 from __future__ import annotations
@@ -1183,7 +1182,10 @@ def layout(
     labels, columns, label_st = _choose_columns(
         assessment, template, st, bands, area_bottom - area_top
     )
-    widths = tuple(_margin_width(labels, m, columns[m]) for m in (Side.RIGHT, Side.LEFT))
+    widths = (
+        _margin_width(labels, Side.RIGHT, columns[Side.RIGHT]),
+        _margin_width(labels, Side.LEFT, columns[Side.LEFT]),
+    )
     if max(columns.values()) == 1:  # keep the map centred on the page
         widths = (max(widths), max(widths))
     fit, map_box = _fit_map(template, x0, x1, area_top, area_bottom, widths)

@@ -5,6 +5,7 @@ from __future__ import annotations
 import datetime as dt
 import itertools
 import time
+from typing import Any
 
 import pytest
 
@@ -220,8 +221,10 @@ def crowded(**pressures: LimbPressures) -> Assessment:
     )
 
 
-def flat(scene: Scene) -> list:
-    return list(scene.walk())
+def legend_rule_y(scene: Scene) -> float:
+    rule = next(i for i in scene.walk() if i.id == "legend-rule")
+    assert isinstance(rule, Line)
+    return rule.points[0][1]
 
 
 def texts(scene: Scene) -> list[str]:
@@ -285,11 +288,11 @@ def test_pack_1d_is_fast_for_many_labels() -> None:
 # ----------------------------------------------------------------------------- label texts
 
 
-def _les(**kw: object) -> LesionResult:
+def _les(**kw: Any) -> LesionResult:
     base = lesion(Side.LEFT, 0, "SFA-M", "50-74")
     from dataclasses import replace
 
-    return replace(base, **kw)  # type: ignore[arg-type]
+    return replace(base, **kw)
 
 
 @pytest.mark.parametrize(
@@ -306,7 +309,7 @@ def _les(**kw: object) -> LesionResult:
         ({"occluded": True, "length_cm": None, "reconstitutes": None}, "Occl."),
     ],
 )
-def test_lesion_label(kw: dict[str, object], text: str) -> None:
+def test_lesion_label(kw: dict[str, Any], text: str) -> None:
     assert lesion_label(_les(**kw)) == text
 
 
@@ -335,7 +338,7 @@ def test_no_two_label_boxes_intersect(template: Template, page: str) -> None:
 def test_labels_lie_in_the_margins(template: Template, page: str) -> None:
     scene = layout(crowded(), template, page=page, version="0.0.0")
     vessels, area = scene.vessel_box, scene.map_box
-    legend_top = next(i for i in scene.walk() if i.id == "legend-rule").points[0][1]
+    legend_top = legend_rule_y(scene)
     for lb in scene.label_boxes:
         assert not lb.box.intersects(vessels), lb.text
         assert lb.box.x >= 0 and lb.box.right <= scene.width_pt
@@ -383,7 +386,7 @@ def test_many_labels_spill_into_a_second_column(template: Template) -> None:
     scene = layout(replace(a, limbs={**a.limbs, Side.RIGHT: right}), template, version="0.0.0")
     xs = {round(lb.box.right, 3) for lb in scene.label_boxes if lb.side == "right"}
     assert len(xs) >= 2  # two columns
-    legend_top = next(i for i in scene.walk() if i.id == "legend-rule").points[0][1]
+    legend_top = legend_rule_y(scene)
     assert max(lb.box.bottom for lb in scene.label_boxes) <= legend_top
     boxes = scene.label_boxes
     for i, p in enumerate(boxes):

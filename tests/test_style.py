@@ -87,7 +87,7 @@ def test_colours_are_hex(field: str) -> None:
 def test_style_is_frozen_data() -> None:
     style = default_style()
     with pytest.raises(dataclasses.FrozenInstanceError):
-        style.label_pt = 9  # type: ignore[misc]
+        style.label_pt = 9  # type: ignore[misc, unused-ignore]
     assert default_style() == style
     bigger = dataclasses.replace(style, label_pt=8.0)  # how a lab profile will override it
     assert bigger.label_pt == 8.0 and style.label_pt == 7.0
