@@ -509,7 +509,7 @@ def _mesh(
     into: list[Item],
 ) -> None:
     """Draw a stent as two crossing zigzags inside the tube, with bars at its ends."""
-    half_period = 2.0 / fit.scale
+    half_period = 3.6 / fit.scale  # sparse enough to leave the band texture readable
     n = max(2, math.ceil((s1 - s0) / half_period))
     zig: list[Point] = []
     zag: list[Point] = []
@@ -519,22 +519,17 @@ def _mesh(
         off = 0.72 * hw * (1 if k % 2 else -1)
         zig.append((x + nx * off, y + ny * off))
         zag.append((x - nx * off, y - ny * off))
-    into.append(
-        Group(
-            base,
-            (
-                Line(f"{base}-a", tuple(zig), st.stent_ink, st.stent_pt),
-                Line(f"{base}-b", tuple(zag), st.stent_ink, st.stent_pt),
-                Line(
-                    f"{base}-p", _across(vessel, fit, s0, hw * 0.9), st.stent_ink, st.stent_pt * 2
-                ),
-                Line(
-                    f"{base}-d", _across(vessel, fit, s1, hw * 0.9), st.stent_ink, st.stent_pt * 2
-                ),
-            ),
-            role="stent",
+    halo = st.stent_pt + 0.6  # a pale rim keeps the mesh visible on a dark (occluded) lumen
+    parts: list[Item] = []
+    for name, pts in (("a", zig), ("b", zag)):
+        parts.append(Line(f"{base}-{name}-halo", tuple(pts), st.graft_fill, halo))
+    for name, pts in (("a", zig), ("b", zag)):
+        parts.append(Line(f"{base}-{name}", tuple(pts), st.stent_ink, st.stent_pt))
+    for name, s in (("p", s0), ("d", s1)):
+        parts.append(
+            Line(f"{base}-{name}", _across(vessel, fit, s, hw * 0.9), st.stent_ink, st.stent_pt * 2)
         )
-    )
+    into.append(Group(base, tuple(parts), role="stent"))
 
 
 def _draw_grafts(
@@ -906,7 +901,8 @@ def _footer(
     asc, desc = line_extents(st.small_pt)
     right = f"limbchart {version}" if not note else f"{note} · limbchart {version}"
     right_w = text_width(right, st.small_pt)
-    left = f"Criteria: {assessment.criteria_title} ({assessment.criteria_name})"
+    sets = assessment.criteria_used or ((assessment.criteria_name, assessment.criteria_title, ""),)
+    left = "Criteria: " + "; ".join(f"{title} ({name})" for name, title, _ in sets)
     left = ellipsize(left, st.small_pt, x1 - x0 - right_w - 12)
     baseline = bottom - desc
     return [

@@ -22,7 +22,7 @@ from diagram.assess.results import (
 )
 from diagram.geometry import PathGeometry
 from diagram.layout import CAUTION, PAGES, layout, lesion_label, pack_1d, segment_label
-from diagram.scene import Line, Polygon, Rect, Scene, Text
+from diagram.scene import Group, Line, Polygon, Rect, Scene, Text
 from diagram.study import Exam, Graft, Limb, LimbPressures, Patient, Pressures, Stent, Study
 from diagram.template import Template, Vessel
 
@@ -581,3 +581,33 @@ def test_layout_is_deterministic_with_unique_ids(template: Template) -> None:
 def test_page_sizes(template: Template, page: str, size: tuple[float, float]) -> None:
     scene = layout(crowded(), template, page=page, version="x")
     assert (scene.width_pt, scene.height_pt) == pytest.approx(size, abs=0.01)  # ISO 216; ANSI
+
+
+def test_footer_names_every_criteria_set_used(template: Template) -> None:
+    from dataclasses import replace
+
+    a = replace(
+        crowded(),
+        criteria_used=(
+            ("native", "Native arteries, velocity ratio", "shipped"),
+            ("stent", "In-stent restenosis", "shipped"),
+        ),
+    )
+    shown = texts(layout(a, template, version="x"))
+    assert (
+        "Criteria: Native arteries, velocity ratio (native); In-stent restenosis (stent)" in shown
+    )
+
+
+def test_stent_mesh_lies_over_its_segments(template: Template) -> None:
+    scene = layout(crowded(), template, version="x")
+    groups = [i for i in scene.walk() if isinstance(i, Group) and i.role == "stent"]
+    # right stent: from 2 cm into SFA-D (9 cm, drawn y 480-570) for 8 cm, so 1 cm into POP-AK
+    # (9 cm, drawn y 570-650)
+    assert [g.id for g in groups] == ["stent-right-0-0", "stent-right-0-1"]
+    scale = scene.map_box.h / 1000
+    slack = 0.05 * 4  # the mesh's sideways reach times the vessels' small slope
+    for group, (y0, y1) in zip(groups, ((500, 570), (570, 570 + 80 / 9)), strict=True):
+        ys = [p[1] for item in group.items if isinstance(item, Line) for p in item.points]
+        assert min(ys) == pytest.approx(scene.map_box.y + y0 * scale, abs=slack + 0.3)
+        assert max(ys) == pytest.approx(scene.map_box.y + y1 * scale, abs=slack + 0.3)
