@@ -124,6 +124,11 @@ def test_fp_grade(lesions: tuple[Lesion, ...], fp: int) -> None:
 
 
 def test_fp_drivers_name_the_lesion_and_length() -> None:
+    calcified = plan(sten("SFA-M", 4.0, plaque=Plaque.CALCIFIED))
+    assert calcified.fp_drivers == (
+        "SFA disease over 4 cm: lesion 1 (50-74, SFA-M at 0 cm, 4 cm)",
+        "FP1 -> 2, severe calcification: lesion 1 (50-74, SFA-M at 0 cm, 4 cm)",
+    )
     p = plan(occ("SFA-P", 4.0))
     assert p.fp_drivers == (
         "flush SFA occlusion of 4 cm: lesion 1 (occluded, SFA-P at 0 cm, 4 cm)",
@@ -332,3 +337,19 @@ def test_graft_and_missing_length_are_stated() -> None:
 def test_planning_note_asks_for_confirmation_on_imaging() -> None:
     note = planning_note()
     assert "duplex" in note and "confirm" in note and "imaging" in note
+
+
+def test_aortic_lesion_is_counted_under_the_leg_that_lists_it() -> None:
+    # The unpaired aorta is graded once and shown in both legs; its lesion's length counts once.
+    segments = {s: SegmentFinding(id=s, psv=100.0) for s in SEGMENT_IDS}
+    right = Limb(side=Side.RIGHT, segments=segments, lesions=(occ("AO", 3.0),))
+    left = Limb(side=Side.LEFT, segments={k: v for k, v in segments.items() if k != "AO"})
+    limbs = {Side.RIGHT: right, Side.LEFT: left}
+    s = Study(source="t.yaml", patient=Patient(), exam=Exam(), pressures=Pressures(), limbs=limbs)
+    a = assess(s)
+    sets = resolve_criteria(a.study)
+    r, lt = (plan_limb(a.study, a.limbs[side], sets) for side in (Side.RIGHT, Side.LEFT))
+    assert (r.levels[0].worst_band, r.levels[0].occluded_cm) == ("occluded", 3.0)
+    assert (lt.levels[0].worst_band, lt.levels[0].occluded_cm) == ("occluded", 0.0)
+    assert "AO: occluded from a lesion listed under the other leg" in lt.assumptions
+    assert r.inflow_significant is True and lt.inflow_significant is True

@@ -5,7 +5,7 @@ Surg 2019;69:3S (target path, calcification, inflow apart confirmed; grades and 
 TASC II, Norgren L et al., J Vasc Surg 2007;45:S5 (femoropopliteal, confirmed); SVS standards,
 Rutherford RB et al., J Vasc Surg 1997;26:517 (runoff scale and the added 1, confirmed).
 
-Choices the sources leave open (stated in the results):
+Choices the sources leave open (assumptions are also listed in each result):
 
 * Disease is severity >= 2 (>= 50%) on the common scale, occlusion 4. Lengths are the extents the
   map draws, a union per segment. A segment >= 50% from its own sample with no lesion behind it
@@ -18,6 +18,8 @@ Choices the sources leave open (stated in the results):
   and diseased cm, then the order ATA, PTA, PER (arbitrary, only to be deterministic).
 * Runoff: a tibial artery is patent to the ankle when every segment of its path (TPT included for
   PTA and PER) was assessed and none is occluded; one not fully assessed is never counted patent.
+* TASC II: rule A is applied to SFA lesions (a popliteal stenosis is B); a lesion or set of lesions
+  that no rule describes (say one stenosis of 16 cm) is classed C and says so.
 """
 
 from __future__ import annotations
@@ -26,10 +28,10 @@ from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
 from enum import StrEnum
 
-from diagram.anatomy import SEGMENT_IDS, SEGMENTS, Side
+from diagram.anatomy import SEGMENT_IDS, SEGMENTS, UNPAIRED, Side
 from diagram.assess.grading import FOCAL_LENGTH_CM
 from diagram.assess.results import LimbResult, Span
-from diagram.criteria import LOOK_SEVERITY, NOT_ASSESSED, SIGNIFICANT_SEVERITY, CriteriaSets
+from diagram.criteria import LOOK_SEVERITY, SIGNIFICANT_SEVERITY, CriteriaSets
 from diagram.study import Plaque, Study
 
 OCCLUDED = LOOK_SEVERITY["occluded"]
@@ -202,12 +204,6 @@ class _Extent:
     def touches(self, segs: Sequence[str]) -> bool:
         return any(s.segment in segs for s in self.spans)
 
-    def occlusion(self) -> Occlusion:
-        first = self.spans[0]
-        return Occlusion(
-            first.segment, float(first.start_cm), self.length_cm, self.reconstitutes, self.label
-        )
-
     def at_origin(self, seg: str) -> bool:
         return any(s.segment == seg and s.start_cm <= _EPS for s in self.spans)
 
@@ -254,6 +250,10 @@ def _extents(study: Study, limb: LimbResult, sets: CriteriaSets) -> tuple[list[_
         res = limb.segments.get(seg)
         if res is None or (sev := sets.severity(res.band)) < SIGNIFICANT_SEVERITY:
             continue
+        if seg in UNPAIRED and res.lesions:  # the aorta's lesions are counted under one leg
+            if not any(e.touches((seg,)) for e in out):
+                notes.append(f"{seg}: {res.band} from a lesion listed under the other leg")
+            continue
         if max((sets.severity(limb.lesions[i].band) for i in res.lesions), default=-1) >= sev:
             continue
         seg_len = SEGMENTS[seg].length_cm
@@ -269,12 +269,29 @@ def _extents(study: Study, limb: LimbResult, sets: CriteriaSets) -> tuple[list[_
     return out, notes
 
 
-def _unassessed(limb: LimbResult, sets: CriteriaSets, segs: Iterable[str]) -> tuple[str, ...]:
-    return tuple(s for s in segs if sets.severity(limb.segments[s].band) < 0)
+@dataclass(frozen=True)
+class _Leg:
+    """One graded leg with its stretches of disease, as the grading rules below read it."""
+
+    limb: LimbResult
+    sets: CriteriaSets
+    extents: tuple[_Extent, ...]
+
+    def sev(self, seg: str) -> int:
+        return self.sets.severity(self.limb.segments[seg].band)
+
+    def unassessed(self, segs: Iterable[str]) -> tuple[str, ...]:
+        return tuple(s for s in segs if self.sev(s) < 0)
+
+    def worst(self, segs: Iterable[str]) -> str:
+        return max((self.limb.segments[s].band for s in segs), key=self.sets.severity)
+
+    def touching(self, segs: Sequence[str]) -> list[_Extent]:
+        return [e for e in self.extents if e.touches(segs)]
 
 
-def _worst_band(limb: LimbResult, sets: CriteriaSets, segs: Iterable[str]) -> str:
-    return max((limb.segments[s].band for s in segs), key=sets.severity, default=NOT_ASSESSED)
+def _names(extents: Sequence[_Extent], segs: Sequence[str]) -> str:
+    return ", ".join(e.label for e in extents if e.touches(segs))
 
 
 def _step(value: float, first: int, bounds: Sequence[float]) -> int:
@@ -293,25 +310,25 @@ def _finish(
     calc = [e.label for e in ext if e.calcified]
     if calc and grade > 0:
         raised = min(grade + 1, 4)
-        drivers.append(f"{what}{grade} -> {raised} for severe calcification: {', '.join(calc)}")
+        how = f"{what}{grade} -> {raised}" if raised > grade else f"{what}4 already the highest"
+        drivers.append(f"{how}, severe calcification: {', '.join(calc)}")
         grade = raised
     if missing:
         drivers.append("not assessed: " + ", ".join(missing))
     return grade, tuple(drivers)
 
 
-def _fp_grade(
-    limb: LimbResult, sets: CriteriaSets, extents: list[_Extent]
-) -> tuple[int | None, tuple[str, ...]]:
+def _fp_grade(leg: _Leg) -> tuple[int | None, tuple[str, ...]]:
     """Return the GLASS femoropopliteal grade and the descriptors that set it."""
     path = SFA + POPLITEAL
-    missing = _unassessed(limb, sets, path)
+    missing = leg.unassessed(path)
     if len(missing) == len(path):
         return None, ("SFA and popliteal artery not assessed",)
-    ext = [e for e in extents if e.touches(path)]
+    ext = leg.touching(path)
     found: list[tuple[int, str]] = []
     if (sfa_cm := _union_cm(ext, SFA)) > 0:
-        found.append((_step(sfa_cm, 1, FP_SFA_DISEASE_CM), f"SFA disease over {_cm(sfa_cm)}"))
+        g, names = _step(sfa_cm, 1, FP_SFA_DISEASE_CM), _names(ext, SFA)
+        found.append((g, f"SFA disease over {_cm(sfa_cm)}: {names}"))
     occl = [e for e in ext if e.occluded and e.touches(SFA)]
     for e in occl:
         part, flush = e.cm_in(SFA), e.at_origin("SFA-P")
@@ -329,9 +346,10 @@ def _fp_grade(
             found.append((4, f"popliteal occlusion: {e.label}"))
         elif e.reaches_end("POP-BK") or e.touches(("TPT",)):
             found.append((4, f"popliteal disease into the trifurcation: {e.label}"))
-    if (pop_cm := _union_cm([e for e in pop if not e.occluded], POPLITEAL)) > 0:
-        g = _step(pop_cm, 2, FP_POP_STENOSIS_CM)
-        found.append((g, f"popliteal stenosis over {_cm(pop_cm)}"))
+    stenoses = [e for e in pop if not e.occluded]
+    if (pop_cm := _union_cm(stenoses, POPLITEAL)) > 0:
+        g, names = _step(pop_cm, 2, FP_POP_STENOSIS_CM), _names(stenoses, POPLITEAL)
+        found.append((g, f"popliteal stenosis over {_cm(pop_cm)}: {names}"))
     return _finish(found, ext, "FP", "no disease >= 50% in the SFA or popliteal", missing)
 
 
@@ -340,25 +358,23 @@ def _tibial_path(vessel: str) -> tuple[str, ...]:
     return own if vessel == "ATA" else ("TPT", *own)
 
 
-def _ip_grade(
-    limb: LimbResult, sets: CriteriaSets, extents: list[_Extent], vessel: str
-) -> VesselGrade:
+def _ip_grade(leg: _Leg, vessel: str) -> VesselGrade:
     """Return the GLASS infrapopliteal grade the vessel would have as the target artery."""
     path = _tibial_path(vessel)
     own = path[-3:]
-    missing = _unassessed(limb, sets, path)
+    missing = leg.unassessed(path)
     if set(own) <= set(missing):
         return VesselGrade(vessel, None, 0.0, 0.0, (f"{vessel} not assessed",))
     length = sum(SEGMENTS[s].length_cm for s in own)
     third, two_thirds = (round(length * a / b, 3) for a, b in IP_FRACTIONS)
-    ext = [e for e in extents if e.touches(path)]
+    ext = leg.touching(path)
     occl = [e for e in ext if e.occluded]
     dis_cm, occl_cm = _union_cm(ext, path), _union_cm(occl, path)
     of = f"of {_cm(length)}"
     found: list[tuple[int, str]] = []
     if dis_cm > 0:
         g = _step(dis_cm, 1, (IP_FOCAL_CM, third, two_thirds))
-        found.append((g, f"{vessel} disease over {_cm(dis_cm)} {of}"))
+        found.append((g, f"{vessel} disease over {_cm(dis_cm)} {of}: {_names(ext, path)}"))
     found += [
         (4, f"TPT occlusion, {vessel} the target: {e.label}") for e in occl if e.touches(("TPT",))
     ]
@@ -375,9 +391,7 @@ def _ip_grade(
     return VesselGrade(vessel, grade, dis_cm, occl_cm, drivers)
 
 
-def _choose_target(
-    grades: Sequence[VesselGrade], limb: LimbResult, sets: CriteriaSets
-) -> tuple[str | None, str]:
+def _choose_target(leg: _Leg, grades: Sequence[VesselGrade]) -> tuple[str | None, str]:
     """Return the least diseased tibial artery and why it was chosen."""
     graded = [g for g in grades if g.grade is not None]
     if not graded:
@@ -385,7 +399,7 @@ def _choose_target(
 
     def key(g: VesselGrade) -> tuple[int, int, float, float, int]:
         pedal = PEDAL_CONTINUATION.get(g.vessel)
-        sev = sets.severity(limb.segments[pedal].band) if pedal else OCCLUDED
+        sev = leg.sev(pedal) if pedal else OCCLUDED
         in_line = 0 if 0 <= sev < OCCLUDED else 1 if sev < 0 else 2
         return (g.grade or 0, in_line, g.occluded_cm, g.diseased_cm, TIBIALS.index(g.vessel))
 
@@ -393,23 +407,21 @@ def _choose_target(
     tied = [g.vessel for g in graded if g.grade == best.grade and g is not best]
     basis = f"least diseased tibial artery (IP{best.grade})"
     if tied:
-        basis += f"; preferred to {', '.join(tied)} for in-line flow to the foot, then length"
+        basis += f"; tie with {', '.join(tied)} broken by in-line flow to the foot, then length"
     return best.vessel, basis
 
 
-def _runoff(
-    limb: LimbResult, sets: CriteriaSets, extents: list[_Extent]
-) -> tuple[RunoffVessel, ...]:
+def _runoff(leg: _Leg) -> tuple[RunoffVessel, ...]:
     """Return each tibial artery's patency to the ankle and its SVS vessel scale."""
     out = []
     for vessel in TIBIALS:
         path = _tibial_path(vessel)
-        sev = [sets.severity(limb.segments[s].band) for s in path]
+        sev = [leg.sev(s) for s in path]
         unseen = [s for s, v in zip(path, sev, strict=True) if v < 0]
         length = sum(SEGMENTS[s].length_cm for s in path)
         scale: float | None
         if max(sev) >= OCCLUDED:
-            occl_cm = _union_cm([e for e in extents if e.occluded], path)
+            occl_cm = _union_cm([e for e in leg.extents if e.occluded], path)
             half = occl_cm <= length / 2
             state, scale = "occluded", RUNOFF_OCCLUDED_HALF if half else RUNOFF_OCCLUDED_MORE
             basis = f"occluded over {_cm(occl_cm)} of {_cm(length)} ({'<=' if half else '>'} half)"
@@ -419,12 +431,12 @@ def _runoff(
             state, scale, basis = "not-assessed", None, "not assessed: " + ", ".join(unseen)
         else:
             state, scale = "patent", RUNOFF_SCALE_BY_SEVERITY[max(sev)]
-            basis = f"patent to the ankle; worst band {_worst_band(limb, sets, path)}"
+            basis = f"patent to the ankle; worst band {leg.worst(path)}"
         out.append(RunoffVessel(vessel, state, scale, basis))
     return tuple(out)
 
 
-def _tasc(extents: list[_Extent]) -> tuple[str | None, tuple[str, ...]]:
+def _tasc(extents: Sequence[_Extent]) -> tuple[str | None, tuple[str, ...]]:
     """Return the TASC II femoropopliteal class and the rule that set it."""
     occl = [e for e in extents if e.occluded]
     tri = [e for e in occl if e.touches(("TPT",)) or e.at_origin("ATA-P")]
@@ -455,21 +467,34 @@ def _tasc(extents: list[_Extent]) -> tuple[str | None, tuple[str, ...]]:
         return "A", (f"single occlusion <= 5 cm: {names}",)
     if e.occluded and e.calcified and cm <= TASC_A_OCCLUSION_CM:
         return "B", (f"heavily calcified occlusion <= 5 cm: {names}", CALCIFICATION_ASSUMPTION)
-    if cm <= TASC_B_SINGLE_CM and not e.touches(("POP-BK",)):
-        return "B", (f"single lesion <= 15 cm, not below the knee: {names}",)
     if in_pop and not e.occluded and not e.touches(SFA):
         return "B", (f"single popliteal stenosis: {names}",)
+    if cm <= TASC_B_SINGLE_CM and not e.touches(("POP-BK",)):
+        return "B", (f"single lesion <= 15 cm, not below the knee: {names}",)
     return "C", (f"single lesion outside rules A, B and D, classed C: {names}",)
 
 
-def _level(
-    level: PlanLevel, limb: LimbResult, sets: CriteriaSets, ext: list[_Extent]
-) -> LevelSummary:
+def _level(leg: _Leg, level: PlanLevel) -> LevelSummary:
     segs = LEVEL_SEGMENTS[level]
-    ext = [e for e in ext if e.touches(segs)]
+    ext = leg.touching(segs)
     occl_cm = _union_cm([e for e in ext if e.occluded], segs)
-    band, missing = _worst_band(limb, sets, segs), _unassessed(limb, sets, segs)
-    return LevelSummary(level, band, _union_cm(ext, segs), occl_cm, len(ext), missing)
+    cm, missing = _union_cm(ext, segs), leg.unassessed(segs)
+    return LevelSummary(level, leg.worst(segs), cm, occl_cm, len(ext), missing)
+
+
+def _occlusion(e: _Extent) -> Occlusion:
+    first = e.spans[0]
+    return Occlusion(first.segment, float(first.start_cm), e.length_cm, e.reconstitutes, e.label)
+
+
+def _inflow(leg: _Leg) -> tuple[str, bool | None, tuple[str, ...]]:
+    """Return the worst inflow band, whether it is >= 50% (None: not assessed) and its basis."""
+    band, missing = leg.worst(INFLOW_PATH), leg.unassessed(INFLOW_PATH)
+    drivers = [f"worst inflow band {band}", *(e.label for e in leg.touching(INFLOW_PATH))]
+    if missing:
+        drivers.append("not assessed: " + ", ".join(missing))
+    significant = leg.sets.severity(band) >= SIGNIFICANT_SEVERITY
+    return band, significant if len(missing) < len(INFLOW_PATH) else None, tuple(drivers)
 
 
 def plan_limb(
@@ -479,23 +504,14 @@ def plan_limb(
     if target is not None and target not in TIBIALS:
         raise ValueError(f"target {target!r} must be one of {', '.join(TIBIALS)} or None")
     extents, notes = _extents(study, limb, sets)
-    runoff = _runoff(limb, sets, extents)
+    leg = _Leg(limb, sets, tuple(extents))
+    runoff = _runoff(leg)
     unscored = ", ".join(r.vessel for r in runoff if r.scale is None)
-    score = None if unscored else 1.0 + sum(r.scale or 0.0 for r in runoff)
     terms = " + ".join(f"{r.vessel} {r.scale:g}" for r in runoff if r.scale is not None)
-    runoff_basis = f"not scored: {unscored} not fully assessed" if unscored else f"1 + {terms}"
-    inflow_band = _worst_band(limb, sets, INFLOW_PATH)
-    inflow_missing = _unassessed(limb, sets, INFLOW_PATH)
-    inflow_seen = len(inflow_missing) < len(INFLOW_PATH)
-    inflow_drivers = [f"worst inflow band {inflow_band}"]
-    inflow_drivers += [e.label for e in extents if e.touches(INFLOW_PATH)]
-    if inflow_missing:
-        inflow_drivers.append("not assessed: " + ", ".join(inflow_missing))
-    fp, fp_drivers = _fp_grade(limb, sets, extents)
-    by_vessel = tuple(_ip_grade(limb, sets, extents, v) for v in TIBIALS)
-    chosen, target_basis = (
-        _choose_target(by_vessel, limb, sets) if not target else (target, "given")
-    )
+    inflow_band, inflow_significant, inflow_drivers = _inflow(leg)
+    fp, fp_drivers = _fp_grade(leg)
+    by_vessel = tuple(_ip_grade(leg, v) for v in TIBIALS)
+    chosen, target_basis = _choose_target(leg, by_vessel) if not target else (target, "given")
     ip_row = next(g for g in by_vessel if g.vessel == chosen) if chosen else None
     ip = ip_row.grade if ip_row else None
     if fp is None or ip is None:
@@ -508,18 +524,16 @@ def plan_limb(
         notes.append("a bypass graft is recorded; the grades describe the native arteries")
     return Planning(
         side=limb.side,
-        levels=tuple(_level(lv, limb, sets, extents) for lv in PlanLevel),
-        occlusions=tuple(e.occlusion() for e in extents if e.occluded),
+        levels=tuple(_level(leg, lv) for lv in PlanLevel),
+        occlusions=tuple(_occlusion(e) for e in extents if e.occluded),
         runoff=runoff,
         runoff_vessels=sum(r.state == "patent" for r in runoff),
         runoff_unassessed=tuple(r.vessel for r in runoff if r.state == "not-assessed"),
-        runoff_score=score,
-        runoff_basis=runoff_basis,
+        runoff_score=None if unscored else 1.0 + sum(r.scale or 0.0 for r in runoff),
+        runoff_basis=f"not scored: {unscored} not fully assessed" if unscored else f"1 + {terms}",
         inflow_band=inflow_band,
-        inflow_significant=sets.severity(inflow_band) >= SIGNIFICANT_SEVERITY
-        if inflow_seen
-        else None,
-        inflow_drivers=tuple(inflow_drivers),
+        inflow_significant=inflow_significant,
+        inflow_drivers=inflow_drivers,
         fp_grade=fp,
         fp_drivers=fp_drivers,
         target=chosen,
