@@ -290,7 +290,7 @@ def _vessel(template: Template, key: str) -> Vessel:
                     "vessels",
                     key,
                     "the map template has no vessel for this segment",
-                    "check the template with the template command",
+                    "a map template must draw every segment of the arterial tree",
                 )
             ]
         )
@@ -1159,9 +1159,9 @@ def layout(
     if spec.furniture:
         header, top = _header(assessment, st, x0, x1, top)
     footer, bottom = _footer(assessment, version, generated_note, st, x0, x1, bottom)
-    caution_lines = [(t, False) for t in wrap(CAUTION, st.small_pt, x1 - x0)]
+    caution_lines = [(t, False) for t in wrap(CAUTION, st.caution_pt, x1 - x0)]
     caution, bottom = _text_block(
-        "caution", caution_lines, st, st.small_pt, x0, bottom - 2, st.text_ink
+        "caution", caution_lines, st, st.caution_pt, x0, bottom - 2, st.text_ink
     )
     notes: list[Item] = []
     if spec.furniture:

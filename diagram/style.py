@@ -102,6 +102,7 @@ class Style:
     label_pt: float = 7.0
     legend_pt: float = 7.0
     small_pt: float = 6.5
+    caution_pt: float = 7.0  # the fixed caution line is never the smallest text
     side_mark_pt: float = 14.0
     line_gap_pt: float = 1.6  # vertical gap between stacked labels
     label_pad_pt: float = 1.0  # room kept around a label's text box
