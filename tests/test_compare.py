@@ -180,6 +180,8 @@ def test_abi_change(pt_before: float, pt_after: float, change: float, significan
     c = run(study(pt=pt_after), prior_of(pt=pt_before))
     left = next(x for x in c.abi if x.side is Side.LEFT)
     assert (left.change, left.significant) == (change, significant)
+    verdict = "significant" if significant else "not significant" if change < 0 else "no fall"
+    assert verdict in left.basis and "(SVS 2018; Westerband 1997)" in left.basis
     right = next(x for x in c.abi if x.side is Side.RIGHT)
     assert (right.change, right.significant, right.basis) == (None, None, "no ABI in either exam")
 

@@ -213,10 +213,11 @@ def abi_change(side: Side, before: LimbIndices | None, after: LimbIndices | None
         basis = "ABI > 1.40 (noncompressible) in one exam: the change is not judged"
         return AbiChange(side, b, a, change, None, basis)
     significant = -delta > ABI_SIGNIFICANT_FALL
-    rule = "more than" if significant else "not more than"
-    basis = f"{b:.2f} -> {a:.2f} ({change:+.2f}): a fall of {rule} 0.15 ({ABI_SOURCE})"
-    if delta >= 0:
-        basis = f"{b:.2f} -> {a:.2f} ({change:+.2f}): no fall"
+    if significant:
+        verdict = "a fall of more than 0.15: significant"
+    else:
+        verdict = "no fall" if delta >= 0 else "a fall of 0.15 or less: not significant"
+    basis = f"{b:.2f} -> {a:.2f} ({change:+.2f}): {verdict} ({ABI_SOURCE})"
     return AbiChange(side, b, a, change, significant, basis)
 
 
