@@ -593,18 +593,6 @@ def _labels(
             width += SWATCH_PT + 2.0
         out.append(_Label(lid, margin, kind, key, s, text, bold, band, width, height))
 
-    for key, res in sorted(_segment_results(assessment).items(), key=lambda kv: _order(kv[0])):
-        if res.psv is not None:
-            vessel = _vessel(template, key)
-            add(
-                make_id("label", key),
-                res.side,
-                "segment",
-                key,
-                vessel.geometry.length() / 2,
-                segment_label(res.segment, res.psv),
-                None,
-            )
     for side in (Side.RIGHT, Side.LEFT):
         limb = assessment.limbs.get(side)
         for lesion in limb.lesions if limb is not None else ():
@@ -638,6 +626,18 @@ def _labels(
                     "reconst.",
                     None,
                 )
+    for key, res in sorted(_segment_results(assessment).items(), key=lambda kv: _order(kv[0])):
+        if res.psv is not None:
+            length = _vessel(template, key).geometry.length()
+            add(
+                make_id("label", key),
+                res.side,
+                "segment",
+                key,
+                _segment_anchor(length, [lb.s for lb in out if lb.target == key]),
+                segment_label(res.segment, res.psv),
+                None,
+            )
     # The unpaired aorta's labels go to the emptier margin.
     counts = {m: sum(1 for lb in out if lb.margin is m and lb.target != "AO") for m in Side}
     emptier = Side.LEFT if counts[Side.LEFT] < counts[Side.RIGHT] else Side.RIGHT
@@ -649,6 +649,14 @@ def _labels(
         else lb
         for lb in out
     ]
+
+
+def _segment_anchor(length: float, taken: Sequence[float]) -> float:
+    """Return where a segment's label points: its middle, or a quarter away from a lesion's."""
+    near = [t for t in taken if abs(t - length / 2) < 0.2 * length]
+    if not near:
+        return length / 2
+    return max((0.2 * length, 0.8 * length), key=lambda s: min(abs(s - t) for t in taken))
 
 
 def _fit_map(

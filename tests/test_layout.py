@@ -611,3 +611,21 @@ def test_stent_mesh_lies_over_its_segments(template: Template) -> None:
         ys = [p[1] for item in group.items if isinstance(item, Line) for p in item.points]
         assert min(ys) == pytest.approx(scene.map_box.y + y0 * scale, abs=slack + 0.3)
         assert max(ys) == pytest.approx(scene.map_box.y + y1 * scale, abs=slack + 0.3)
+
+
+def test_empty_study_draws_every_vessel_not_assessed(template: Template) -> None:
+    from dataclasses import replace
+
+    a = crowded()
+    empty = replace(
+        a,
+        study=replace(a.study, limbs={}, pressures=Pressures()),
+        limbs={},
+        warnings=(),
+    )
+    scene = layout(empty, template, version="x")
+    tubes = [i for i in scene.walk() if isinstance(i, Polygon)]
+    assert len(tubes) == len(template.vessels)
+    assert {t.band for t in tubes} == {"not-assessed"}
+    assert scene.label_boxes == () and scene.pressure_regions == ()
+    assert "Measurement notes" not in texts(scene)
