@@ -437,23 +437,64 @@ def _quadratic_roots(a: float, b: float, c: float) -> list[float]:
     return [(-b - root) / (2 * a), (-b + root) / (2 * a)]
 
 
+def _speed_turns(sp: _Speed) -> list[float]:
+    """Return the parameters in (0, 1) where the speed has a local extreme.
+
+    They are the roots of d|B'|²/dt = 2·B'·B'', a cubic. A cusp (B' = 0) is among them, and there
+    the speed has a kink that quadrature must not straddle.
+    """
+    a2 = sp.ax * sp.ax + sp.ay * sp.ay
+    ab = sp.ax * sp.bx + sp.ay * sp.by
+    coef = (
+        2 * a2,
+        3 * ab,
+        sp.bx * sp.bx + sp.by * sp.by + 2 * (sp.ax * sp.cx + sp.ay * sp.cy),
+        sp.bx * sp.cx + sp.by * sp.cy,
+    )
+
+    def f(t: float) -> float:
+        return ((coef[0] * t + coef[1]) * t + coef[2]) * t + coef[3]
+
+    # Between the cubic's own critical points it is monotone: one sign change at most.
+    cuts = sorted(
+        {0.0, 1.0, *(t for t in _quadratic_roots(3 * coef[0], 2 * coef[1], coef[2]) if 0 < t < 1)}
+    )
+    roots: list[float] = []
+    for lo, hi in itertools.pairwise(cuts):
+        flo, fhi = f(lo), f(hi)
+        if flo == 0 or flo * fhi > 0:
+            continue
+        for _ in range(60):
+            mid = 0.5 * (lo + hi)
+            if (f(mid) > 0) == (fhi > 0):
+                hi = mid
+            else:
+                lo = mid
+        root = 0.5 * (lo + hi)
+        if 1e-9 < root < 1 - 1e-9:
+            roots.append(root)
+    return roots
+
+
 def _length_table(speed: _Speed) -> tuple[tuple[float, ...], tuple[float, ...]]:
     """Return parameters and cumulative lengths where each interval's quadrature has converged."""
     ts = [0.0]
     ss = [0.0]
-    # Depth-first, left to right, so the table comes out sorted.
-    stack: list[tuple[float, float, float, int]] = [(0.0, 1.0, _gl(speed, 0.0, 1.0), 0)]
-    while stack:
-        a, b, whole, depth = stack.pop()
-        m = 0.5 * (a + b)
-        left, right = _gl(speed, a, m), _gl(speed, m, b)
-        converged = abs(left + right - whole) <= _TABLE_TOL * max(1.0, whole)
-        if (converged and depth >= 1) or depth >= _TABLE_MAX_DEPTH:
-            ts.extend((m, b))
-            ss.extend((ss[-1] + left, ss[-1] + left + right))
-        else:
-            stack.append((m, b, right, depth + 1))
-            stack.append((a, m, left, depth + 1))
+    marks = [0.0, *_speed_turns(speed), 1.0]
+    for a0, b0 in itertools.pairwise(marks):
+        # Depth-first, left to right, so the table comes out sorted.
+        stack: list[tuple[float, float, float, int]] = [(a0, b0, _gl(speed, a0, b0), 0)]
+        while stack:
+            a, b, whole, depth = stack.pop()
+            m = 0.5 * (a + b)
+            left, right = _gl(speed, a, m), _gl(speed, m, b)
+            converged = abs(left + right - whole) <= _TABLE_TOL * max(1.0, whole)
+            if (converged and depth >= 1) or depth >= _TABLE_MAX_DEPTH:
+                ts.extend((m, b))
+                ss.extend((ss[-1] + left, ss[-1] + left + right))
+            else:
+                stack.append((m, b, right, depth + 1))
+                stack.append((a, m, left, depth + 1))
     return tuple(ts), tuple(ss)
 
 

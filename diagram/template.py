@@ -16,15 +16,19 @@ The template is read as data and never executed or rendered here. The contract, 
 - ``data-length-cm`` and ``data-diameter-mm`` are present and within ``LENGTH_CM_RANGE`` and
   ``DIAMETER_MM_RANGE``.
 
+- the body outline is drawn inside ``<g id="silhouette">`` (optional quiet strokes, such as
+  ligaments or toes, inside ``<g id="landmarks">``); layers may be named by ``id`` or, as editors
+  do, by ``inkscape:label``.
+
 Geometry is in the root viewBox's user units with every ``transform`` attribute of the element and
-its ancestors applied. The outline of the body comes from ``<g id="silhouette">`` and optional
-quiet strokes from ``<g id="landmarks">``.
+its ancestors applied.
 
 Refused, without anything being read or fetched beyond the file itself: files over
 ``MAX_TEMPLATE_BYTES``, DTDs and entity declarations, ``href``/``xlink:href`` not starting with
 ``#``, ``url(...)`` not pointing at ``#...``, ``@import``, ``<?xml-stylesheet?>``, ``<script>``,
-``<foreignObject>`` and other embedding elements, ``on*`` event attributes, nested ``<svg>``, and
-CSS ``transform`` in a ``style`` attribute (it would move geometry without the reader seeing it).
+``<foreignObject>`` and other embedding elements, animation elements (they rewrite attributes),
+``on*`` event attributes, nested ``<svg>``, and CSS ``transform`` in a ``style`` attribute (it
+would move geometry without the reader seeing it).
 """
 
 from __future__ import annotations
@@ -123,7 +127,11 @@ class Template:
 
     def vessel(self, side: str | None, segment: str) -> Vessel:
         """Return the vessel of ``segment`` on ``side`` (side ignored for the aorta)."""
-        return self.vessels[anatomy.vessel_key(side or "right", segment)]
+        if segment in anatomy.UNPAIRED:
+            return self.vessels[segment]
+        if side is None:
+            raise ValueError(f"{segment} is paired: say which side")
+        return self.vessels[anatomy.vessel_key(side, segment)]
 
 
 def load_template(path: str | Path | None = None) -> Template:

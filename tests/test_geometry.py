@@ -7,7 +7,7 @@ import itertools
 import math
 
 import pytest
-from hypothesis import given, settings
+from hypothesis import example, given, settings
 from hypothesis import strategies as st
 
 from diagram.geometry import (
@@ -320,12 +320,14 @@ def test_subpath_lies_on_the_original_curve(f0: float, f1: float) -> None:
         assert close(sub.point_at(along), geom.point_at(s0 + direction * along), 1e-7)
 
 
-@settings(max_examples=60, deadline=None)
+@settings(max_examples=100, deadline=None)
 @given(
     pts=st.lists(st.tuples(st.floats(-500, 500), st.floats(-500, 500)), min_size=4, max_size=4),
     f0=st.floats(0, 1),
     f1=st.floats(0, 1),
 )
+# Out and back along one line: the speed has a kink where the curve turns (found by hypothesis).
+@example(pts=[(0.0, 0.0), (6.0, 0.0), (1.0, 0.0), (0.0, 0.0)], f0=0.0, f1=0.75)
 def test_any_cubic_subpath_matches_point_at(
     pts: list[tuple[float, float]], f0: float, f1: float
 ) -> None:
@@ -335,10 +337,10 @@ def test_any_cubic_subpath_matches_point_at(
     geom = PathGeometry((cubic,))
     s0, s1 = sorted((f0 * geom.length(), f1 * geom.length()))
     pieces = geom.subpath_pieces(s0, s1)
-    if not pieces:
-        assert s0 == s1
-        return
     scale = 1 + max(abs(v) for p in pts for v in p)
+    if not pieces:  # a stretch of (almost) no length
+        assert s1 - s0 <= 1e-12 * scale
+        return
     assert close(pieces[0].start, geom.point_at(s0), 1e-7 * scale)
     assert close(pieces[-1].end, geom.point_at(s1), 1e-7 * scale)
     assert sum(p.length() for p in pieces) == pytest.approx(s1 - s0, abs=1e-6 * scale)

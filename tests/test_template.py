@@ -117,6 +117,9 @@ def test_shipped_template_passes_its_own_contract(shipped: Template) -> None:
     assert len(shipped.silhouette) == 1 and shipped.silhouette[0].endswith("Z")
     assert shipped.vessel("right", "CFA") is shipped.vessels["right/CFA"]
     assert shipped.vessel(None, "AO") is shipped.vessels["AO"]
+    assert shipped.vessel("left", "AO") is shipped.vessels["AO"]
+    with pytest.raises(ValueError, match="CFA is paired"):
+        shipped.vessel(None, "CFA")
 
 
 @pytest.mark.parametrize("key", sorted(ALL_KEYS))
@@ -178,12 +181,10 @@ def test_shipped_children_start_exactly_at_their_parents_end(shipped: Template) 
 def test_shipped_in_line_continuations_are_smooth(shipped: Template) -> None:
     for vessel in shipped.vessels.values():
         nxt = anatomy.SEGMENTS[vessel.segment].continues_to
-        if nxt is None:
-            continue
+        if nxt is None or vessel.segment == "AO" or (vessel.segment, nxt) == ("POP-BK", "TPT"):
+            continue  # the aortic and popliteal bifurcations turn on purpose
         a = vessel.geometry.tangent_at(vessel.geometry.length())
         b = shipped.vessel(vessel.side, nxt).geometry.tangent_at(0)
-        if vessel.segment == "AO" or (vessel.segment, nxt) == ("POP-BK", "TPT"):
-            continue  # the bifurcations turn on purpose
         assert a[0] * b[0] + a[1] * b[1] > math.cos(math.radians(1)), vessel.key
 
 
