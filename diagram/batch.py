@@ -25,19 +25,27 @@ NAME_FIELDS = ("n", "stem", "accession", "patient_id", "exam_date")
 
 
 @dataclass(frozen=True)
-class BatchTask:
-    """One study to draw, with everything a worker needs (picklable)."""
+class BatchSettings:
+    """What every study of a batch is drawn with (picklable)."""
 
-    n: int
-    study: Path
     out_dir: Path
-    formats: tuple[str, ...]
-    name_pattern: str
+    formats: tuple[str, ...] = ("pdf",)
+    name_pattern: str = DEFAULT_NAME
     page: str = "a4"
     template: Path | None = None
     criteria: str | None = None
+    target: str | None = None
     png_dpi: float = 150.0
     overwrite: bool = False
+
+
+@dataclass(frozen=True)
+class BatchTask:
+    """One study to draw: its place in the batch and its file."""
+
+    n: int
+    study: Path
+    settings: BatchSettings
 
 
 @dataclass(frozen=True)
@@ -129,32 +137,38 @@ def output_stem(task: BatchTask, study: object) -> str:
         "patient_id": study.patient.id or "no-id",
         "exam_date": study.exam.date.isoformat() if study.exam.date else "no-date",
     }
-    stem = task.name_pattern.format(**values)
+    stem = task.settings.name_pattern.format(**values)
     return "".join(c if c.isalnum() or c in "-_.+" else "_" for c in stem)
 
 
 def draw_one(task: BatchTask) -> BatchResult:
     """Draw one study into the output folder; never raises for a tool error."""
     from diagram.export import Drawing, ExportOptions, render_bytes, write_atomic
-    from diagram.load import load_study
+    from diagram.load import load_prior, load_study
     from diagram.pipeline import draw
 
+    cfg = task.settings
     try:
         study = load_study(task.study)
         stem = output_stem(task, study)
-        targets = [task.out_dir / f"{stem}.{fmt}" for fmt in task.formats]
+        targets = [cfg.out_dir / f"{stem}.{fmt}" for fmt in cfg.formats]
         existing = [t for t in targets if t.exists()]
-        if existing and not task.overwrite:
+        if existing and not cfg.overwrite:
             return BatchResult(
                 task.n,
                 str(task.study),
                 errors=tuple(f"{t}: exists; use --overwrite to replace it." for t in existing),
             )
         drawing: Drawing = draw(
-            study, page=task.page, template=task.template, criteria=task.criteria
+            study,
+            page=cfg.page,
+            template=cfg.template,
+            criteria=cfg.criteria,
+            target=cfg.target,
+            prior=load_prior(study),
         )
-        options = ExportOptions(png_dpi=task.png_dpi)
-        blobs = [render_bytes(drawing, fmt, options) for fmt in task.formats]
+        options = ExportOptions(png_dpi=cfg.png_dpi)
+        blobs = [render_bytes(drawing, fmt, options) for fmt in cfg.formats]
         for target, blob in zip(targets, blobs, strict=True):
             write_atomic(target, blob)
         return BatchResult(task.n, str(task.study), written=tuple(str(t) for t in targets))

@@ -10,13 +10,16 @@ import json
 import os
 import sys
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import click
 
 from diagram._version import __version__
 from diagram.errors import DiagramError
 from diagram.summary import CAUTION
+
+if TYPE_CHECKING:
+    from diagram.batch import BatchSettings
 
 FORMATS = ("svg", "pdf", "png", "dcm", "json")
 
@@ -75,6 +78,16 @@ def cli() -> None:
     show_default=True,
     help="Resolution of PNG output.",
 )
+@click.option(
+    "--target",
+    type=click.Choice(["ATA", "PTA", "PER"]),
+    help="Tibial artery of the planning path (default: the least diseased).",
+)
+@click.option(
+    "--prior",
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="An earlier exam to compare with (instead of the study's own prior:).",
+)
 @click.option("--jobs", type=click.IntRange(1, 256), help="Worker processes (default: CPU count).")
 @click.option("--quiet", is_flag=True, help="No progress bar and no per-study lines.")
 @click.option("--overwrite", is_flag=True, help="Replace existing files in the output folder.")
@@ -94,6 +107,8 @@ def draw(
     template: Path | None,
     criteria: str | None,
     dpi: float,
+    target: str | None,
+    prior: Path | None,
     jobs: int | None,
     quiet: bool,
     overwrite: bool,
@@ -108,46 +123,42 @@ def draw(
         and studies[0].suffix.lower() in (".yaml", ".yml", ".json")
         and not as_folder
     )
+    if prior is not None and not single:
+        raise click.UsageError("--prior goes with one study; in a batch each study names its own.")
     if single:
-        from diagram.load import load_study
+        from diagram.load import load_prior, load_study
         from diagram.pipeline import draw as draw_study
 
         if len(formats) > 1:
             raise click.UsageError("one output file takes one --format; give a folder for more.")
         chosen = format_for(Path(output), formats[0] if formats else None)  # refuse before any work
         study = load_study(studies[0])
-        drawing = draw_study(study, page=page, template=template, criteria=criteria)
+        earlier = load_prior(study, prior)
+        drawing = draw_study(
+            study, page=page, template=template, criteria=criteria, target=target, prior=earlier
+        )
         written = export(drawing, Path(output), chosen, ExportOptions(png_dpi=dpi))
         if not quiet:
             click.echo(f"wrote {written}", err=True)
         return
-    _draw_batch(
-        studies,
-        Path(output),
-        formats or ("pdf",),
-        page,
-        template,
-        criteria,
-        dpi,
-        jobs,
-        quiet,
-        overwrite,
-        name_pattern,
+    from diagram.batch import BatchSettings
+
+    settings = BatchSettings(
+        out_dir=Path(output),
+        formats=tuple(dict.fromkeys(formats or ("pdf",))),
+        name_pattern=name_pattern,
+        page=page,
+        template=template,
+        criteria=criteria,
+        target=target,
+        png_dpi=dpi,
+        overwrite=overwrite,
     )
+    _draw_batch(studies, settings, jobs, quiet)
 
 
 def _draw_batch(
-    studies: tuple[Path, ...],
-    out_dir: Path,
-    formats: tuple[str, ...],
-    page: str,
-    template: Path | None,
-    criteria: str | None,
-    dpi: float,
-    jobs: int | None,
-    quiet: bool,
-    overwrite: bool,
-    name_pattern: str,
+    studies: tuple[Path, ...], settings: BatchSettings, jobs: int | None, quiet: bool
 ) -> None:
     from diagram.batch import (
         BatchResult,
@@ -160,29 +171,16 @@ def _draw_batch(
     )
     from diagram.errors import ExportError
 
-    check_pattern(name_pattern)
+    check_pattern(settings.name_pattern)
     paths = expand_inputs(studies)
+    out_dir = settings.out_dir
     try:
         out_dir.mkdir(parents=True, exist_ok=True)
     except OSError as exc:
         raise ExportError(f"{out_dir}: cannot be made a folder: {exc.strerror}.") from None
     if not out_dir.is_dir():
         raise ExportError(f"{out_dir}: is not a folder.")
-    tasks = [
-        BatchTask(
-            n,
-            p,
-            out_dir,
-            tuple(dict.fromkeys(formats)),
-            name_pattern,
-            page,
-            template,
-            criteria,
-            dpi,
-            overwrite,
-        )
-        for n, p in enumerate(paths, start=1)
-    ]
+    tasks = [BatchTask(n, p, settings) for n, p in enumerate(paths, start=1)]
     bar_wanted = show_progress(quiet)
 
     def report(result: BatchResult) -> None:

@@ -97,6 +97,27 @@ def load_study(path: str | Path) -> Study:
     return _load_bytes(data, name, Path(path).suffix)
 
 
+def load_prior(study: Study, override: str | Path | None = None) -> Study | None:
+    """Read the earlier exam a study names (``prior:``, relative to its file) or ``override``.
+
+    A prior file with problems is reported as the prior's own problems; a missing one as a
+    problem of the study's ``prior`` field.
+    """
+    if override is not None:
+        path = Path(override)
+    elif study.prior:
+        path = Path(study.prior)
+        if not path.is_absolute():
+            path = Path(study.source).parent / path
+    else:
+        return None
+    if not path.is_file():
+        shown = repr(str(override)) if override is not None else repr(study.prior)
+        field = "--prior" if override is not None else "prior"
+        raise StudyError([Problem(study.source, None, field, shown, "names no study file.")])
+    return load_study(path)
+
+
 def load_study_text(text: str, name: str, suffix: str) -> Study:
     """Validate a study held in memory; ``name`` stands for the file in messages."""
     return _load_bytes(text.encode("utf-8", "surrogatepass"), name, suffix)

@@ -19,6 +19,8 @@ def draw(
     page: str = "a4",
     template: str | Path | None = None,
     criteria: str | None = None,
+    target: str | None = None,
+    prior: Study | None = None,
 ) -> Drawing:
     """Assess the study and draw its map; return the SVG text and the results document."""
     from diagram.layout import layout
@@ -26,7 +28,7 @@ def draw(
     from diagram.summary import results_document
     from diagram.template import load_template
 
-    assessment = assess_study(study, criteria=criteria)
+    assessment = assess_study(study, criteria=criteria, target=target, prior=prior)
     scene = layout(assessment, load_template(template), page=page, version=__version__)
     return Drawing(
         svg=render_svg(scene),
@@ -35,6 +37,12 @@ def draw(
     )
 
 
-def assess_study(study: Study, *, criteria: str | None = None) -> Assessment:
-    """Assess the study with its own criteria set, or with ``criteria`` when given."""
-    return assess(study, criteria=resolve_criteria(study, criteria))
+def assess_study(
+    study: Study,
+    *,
+    criteria: str | None = None,
+    target: str | None = None,
+    prior: Study | None = None,
+) -> Assessment:
+    """Assess the study with its own criteria sets (``criteria`` replaces the native one)."""
+    return assess(study, criteria=resolve_criteria(study, criteria), target=target, prior=prior)

@@ -6,8 +6,10 @@ from dataclasses import replace
 from pathlib import Path
 
 from diagram.anatomy import Side
+from diagram.assess.compare import check_prior, compare
 from diagram.assess.grading import grade_limbs
 from diagram.assess.indices import limb_indices, pressure_findings
+from diagram.assess.planning import plan_limb
 from diagram.assess.quality import quality_findings, with_shift_velocities
 from diagram.assess.results import Assessment, BandDef
 from diagram.criteria import NOT_ASSESSED, Criteria, CriteriaSets, load_criteria
@@ -48,8 +50,23 @@ def resolve_criteria(study: Study, override: str | None = None) -> CriteriaSets:
     )
 
 
-def assess(study: Study, *, criteria: Criteria | CriteriaSets | None = None) -> Assessment:
-    """Grade every segment, lesion, stent and graft of the study and compute its indices."""
+def assess(
+    study: Study,
+    *,
+    criteria: Criteria | CriteriaSets | None = None,
+    target: str | None = None,
+    prior: Study | None = None,
+) -> Assessment:
+    """Grade the study, compute its indices and planning summary, and compare with a prior.
+
+    ``target`` chooses the tibial artery of the planning path (ATA, PTA or PER; the least
+    diseased by default). ``prior`` is an earlier exam of the same patient: it is assessed with
+    its own criteria sets and compared; a prior of another patient or a later date is refused.
+    """
+    if prior is not None:
+        problems = check_prior(study, prior)
+        if problems:
+            raise StudyError(problems)
     if isinstance(criteria, Criteria):
         sets = replace(resolve_criteria(study), native=criteria)
     else:
@@ -66,7 +83,8 @@ def assess(study: Study, *, criteria: Criteria | CriteriaSets | None = None) -> 
     if any(study.limb(s).grafts for s in Side):
         used.append(sets.graft)
     crit = sets.native
-    return Assessment(
+    planning = {side: plan_limb(study, limbs[side], sets, target=target) for side in Side}
+    result = Assessment(
         study=study,
         criteria_name=crit.name,
         criteria_title=crit.title,
@@ -76,4 +94,8 @@ def assess(study: Study, *, criteria: Criteria | CriteriaSets | None = None) -> 
         indices=indices,
         warnings=tuple(findings),
         criteria_used=tuple((c.name, c.title, c.origin) for c in used),
+        planning=planning,
     )
+    if prior is not None:
+        result = replace(result, comparison=compare(result, assess(prior, target=target)))
+    return result

@@ -4,9 +4,14 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 from diagram.anatomy import Side
 from diagram.study import Study
+
+if TYPE_CHECKING:  # defined downstream of this module; annotations only
+    from diagram.assess.compare import Comparison
+    from diagram.assess.planning import Planning
 
 
 @dataclass(frozen=True)
@@ -176,3 +181,5 @@ class Assessment:
     indices: Mapping[Side, LimbIndices] = field(default_factory=dict)
     warnings: tuple[Finding, ...] = field(default=())
     criteria_used: tuple[tuple[str, str, str], ...] = ()  # (name, title, origin) of each set
+    planning: Mapping[Side, Planning] = field(default_factory=dict)
+    comparison: Comparison | None = None
