@@ -233,3 +233,17 @@ def make_id(*parts: object) -> str:
     if not safe[:1].isalpha():
         safe = "i" + safe
     return safe
+
+
+@dataclass(frozen=True)
+class CaseHeader:
+    """What a de-identified (teaching) sheet shows in place of the patient and exam header.
+
+    ``layout(..., case=CaseHeader(...))`` prints only these fields: no name, id, dates beyond the
+    year, site, operator or accession, whatever the study holds.
+    """
+
+    case_id: str
+    year: int | None = None
+    age: str | None = None  # whole years at the exam, or "90+"
+    sex: str | None = None
