@@ -226,6 +226,59 @@ def results_table(assessment: Assessment) -> str:
             rows.append(
                 (side.value, where, les.band, _fmt(les.psv), _fmt(les.edv), _fmt(les.vr), les.basis)
             )
+        for st in limb.stents:
+            extent = f"{st.spans[0].segment}-{st.spans[-1].segment}" if st.spans else st.from_
+            rows.append((side.value, f"stent {extent}", "-", "-", "-", "-", "in-stent criteria"))
+        for g in limb.grafts:
+            flow = f"graft flow {g.flow_velocity:g} cm/s" if g.flow_velocity is not None else ""
+            rows.append(
+                (
+                    side.value,
+                    f"{g.conduit} graft {g.from_}-{g.to}",
+                    g.band,
+                    "-",
+                    "-",
+                    "-",
+                    "; ".join(x for x in (g.basis, flow) if x),
+                )
+            )
+            for site in g.sites:
+                rows.append(
+                    (
+                        side.value,
+                        f"  graft {site.site.replace('_', ' ')}",
+                        site.band,
+                        _fmt(site.psv),
+                        "-",
+                        _fmt(site.vr),
+                        site.basis,
+                    )
+                )
+        for ix in [assessment.indices.get(side)]:
+            if ix is not None and (ix.abi is not None or ix.tbi is not None):
+                rows.append(
+                    (
+                        side.value,
+                        "ABI",
+                        ix.abi_category or "-",
+                        "-",
+                        "-",
+                        _fmt(ix.abi),
+                        ix.abi_basis,
+                    )
+                )
+                if ix.tbi is not None:
+                    rows.append(
+                        (
+                            side.value,
+                            "TBI",
+                            ix.tbi_category or "-",
+                            "-",
+                            "-",
+                            _fmt(ix.tbi),
+                            ix.tbi_basis,
+                        )
+                    )
     widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]) - 1)]
     lines = [
         "  ".join(c.ljust(w) for c, w in zip(r[:-1], widths, strict=False)) + "  " + r[-1]
