@@ -69,6 +69,19 @@ class Box:
 
 
 @dataclass(frozen=True)
+class Fit:
+    """Map template user units to page points: a uniform scale, then a translation."""
+
+    scale: float
+    tx: float
+    ty: float
+
+    def point(self, p: Point) -> Point:
+        """Return the page point of template point ``p``."""
+        return (p[0] * self.scale + self.tx, p[1] * self.scale + self.ty)
+
+
+@dataclass(frozen=True)
 class Rect:
     """A rectangle."""
 
