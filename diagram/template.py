@@ -5,38 +5,49 @@ The template is read as data and never executed or rendered here. The contract, 
 
 - the root is ``<svg xmlns="http://www.w3.org/2000/svg">`` with a ``viewBox`` of four numbers,
   width and height between 1 and 100 000 units, corner within ±100 000;
+- the root may declare what it covers with ``data-coverage`` (grammar below); without it
+  the template covers the whole tree, the aorta and both legs;
 - each vessel centre line is a ``<path>`` (or ``<line>``/``<polyline>``) drawn from its proximal
   to its distal end and named by ``data-segment`` (with ``data-side``, which may sit on an ancestor
   group), failing that by its ``id`` (``right-SFA-M``, ``R_SFA-M``, ``SFA-M-left``), failing that
   by ``inkscape:label``; aliases are resolved with ``anatomy.resolve``;
-- every segment of ``anatomy.SEGMENT_IDS`` appears once per side (the aorta ``AO`` once, no side);
-- each vessel starts within ``JOIN_TOLERANCE`` units of its parent's distal end;
-- right-side vessels lie on the viewer's left of the aorta's distal end (their midpoint and end
-  have a smaller x), left-side vessels on the viewer's right;
-- ``data-length-cm`` and ``data-diameter-mm`` are present and within ``LENGTH_CM_RANGE`` and
-  ``DIAMETER_MM_RANGE``.
-
+- every covered segment appears once (the aorta ``AO`` once, no side), and nothing else;
+- each vessel starts within ``JOIN_TOLERANCE`` units of its parent's distal end (the first vessel
+  of a partial template has no parent to join);
+- right-side vessels lie on the viewer's left: of the aorta's distal end, of the midpoint between
+  the two legs when there is no aorta, or, on a one-leg map, on the leg's lateral side as the
+  profunda and the anterior tibial show it;
+- ``data-length-cm`` and ``data-diameter-mm`` are present and within ``PLAUSIBLE_FACTOR`` of the
+  segment's nominal value (``anatomy`` lengths, ``NOMINAL_DIAMETER_MM``), which catches a value
+  written in the wrong unit; every vessel lies inside the viewBox;
 - the body outline is drawn inside ``<g id="silhouette">`` (optional quiet strokes, such as
   ligaments or toes, inside ``<g id="landmarks">``); layers may be named by ``id`` or, as editors
   do, by ``inkscape:label``.
+
+``data-coverage`` is ``bilateral`` (the default), ``right-infrainguinal``, ``left-infrainguinal``,
+``bilateral-infrainguinal``, or a list of subtrees ``SIDE:SEGMENT`` (each segment with everything
+downstream of it, e.g. ``"right:POP-BK"``) or ``AO`` (the whole tree).
 
 Geometry is in the root viewBox's user units with every ``transform`` attribute of the element and
 its ancestors applied.
 
 Refused, without anything being read or fetched beyond the file itself: files over
-``MAX_TEMPLATE_BYTES``, DTDs and entity declarations, ``href``/``xlink:href`` not starting with
-``#``, ``url(...)`` not pointing at ``#...``, ``@import``, ``<?xml-stylesheet?>``, ``<script>``,
-``<foreignObject>`` and other embedding elements, animation elements (they rewrite attributes),
-``on*`` event attributes, nested ``<svg>``, and CSS ``transform`` in a ``style`` attribute (it
-would move geometry without the reader seeing it).
+``MAX_TEMPLATE_BYTES``, more than ``MAX_ELEMENTS`` elements or ``MAX_DEPTH`` levels of nesting,
+path data over ``MAX_PATH_CHARS``, a root ``width``/``height`` that is not a sane length, DTDs and
+entity declarations, ``href``/``xlink:href`` not starting with ``#``, ``url(...)`` not pointing at
+``#...``, ``@import``, ``<?xml-stylesheet?>``, ``<script>``, ``<foreignObject>`` and other
+embedding elements, animation elements (they rewrite attributes), ``on*`` event attributes, nested
+``<svg>``, and CSS ``transform`` in a ``style`` attribute (it would move geometry without the
+reader seeing it).
 """
 
 from __future__ import annotations
 
+import difflib
 import functools
 import math
 import re
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from importlib import resources
 from pathlib import Path
@@ -54,12 +65,53 @@ SVG_NS = "http://www.w3.org/2000/svg"
 INKSCAPE_NS = "http://www.inkscape.org/namespaces/inkscape"
 SHIPPED_TEMPLATE = "bilateral.svg"
 MAX_TEMPLATE_BYTES = 5_000_000
+MAX_ELEMENTS = 100_000  # far above any hand-drawn map; a file past it is refused unread to its end
+MAX_DEPTH = 100  # levels of element nesting
+MAX_PATH_CHARS = 200_000  # path data of one element
 JOIN_TOLERANCE = 1.5  # units: a child may start this far from its parent's distal end
 MAX_VIEWBOX = 100_000.0
-# Plausible declared values (common practice): no leg segment is longer than 60 cm and no artery
-# from the distal aorta down is wider than 40 mm even when aneurysmal.
-LENGTH_CM_RANGE = (0.0, 60.0)  # exclusive, inclusive
-DIAMETER_MM_RANGE = (0.0, 40.0)  # exclusive, inclusive
+# A declared length or diameter within this factor of the segment's nominal value is plausible
+# (own margin): it allows any adult variant yet catches millimetres written for centimetres.
+PLAUSIBLE_FACTOR = 3.0
+# Nominal reference diameters, mm. Lorbeer R et al., PLoS One 2018 (clinical-values.md): CIA 11.8,
+# EIA 10.3, proximal femoral 10.2, distal femoral 7.7, popliteal 6.9, AT 4.2, PT 3.8, peroneal 4.0.
+# From memory: distal aorta 16, internal iliac 6, profunda 6, TPT 5, pedal arteries 2.5.
+NOMINAL_DIAMETER_MM: Mapping[str, float] = MappingProxyType(
+    {
+        "AO": 16.0,
+        "CIA": 11.8,
+        "IIA": 6.0,
+        "EIA": 10.3,
+        "CFA": 10.2,
+        "PFA": 6.0,
+        **dict.fromkeys(("SFA-P", "SFA-M", "SFA-D"), 7.7),
+        **dict.fromkeys(("POP-AK", "POP-BK"), 6.9),
+        "TPT": 5.0,
+        **dict.fromkeys(("ATA-P", "ATA-M", "ATA-D"), 4.2),
+        **dict.fromkeys(("PTA-P", "PTA-M", "PTA-D"), 3.8),
+        **dict.fromkeys(("PER-P", "PER-M", "PER-D"), 4.0),
+        "DPA": 2.5,
+        "PLA": 2.5,
+    }
+)
+# Named coverages: the subtrees (``AO`` or ``side:segment``) each stands for.
+COVERAGES: Mapping[str, tuple[str, ...]] = MappingProxyType(
+    {
+        "bilateral": ("AO",),
+        "bilateral-infrainguinal": ("right:CFA", "left:CFA"),
+        "right-infrainguinal": ("right:CFA",),
+        "left-infrainguinal": ("left:CFA",),
+    }
+)
+# On a one-leg map the lateral side is found from branches that lie lateral to a sibling
+# (clinical-values.md, "Anatomy for the map": profunda lateral; below the knee anterior tibial
+# most lateral, posterior tibial most medial, peroneal between): (lateral, medial) pairs compared
+# at the midpoint of each path.
+LATERAL_PAIRS: tuple[tuple[str, str], ...] = (
+    ("PFA", "SFA-P"),
+    ("ATA-M", "PER-M"),
+    ("PER-M", "PTA-M"),
+)
 
 _REFUSED_ELEMENTS = frozenset(
     {"script", "foreignobject", "iframe", "embed", "object", "handler"}
@@ -84,15 +136,7 @@ _NAMED = re.compile(
     r"(?:[\s_.:-]+(?P<post>right|left|rt|lt|r|l))?$",
     re.IGNORECASE,
 )
-_EXPECTED: tuple[tuple[str, str], ...] = (
-    ("right", "AO"),
-    *(
-        (side, seg)
-        for side in ("right", "left")
-        for seg in anatomy.SEGMENT_IDS
-        if seg not in anatomy.UNPAIRED
-    ),
-)
+_LENGTH = re.compile(r"^\s*(\d+(?:\.\d*)?|\.\d+)\s*(?:px|pt|pc|mm|cm|in|%)?\s*$")
 _URL = re.compile(r"url\(\s*(['\"]?)(.*?)\1\s*\)", re.IGNORECASE | re.DOTALL)
 
 
@@ -124,6 +168,25 @@ class Template:
     vessels: Mapping[str, Vessel]  # by Vessel.key (read-only)
     silhouette: tuple[str, ...]  # absolute path data of the quiet leg outline
     landmarks: tuple[str, ...] = ()  # absolute path data of quiet open strokes (ligament, toes)
+    coverage: str = "bilateral"  # the declared data-coverage, normalised (see COVERAGES)
+    title: str = ""  # the root <title>, if any
+
+    @property
+    def partial(self) -> bool:
+        """Return True when the template covers less than the whole arterial tree."""
+        return len(self.vessels) < len(covered_keys("bilateral"))
+
+    @property
+    def sides(self) -> tuple[str, ...]:
+        """Return the legs the template draws, right first."""
+        found = {v.side for v in self.vessels.values()}
+        return tuple(side for side in ("right", "left") if side in found)
+
+    def covers(self, side: str | None, segment: str) -> bool:
+        """Return True when the template draws ``segment`` on ``side``."""
+        if segment in anatomy.UNPAIRED:
+            return segment in self.vessels
+        return side is not None and anatomy.vessel_key(side, segment) in self.vessels
 
     def vessel(self, side: str | None, segment: str) -> Vessel:
         """Return the vessel of ``segment`` on ``side`` (side ignored for the aorta)."""
@@ -147,10 +210,44 @@ def check_template(path: str | Path | None = None) -> list[Problem]:
     return list(_read(path)[1])
 
 
+def shipped_templates() -> tuple[str, ...]:
+    """Return the names of the map templates shipped with the package (``bilateral`` ...)."""
+    folder = resources.files("diagram.templates_svg")
+    return tuple(sorted(p.name[:-4] for p in folder.iterdir() if p.name.endswith(".svg")))
+
+
+def is_shipped(name: str | Path) -> bool:
+    """Return True when ``name`` is a shipped template's name (a str, not a path)."""
+    return isinstance(name, str) and name in shipped_templates()
+
+
+def describe_coverage(coverage: str) -> str:
+    """Return a declared coverage in words, e.g. ``right leg from the CFA down``."""
+    if coverage == "bilateral":
+        return "aorta to both feet"
+    words = []
+    for root in COVERAGES.get(coverage, tuple(coverage.split())):
+        side, _, segment = root.partition(":")
+        words.append("the whole tree" if not segment else f"{side} leg from the {segment} down")
+    return "; ".join(words)
+
+
+def summary_line(template: Template) -> str:
+    """Return the one-line verdict on a template that passed its checks."""
+    n = len(template.silhouette)
+    return (
+        f"ok: {len(template.vessels)} vessels ({template.coverage}: "
+        f"{describe_coverage(template.coverage)}), joins within {JOIN_TOLERANCE:g} units, "
+        f"silhouette {n} path{'s' if n != 1 else ''}, nothing external referenced"
+    )
+
+
 def _read(path: str | Path | None) -> tuple[Template | None, tuple[Problem, ...]]:
-    if path is None:
-        with resources.as_file(resources.files("diagram.templates_svg") / SHIPPED_TEMPLATE) as p:
-            return _read_file(Path(p), SHIPPED_TEMPLATE)
+    name = SHIPPED_TEMPLATE[:-4] if path is None else path
+    if is_shipped(name):
+        with resources.as_file(resources.files("diagram.templates_svg") / f"{name}.svg") as p:
+            return _read_file(Path(p), f"{name}.svg")
+    assert path is not None
     return _read_file(Path(path), str(path))
 
 
@@ -166,7 +263,9 @@ def _read_file(path: Path, display: str) -> tuple[Template | None, tuple[Problem
         return _parse_cached(str(resolved), display, stat.st_mtime_ns, stat.st_size)
     except OSError as exc:
         rule = f"cannot be read: {exc.strerror or exc}"
-        return None, (Problem(display, None, "", None, rule, "check the --template path"),)
+        near = difflib.get_close_matches(path.name.removesuffix(".svg"), shipped_templates(), n=1)
+        hint = f"did you mean the shipped {near[0]}?" if near else "check the --template path"
+        return None, (Problem(display, None, "", None, rule, hint),)
 
 
 def _too_big(display: str, size: int) -> Problem:
@@ -218,6 +317,14 @@ class _RawVessel:
     diameter: str | None
 
 
+class _TooLarge(Exception):
+    """Stop reading: the file is past a size limit."""
+
+    def __init__(self, where: str, value: str | None, rule: str) -> None:
+        super().__init__(rule)
+        self.where, self.value, self.rule = where, value, rule
+
+
 @dataclass
 class _Reader:
     """SAX content handler collecting vessels, outlines and every problem met on the way."""
@@ -231,6 +338,9 @@ class _Reader:
     _stack: list[_Frame] = field(default_factory=list)
     _locator: Locator | None = None
     fatal: bool = False  # the XML could not be read to its end: contract checks are moot
+    coverage: tuple[str, int | None] | None = None  # data-coverage of the root, with its line
+    title: list[str] = field(default_factory=list)
+    elements: int = 0
     _style_text: list[str] = field(default_factory=list)
 
     def feed(self, data: bytes) -> None:
@@ -260,6 +370,8 @@ class _Reader:
             def characters(self, content: str) -> None:
                 if reader._stack and reader._stack[-1].tag == "style":
                     reader._style_text.append(content)
+                elif len(reader._stack) == 2 and reader._stack[-1].tag == "title":
+                    reader.title.append(content)
 
             def processingInstruction(self, target: str, data: str) -> None:
                 if target.lower() == "xml-stylesheet":
@@ -281,6 +393,9 @@ class _Reader:
         source.setByteStream(BytesIO(data))
         try:
             parser.parse(source)
+        except _TooLarge as exc:
+            self.fatal = True
+            self.problem(exc.where, exc.value, exc.rule, "simplify the artwork")
         except DefusedXmlException:
             self.fatal = True
             self.problem(
@@ -316,6 +431,11 @@ class _Reader:
         tag = local.lower()
         plain = {k[1]: v for k, v in attrs.items() if k[0] is None}
         where = _describe(local, plain)
+        self.elements += 1
+        if self.elements > MAX_ELEMENTS:
+            raise _TooLarge(where, None, f"more than {MAX_ELEMENTS} elements are refused")
+        if len(self._stack) >= MAX_DEPTH:
+            raise _TooLarge(where, None, f"nesting deeper than {MAX_DEPTH} levels is refused")
         self.check_attributes(where, attrs)
         parent = self._stack[-1] if self._stack else None
         if parent is None:
@@ -361,6 +481,17 @@ class _Reader:
                 "the root element must be <svg> in the SVG namespace",
                 f'use <svg xmlns="{SVG_NS}" viewBox="...">',
             )
+        if "data-coverage" in plain:
+            self.coverage = (plain["data-coverage"], self.line())
+        for key in ("width", "height"):
+            m = _LENGTH.match(plain.get(key, "1"))
+            if m is None or not 0 < float(m.group(1)) <= MAX_VIEWBOX:
+                self.problem(
+                    f"svg.{key}",
+                    plain[key],
+                    f"must be a length above 0 and at most {MAX_VIEWBOX:.0f} (number and unit)",
+                    f'e.g. {key}="210mm", or leave it out',
+                )
         raw = plain.get("viewBox")
         if raw is None:
             self.problem("svg.viewBox", None, "is missing", 'add viewBox="0 0 400 1000"')
@@ -487,10 +618,19 @@ class _Reader:
 
     def shape_d(self, tag: str, where: str, plain: dict[str, str]) -> str | None:
         try:
-            return _shape_to_d(tag, plain)
+            d = _shape_to_d(tag, plain)
         except ValueError as exc:
             self.problem(where, None, str(exc))
             return None
+        if len(d) > MAX_PATH_CHARS:
+            self.problem(
+                where,
+                f"{len(d)} characters",
+                f"path data longer than {MAX_PATH_CHARS} characters is refused",
+                "simplify the path",
+            )
+            return None
+        return d
 
     def outline(self, group: str, where: str, d: str, transform: Affine) -> None:
         try:
@@ -619,6 +759,62 @@ def _shape_to_d(tag: str, a: dict[str, str]) -> str:
 # --------------------------------------------------------------------------- the contract
 
 
+def covered_keys(coverage: str) -> frozenset[str]:
+    """Return the vessel keys of a normalised coverage (``Template.coverage``)."""
+    keys: set[str] = set()
+    for root in COVERAGES.get(coverage, tuple(coverage.split())):
+        side, _, segment = root.partition(":")
+        keys |= _subtree(side or None, segment or side)
+    return frozenset(keys)
+
+
+def _subtree(side: str | None, segment: str) -> set[str]:
+    if segment in anatomy.UNPAIRED:
+        return {segment} | {
+            anatomy.vessel_key(s, seg)
+            for s in ("right", "left")
+            for seg in anatomy.SEGMENT_IDS
+            if seg not in anatomy.UNPAIRED
+        }
+    out, todo = set(), [segment]
+    while todo:
+        seg = todo.pop()
+        out.add(anatomy.vessel_key(side or "right", seg))
+        todo.extend(anatomy.CHILDREN[seg])
+    return out
+
+
+def normalise_coverage(raw: str) -> str:
+    """Return the canonical form of a ``data-coverage`` value; ValueError says what is wrong."""
+    text = raw.strip().lower()
+    if text in COVERAGES:
+        return text
+    roots: list[str] = []
+    for token in re.split(r"[\s,]+", raw.strip()):
+        side_word, colon, seg_word = token.rpartition(":")
+        segment = anatomy.resolve(seg_word) if token else None
+        side = _side_word(side_word) if colon else None
+        if segment is None or (colon and side is None):
+            raise ValueError(f"{token!r} is not a named coverage nor SIDE:SEGMENT")
+        if (segment in anatomy.UNPAIRED) == bool(colon):
+            raise ValueError(f"{token!r}: write AO alone and SIDE:SEGMENT for a leg's segment")
+        root = segment if segment in anatomy.UNPAIRED else f"{side}:{segment}"
+        roots.extend([root] if root not in roots else [])
+    joined = " ".join(roots)
+    for name in COVERAGES:
+        if covered_keys(name) == covered_keys(joined):
+            return name
+    return joined
+
+
+def _order(key: str) -> tuple[int, int]:
+    side, _, segment = key.rpartition("/")
+    return (("", "right", "left").index(side), anatomy.SEGMENT_IDS.index(segment))
+
+
+Add = Callable[..., None]
+
+
 def _build(reader: _Reader, display: str, name: str) -> tuple[Template | None, tuple[Problem, ...]]:
     problems = list(reader.problems)
     if reader.fatal:
@@ -629,41 +825,43 @@ def _build(reader: _Reader, display: str, name: str) -> tuple[Template | None, t
             Problem(display, line, where, None if value is None else str(value), rule, hint)
         )
 
+    coverage, covered = _coverage(reader, add)
     found: dict[str, Vessel] = {}
+    declared: set[str] = set()
     for raw in reader.vessels:
         if raw.side is None and raw.segment not in anatomy.UNPAIRED:
             continue  # its missing side is already reported
         key = anatomy.vessel_key(raw.side or "right", raw.segment)
-        if key in found:
+        if covered is not None and key not in covered:
             add(
                 raw.line,
                 raw.where,
                 key,
-                f"appears more than once (first on line {found[key].line})",
+                f"lies outside the declared coverage ({coverage})",
+                "remove it, or widen data-coverage on the root <svg>",
+            )
+            continue
+        if key in declared:
+            first = found[key].line if key in found else None
+            add(
+                raw.line,
+                raw.where,
+                key,
+                f"appears more than once (first on line {first})",
                 "delete the duplicate or fix its data-segment/data-side",
             )
             continue
-        try:
-            geometry = PathGeometry.from_d(raw.d, raw.transform)
-        except ValueError as exc:
-            add(raw.line, f"{raw.where}.d", repr(_clip(raw.d)), str(exc))
-            continue
-        length = _declared(raw.length, "data-length-cm", LENGTH_CM_RANGE, raw, add)
-        diameter = _declared(raw.diameter, "data-diameter-mm", DIAMETER_MM_RANGE, raw, add)
-        found[key] = Vessel(
-            key, raw.side, raw.segment, length or math.nan, diameter or math.nan, geometry, raw.line
-        )
-    declared = {
-        anatomy.vessel_key(r.side or "right", r.segment)
-        for r in reader.vessels
-        if r.side is not None or r.segment in anatomy.UNPAIRED
-    }
+        declared.add(key)
+        vessel = _vessel(raw, key, reader.viewbox, add)
+        if vessel is not None:
+            found[key] = vessel
+    expected = sorted(covered if covered is not None else (), key=_order)
     if not reader.vessels:
         add(
             None,
             "vessels",
             None,
-            f"no vessel centre lines found (0 of {len(_EXPECTED)})",
+            f"no vessel centre lines found (0 of {len(expected)})",
             'name each centre line with data-segment="..." and data-side="right|left"',
         )
     if not reader.silhouette:
@@ -674,12 +872,10 @@ def _build(reader: _Reader, display: str, name: str) -> tuple[Template | None, t
             "no body outline found",
             'draw the outline as paths inside <g id="silhouette">',
         )
-    for side, seg in _EXPECTED if reader.vessels else ():
-        key = anatomy.vessel_key(side, seg)
+    for key in expected if reader.vessels else ():
         if key not in declared:
-            attrs = f'data-segment="{seg}"' + (
-                "" if seg in anatomy.UNPAIRED else f' data-side="{side}"'
-            )
+            side, _, seg = key.rpartition("/")
+            attrs = f'data-segment="{seg}"' + (f' data-side="{side}"' if side else "")
             add(
                 None,
                 f"vessels.{key}",
@@ -695,48 +891,103 @@ def _build(reader: _Reader, display: str, name: str) -> tuple[Template | None, t
         name,
         display,
         reader.viewbox,
-        MappingProxyType(dict(found)),
+        MappingProxyType({key: found[key] for key in sorted(found, key=_order)}),
         tuple(reader.silhouette),
         tuple(reader.landmarks),
+        coverage,
+        " ".join("".join(reader.title).split()),
     ), ()
 
 
+def _coverage(reader: _Reader, add: Add) -> tuple[str, frozenset[str] | None]:
+    """Return the normalised coverage and its vessel keys (None when it cannot be read)."""
+    if reader.coverage is None:
+        return "bilateral", covered_keys("bilateral")
+    raw, line = reader.coverage
+    try:
+        coverage = normalise_coverage(raw)
+    except ValueError as exc:
+        near = difflib.get_close_matches(raw.strip().lower(), list(COVERAGES), n=1)
+        add(
+            line,
+            "svg.data-coverage",
+            repr(_clip(raw)),
+            f"must be {', '.join(COVERAGES)} or a list of SIDE:SEGMENT subtrees ({exc})",
+            f"did you mean {near[0]}?" if near else 'e.g. data-coverage="right:POP-BK"',
+        )
+        return raw, None
+    return coverage, covered_keys(coverage)
+
+
+def _vessel(
+    raw: _RawVessel, key: str, viewbox: tuple[float, float, float, float] | None, add: Add
+) -> Vessel | None:
+    try:
+        geometry = PathGeometry.from_d(raw.d, raw.transform)
+    except ValueError as exc:
+        add(raw.line, f"{raw.where}.d", repr(_clip(raw.d)), str(exc))
+        return None
+    nominal_cm = anatomy.SEGMENTS[raw.segment].length_cm
+    nominal_mm = NOMINAL_DIAMETER_MM[raw.segment]
+    length = _declared(raw.length, "data-length-cm", nominal_cm, "cm", raw, add)
+    diameter = _declared(raw.diameter, "data-diameter-mm", nominal_mm, "mm", raw, add)
+    if viewbox is not None:
+        x, y, w, h = viewbox
+        x0, y0, x1, y1 = geometry.bounds()
+        slack = JOIN_TOLERANCE
+        if x0 < x - slack or y0 < y - slack or x1 > x + w + slack or y1 > y + h + slack:
+            add(
+                raw.line,
+                f"vessels.{key}",
+                f"bounds=({x0:.1f} {y0:.1f} {x1:.1f} {y1:.1f})",
+                f"must lie inside the viewBox ({x:g} {y:g} {w:g} {h:g})",
+                "move it onto the map or widen the viewBox",
+            )
+    return Vessel(
+        key, raw.side, raw.segment, length or math.nan, diameter or math.nan, geometry, raw.line
+    )
+
+
 def _declared(
-    raw: str | None, attr: str, bounds: tuple[float, float], v: _RawVessel, add: Any
+    raw: str | None, attr: str, nominal: float, unit: str, v: _RawVessel, add: Add
 ) -> float | None:
-    low, high = bounds
+    """Return the declared value when it is plausible for the segment; report it otherwise."""
+    low, high = nominal / PLAUSIBLE_FACTOR, nominal * PLAUSIBLE_FACTOR
     if raw is None:
         add(
             v.line,
             f"{v.where}.{attr}",
             None,
             "is missing",
-            f"declare the segment's nominal {attr.rsplit('-', 1)[-1]} in {attr}",
+            f"declare the segment's nominal {unit} in {attr}",
         )
         return None
     try:
         value = float(raw)
     except ValueError:
         value = math.nan
-    if not (math.isfinite(value) and low < value <= high):
+    # A relative slack of 1e-9 keeps the printed bounds themselves inside (7.7 * 3 is 23.0999...).
+    if not (math.isfinite(value) and low * (1 - 1e-9) <= value <= high * (1 + 1e-9)):
         add(
             v.line,
             f"{v.where}.{attr}",
             repr(raw),
-            f"must be a number above {low:g} and at most {high:g}",
+            f"must be a number from {low:.3g} to {high:.3g} {unit} for {v.segment} (within a "
+            f"factor of {PLAUSIBLE_FACTOR:g} of its nominal {nominal:g} {unit})",
+            f"check the unit: {attr} is in {unit}",
         )
         return None
     return value
 
 
-def _check_joins(found: dict[str, Vessel], add: Any) -> None:
+def _check_joins(found: dict[str, Vessel], add: Add) -> None:
     for key, vessel in found.items():
         parent_id = anatomy.SEGMENTS[vessel.segment].parent
         if parent_id is None:
             continue
         parent = found.get(anatomy.vessel_key(vessel.side or "right", parent_id))
         if parent is None:
-            continue
+            continue  # the first vessel of a partial map, or a parent reported already
         gap = math.dist(vessel.geometry.start, parent.geometry.end)
         if gap <= JOIN_TOLERANCE:
             continue
@@ -755,11 +1006,26 @@ def _check_joins(found: dict[str, Vessel], add: Any) -> None:
         )
 
 
-def _check_sides(found: dict[str, Vessel], add: Any) -> None:
-    aorta = found.get("AO")
-    if aorta is None:
+def _midline(found: dict[str, Vessel]) -> tuple[float, str] | None:
+    """Return the x between the legs and what gives it, or None on a one-leg map."""
+    if "AO" in found:
+        return found["AO"].geometry.end[0], "the aorta's x"
+    starts: dict[str, float] = {}
+    for key in sorted(found, key=_order):
+        side = found[key].side
+        if side is not None and side not in starts:
+            starts[side] = found[key].geometry.start[0]
+    if len(starts) < 2:
+        return None
+    return (starts["right"] + starts["left"]) / 2, "midway between the legs"
+
+
+def _check_sides(found: dict[str, Vessel], add: Add) -> None:
+    middle = _midline(found)
+    if middle is None:
+        _check_one_leg(found, add)
         return
-    mid_x = aorta.geometry.end[0]
+    mid_x, basis = middle
     for key, vessel in found.items():
         if vessel.side is None:
             continue
@@ -772,7 +1038,35 @@ def _check_sides(found: dict[str, Vessel], add: Any) -> None:
                 vessel.line,
                 f"vessels.{key}",
                 f"x={wrong[-1]:.1f}",
-                f"must be {sign} {mid_x:.1f} (the aorta's x): a {vessel.side}-side vessel lies on "
+                f"must be {sign} {mid_x:.1f} ({basis}): a {vessel.side}-side vessel lies on "
                 f"the viewer's {viewer}",
                 "the patient's right is on the viewer's left; check data-side",
             )
+
+
+def _check_one_leg(found: dict[str, Vessel], add: Add) -> None:
+    """On a one-leg map, the lateral branches must lie on the side data-side implies."""
+    for vessel in found.values():
+        side = vessel.side
+        if side is None:
+            continue
+        lateral = -1.0 if side == "right" else 1.0  # the right leg's lateral side: viewer's left
+        for outer, inner in LATERAL_PAIRS:
+            if vessel.segment != outer:
+                continue
+            other = found.get(anatomy.vessel_key(side, inner))
+            if other is None:
+                continue
+            g, h = vessel.geometry, other.geometry
+            x, y = g.point_at(g.length() / 2)[0], h.point_at(h.length() / 2)[0]
+            if lateral * x <= lateral * y:
+                viewer = "left" if side == "right" else "right"
+                add(
+                    vessel.line,
+                    f"vessels.{vessel.key}",
+                    f"x={x:.1f}",
+                    f"must lie on the viewer's {viewer} of {other.key} (x={y:.1f}): {outer} is "
+                    f"lateral to {inner}, and a {side} leg seen from the front has its lateral "
+                    f"side on the viewer's {viewer}",
+                    "the patient's right is on the viewer's left; check data-side",
+                )

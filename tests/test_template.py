@@ -20,10 +20,9 @@ from diagram import anatomy
 from diagram.errors import TemplateError
 from diagram.geometry import PathGeometry, Point, format_number
 from diagram.template import (
-    DIAMETER_MM_RANGE,
     JOIN_TOLERANCE,
-    LENGTH_CM_RANGE,
     MAX_TEMPLATE_BYTES,
+    PLAUSIBLE_FACTOR,
     Template,
     Vessel,
     check_template,
@@ -473,25 +472,29 @@ def test_vessel_attribute_problems(tmp_path: Path, old: str, new: str, expected:
 @pytest.mark.parametrize(
     ("attr", "value", "ok"),
     [
-        # Plausibility bounds (common practice): 0 < length <= 60 cm, 0 < diameter <= 40 mm.
-        ("data-length-cm", "0.0001", True),
-        ("data-length-cm", "60", True),
-        ("data-length-cm", "60.0001", False),
+        # Plausible: within a factor of 3 of the nominal value (own margin). SFA-M: 9 cm nominal
+        # (anatomy.py, from memory), 7.7 mm (Lorbeer 2018, distal femoral): 3-27 cm, 2.57-23.1 mm.
+        ("data-length-cm", "3", True),
+        ("data-length-cm", "2.99", False),
+        ("data-length-cm", "27", True),
+        ("data-length-cm", "27.01", False),
+        ("data-length-cm", "90", False),  # millimetres written as centimetres
         ("data-length-cm", "0", False),
         ("data-length-cm", "-3", False),
         ("data-length-cm", "nan", False),
         ("data-length-cm", "nine", False),
-        ("data-diameter-mm", "0.0001", True),
-        ("data-diameter-mm", "40", True),
-        ("data-diameter-mm", "40.01", False),
-        ("data-diameter-mm", "0", False),
+        ("data-diameter-mm", "2.567", True),
+        ("data-diameter-mm", "2.566", False),
+        ("data-diameter-mm", "23.1", True),
+        ("data-diameter-mm", "23.11", False),
+        ("data-diameter-mm", "0.77", False),  # centimetres written as millimetres
         ("data-diameter-mm", "inf", False),
     ],
 )
-def test_declared_length_and_diameter_bounds(
+def test_declared_length_and_diameter_must_be_plausible(
     tmp_path: Path, attr: str, value: str, ok: bool
 ) -> None:
-    assert LENGTH_CM_RANGE == (0.0, 60.0) and DIAMETER_MM_RANGE == (0.0, 40.0)
+    assert PLAUSIBLE_FACTOR == 3.0
     current = "9" if attr == "data-length-cm" else "7.7"
     path = variant(
         tmp_path,
@@ -504,10 +507,12 @@ def test_declared_length_and_diameter_bounds(
     if ok:
         assert lines == []
     else:
-        bound = "60" if attr == "data-length-cm" else "40"
+        bounds, unit = ("3 to 27", "cm") if attr == "data-length-cm" else ("2.57 to 23.1", "mm")
+        nominal = "9" if unit == "cm" else "7.7"
         assert lines == [
             f"{path}:{line_of(path, 'right-SFA-M')}: path[data-segment=SFA-M][data-side=right]."
-            f"{attr}: {value!r} must be a number above 0 and at most {bound}"
+            f"{attr}: {value!r} must be a number from {bounds} {unit} for SFA-M (within a factor "
+            f"of 3 of its nominal {nominal} {unit}) (check the unit: {attr} is in {unit})"
         ]
 
 
