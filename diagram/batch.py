@@ -8,13 +8,18 @@ a temporary file and a rename, so a failed study leaves nothing in the output fo
 
 from __future__ import annotations
 
+import contextlib
 import os
+import signal
 import string
 import sys
-from collections.abc import Callable, Iterable, Iterator
+from collections import deque
+from collections.abc import Callable, Iterable
 from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
+from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass, field
 from pathlib import Path
+from types import FrameType
 
 from diagram.errors import DiagramError, Problem, StudyError
 
@@ -71,13 +76,22 @@ class BatchSummary:
     failed: int = 0
     interrupted: bool = False
     failures: list[BatchResult] = field(default_factory=list)
+    signal: int | None = None  # the signal that stopped the batch (SIGINT for Ctrl-C)
 
     def line(self, total: int) -> str:
         """Return the closing line of the batch."""
         head = f"{self.done} of {total} studies drawn, {self.failed} failed"
         if self.interrupted:
-            head += f", {total - self.done - self.failed} not started (interrupted)"
+            name = signal.Signals(self.signal or signal.SIGINT).name
+            head += f", {total - self.done - self.failed} not drawn (interrupted by {name})"
         return head + "."
+
+    @property
+    def exit_status(self) -> int:
+        """Return the command's exit status: 128 + the signal when stopped, 2 after a failure."""
+        if self.interrupted:
+            return 128 + (self.signal or signal.SIGINT)
+        return 2 if self.failed else 0
 
 
 def expand_inputs(inputs: Iterable[Path]) -> list[Path]:
@@ -142,7 +156,12 @@ def output_stem(task: BatchTask, study: object) -> str:
 
 
 def draw_one(task: BatchTask) -> BatchResult:
-    """Draw one study into the output folder; never raises for a tool error."""
+    """Draw one study into the output folder; never raises for a tool error.
+
+    Every output is rendered in memory before the first is written. If writing one of them fails
+    or is interrupted, the ones this call already wrote are removed again, so a study leaves all
+    its files or none (a file it replaced under ``--overwrite`` cannot be brought back).
+    """
     from diagram.export import Drawing, ExportOptions, render_bytes, write_atomic
     from diagram.load import load_prior, load_study
     from diagram.pipeline import draw
@@ -169,8 +188,17 @@ def draw_one(task: BatchTask) -> BatchResult:
         )
         options = ExportOptions(png_dpi=cfg.png_dpi)
         blobs = [render_bytes(drawing, fmt, options) for fmt in cfg.formats]
-        for target, blob in zip(targets, blobs, strict=True):
-            write_atomic(target, blob)
+        made: list[Path] = []
+        try:
+            for target, blob in zip(targets, blobs, strict=True):
+                write_atomic(target, blob)
+                if target not in existing:
+                    made.append(target)
+        except BaseException:
+            for path in made:
+                with contextlib.suppress(OSError):
+                    path.unlink()
+            raise
         return BatchResult(task.n, str(task.study), written=tuple(str(t) for t in targets))
     except DiagramError as exc:
         return BatchResult(task.n, str(task.study), errors=tuple(exc.lines()))
@@ -182,7 +210,13 @@ def run_batch(
     jobs: int,
     on_result: Callable[[BatchResult], None],
 ) -> BatchSummary:
-    """Draw every task with ``jobs`` worker processes (in this process when 1)."""
+    """Draw every task with ``jobs`` worker processes (in this process when 1).
+
+    A KeyboardInterrupt (Ctrl-C, or a stop signal the command line turns into one, carrying the
+    signal number as ``signum``) ends the batch cleanly: studies not yet started are dropped,
+    those in progress are finished (at most ``DRAIN_SECONDS``, then their workers are stopped,
+    leaving no partial file), and the summary says what was done.
+    """
     summary = BatchSummary()
 
     def record(result: BatchResult) -> None:
@@ -198,32 +232,101 @@ def run_batch(
             for task in tasks:
                 record(draw_one(task))
         else:
-            for result in _parallel(tasks, jobs):
-                record(result)
-    except KeyboardInterrupt:
+            todo = deque(tasks)
+            while todo:  # a new pool after one broke (a worker killed, say for memory)
+                _pool_round(todo, jobs, record)
+    except KeyboardInterrupt as exc:
         summary.interrupted = True
+        summary.signal = getattr(exc, "signum", signal.SIGINT)
     return summary
 
 
-def _parallel(tasks: list[BatchTask], jobs: int) -> Iterator[BatchResult]:
-    """Yield results as workers finish, keeping only a few tasks per worker in flight."""
-    limit = jobs * 2
-    pending: set[Future[BatchResult]] = set()
-    queue = iter(tasks)
-    with ProcessPoolExecutor(max_workers=jobs) as pool:
+DRAIN_SECONDS = 5.0  # after an interrupt, how long studies in progress may take to finish
+_BROKEN = (
+    "(file): not drawn: the worker process drawing it stopped unexpectedly "
+    "(killed, or out of memory?)."
+)
+
+
+class _Stopped(BaseException):
+    """Raised in a worker by SIGTERM to unwind a study in progress (temporary files removed)."""
+
+
+def _worker_init() -> None:
+    """Set a worker's signals: Ctrl-C is the parent's to handle; SIGTERM ends it quietly."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    signal.signal(signal.SIGTERM, _worker_stop)
+
+
+def _worker_stop(signum: int, frame: FrameType | None) -> None:
+    """End the worker: unwind a study in progress first, so that it leaves no partial file."""
+    while frame is not None:
+        if frame.f_code is _work.__code__:
+            raise _Stopped
+        frame = frame.f_back
+    os._exit(128 + signum)  # idle: nothing to clean up, and no traceback from the pool's loop
+
+
+def _work(task: BatchTask) -> BatchResult:
+    """Draw one study in a worker process."""
+    try:
+        return draw_one(task)
+    except _Stopped:
+        os._exit(128 + signal.SIGTERM)
+
+
+def _pool_round(todo: deque[BatchTask], jobs: int, record: Callable[[BatchResult], None]) -> None:
+    """Draw tasks from ``todo`` in one pool, keeping a few per worker in flight.
+
+    Returns when ``todo`` is empty, or early when the pool broke (its studies in flight are
+    recorded as failed; the caller starts a new pool for the rest).
+    """
+    pending: dict[Future[BatchResult], BatchTask] = {}
+    with ProcessPoolExecutor(max_workers=jobs, initializer=_worker_init) as pool:
         try:
-            for task in queue:
-                pending.add(pool.submit(draw_one, task))
-                if len(pending) >= limit:
-                    finished, pending = wait(pending, return_when=FIRST_COMPLETED)
-                    yield from (f.result() for f in finished)
-            while pending:
-                finished, pending = wait(pending, return_when=FIRST_COMPLETED)
-                yield from (f.result() for f in finished)
-        except BaseException:
-            for f in pending:
-                f.cancel()
+            broken = False
+            while (todo and not broken) or pending:
+                while todo and not broken and len(pending) < jobs * 2:
+                    try:
+                        pending[pool.submit(_work, todo[0])] = todo[0]
+                        todo.popleft()
+                    except BrokenProcessPool:
+                        broken = True
+                finished, _ = wait(pending, return_when=FIRST_COMPLETED)
+                for future in finished:
+                    task = pending.pop(future)
+                    if isinstance(future.exception(), BrokenProcessPool):
+                        broken = True
+                        record(BatchResult(task.n, str(task.study), errors=(_broken(task),)))
+                    else:
+                        record(future.result())
+        except KeyboardInterrupt:
+            _drain(pool, pending, record)
             raise
+
+
+def _broken(task: BatchTask) -> str:
+    return f"{task.study}: {_BROKEN}"
+
+
+def _drain(
+    pool: ProcessPoolExecutor,
+    pending: dict[Future[BatchResult], BatchTask],
+    record: Callable[[BatchResult], None],
+) -> None:
+    """After an interrupt: drop what has not started, let what has finish, then stop workers."""
+    running = [f for f in pending if not f.cancel()]
+    done, late = wait(running, timeout=DRAIN_SECONDS)
+    if late:
+        # Python 3.11 has no public way to stop a pool's workers; SIGTERM makes each unwind
+        # the study it holds (removing its temporary file) and exit.
+        for process in list((pool._processes or {}).values()):
+            with contextlib.suppress(OSError):
+                process.terminate()
+        wait(late, timeout=DRAIN_SECONDS)
+    for future in running:
+        if future in done and future.exception() is None:
+            record(future.result())  # a study that failed normally is reported too
 
 
 def default_jobs() -> int:

@@ -8,7 +8,9 @@ from __future__ import annotations
 
 import json
 import os
+import signal
 import sys
+import threading
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -267,18 +269,87 @@ def schema(results: bool) -> None:
     click.echo(json.dumps(study_schema(), indent=2))
 
 
+class Interrupted(KeyboardInterrupt):
+    """A stop signal (SIGINT or SIGTERM) taking the Ctrl-C path; ``signum`` says which."""
+
+    def __init__(self, signum: int) -> None:
+        super().__init__(signal.Signals(signum).name)
+        self.signum = signum
+
+
+class _StopSignals:
+    """While active, turn the first SIGINT or SIGTERM into :class:`Interrupted`.
+
+    A later signal is only noted, so that the cleanup the first one started (a batch finishing
+    its studies in progress, temporary files removed) is not cut short. Handlers are installed
+    only in the main thread and restored on exit.
+    """
+
+    SIGNALS = (signal.SIGINT, signal.SIGTERM)
+
+    def __init__(self) -> None:
+        self.signum: int | None = None
+        self._pid = os.getpid()
+        self._previous: dict[int, Any] = {}
+
+    def __enter__(self) -> _StopSignals:
+        if threading.current_thread() is threading.main_thread():
+            for signum in self.SIGNALS:
+                self._previous[signum] = signal.signal(signum, self._handle)
+        return self
+
+    def __exit__(self, kind: type[BaseException] | None, *rest: object) -> bool:
+        for signum, handler in self._previous.items():
+            signal.signal(signum, handler if handler is not None else signal.SIG_DFL)
+        # an interrupt that arrived after the command's own status was settled
+        return kind is not None and issubclass(kind, KeyboardInterrupt)
+
+    def _handle(self, signum: int, frame: object) -> None:
+        if os.getpid() != self._pid:  # a forked worker that has not set its own handlers yet
+            os._exit(128 + signum)
+        if self.signum is None:
+            self.signum = signum
+            raise Interrupted(signum)
+
+    def status(self, code: int | str | None) -> int | str | None:
+        """Return the exit status: 128 + the signal number after a stop signal."""
+        return 128 + self.signum if self.signum is not None else code
+
+
+def _printable(line: str) -> str:
+    """Escape control characters, so that a message stays one line and cannot drive a terminal."""
+    if line.isprintable():
+        return line
+    return "".join(ch if ch.isprintable() else ascii(ch)[1:-1] for ch in line)
+
+
 def main(args: list[str] | None = None, prog_name: str | None = None) -> None:
-    """Run the command line; a tool error prints one line per problem and exits with status 2."""
-    try:
-        result: Any = cli.main(args=args, prog_name=prog_name or "limbchart", standalone_mode=False)
-    except DiagramError as exc:
-        for line in exc.lines():
-            click.echo(line, err=True)
-        sys.exit(exc.exit_code)
-    except click.exceptions.Abort:
-        click.echo("interrupted", err=True)
-        sys.exit(130)
-    except click.ClickException as exc:
-        exc.show()
-        sys.exit(exc.exit_code)
-    sys.exit(result if isinstance(result, int) else 0)
+    """Run the command line; a tool error prints one line per problem and exits with status 2.
+
+    SIGTERM takes the same path as Ctrl-C: nothing partial is left, a batch prints its summary,
+    and the exit status is 128 + the signal number (130 for SIGINT, 143 for SIGTERM).
+    """
+    code: int | str | None = 130  # if a stop signal cuts in before a status is settled
+    with _StopSignals() as stop:
+        try:
+            try:
+                result: Any = cli.main(
+                    args=args, prog_name=prog_name or "limbchart", standalone_mode=False
+                )
+                code = result if isinstance(result, int) else 0
+            except DiagramError as exc:
+                for line in exc.lines():
+                    click.echo(_printable(line), err=True)
+                code = exc.exit_code
+            except click.exceptions.Abort:  # Ctrl-C or SIGTERM inside a command
+                click.echo("interrupted", err=True)
+                code = 130
+            except click.ClickException as exc:
+                exc.show()
+                code = exc.exit_code
+            except SystemExit as exc:  # a command's own status, e.g. a batch's summary
+                code = exc.code
+        except KeyboardInterrupt:  # a stop signal while a message above was printed
+            click.echo("interrupted", err=True)
+            code = 130
+    sys.exit(stop.status(code))

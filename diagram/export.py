@@ -9,9 +9,11 @@ fetches anything but ``data:`` URLs.
 
 from __future__ import annotations
 
+import contextlib
+import errno
 import json
 import os
-import tempfile
+import secrets
 from collections.abc import Callable
 from dataclasses import dataclass
 from importlib import resources
@@ -137,28 +139,77 @@ def render_bytes(drawing: Drawing, fmt: str, options: ExportOptions | None = Non
     return WRITERS[fmt](drawing, options or ExportOptions())
 
 
+PART_SUFFIX = ".part"
+
+
 def write_atomic(path: Path, data: bytes) -> None:
-    """Write ``data`` to ``path`` through a temporary file and a rename."""
-    folder = path.parent if str(path.parent) else Path(".")
-    if path.is_dir():
-        raise ExportError(f"{path}: is a folder; give a file name such as {path / 'map.pdf'}.")
-    if not folder.is_dir():
-        raise ExportError(f"{path}: the folder {folder} does not exist.")
-    tmp_name = None
+    """Write ``data`` to ``path`` through a temporary file and a rename.
+
+    The temporary file (``.NAME.RANDOM.part`` beside the target) is named before it is created,
+    so it is removed whatever stops the write: an OSError, or an interrupt arriving between any
+    two steps. The target is either untouched or replaced by the complete new file.
+    """
+    folder = path.parent  # Path("m.svg").parent is Path(".")
+    _check_target(path, folder)
+    tmp = folder / f".{path.name}.{secrets.token_hex(8)}{PART_SUFFIX}"
+    owned: Path | None = tmp  # what the cleanup removes; set before the file exists
     try:
-        fd, tmp_name = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=folder)
-        with os.fdopen(fd, "wb") as handle:
-            handle.write(data)
-            handle.flush()
-            os.fsync(handle.fileno())
-        os.chmod(tmp_name, 0o644)
-        os.replace(tmp_name, path)
-        tmp_name = None
+        try:
+            fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL | os.O_CLOEXEC, 0o666)
+        except FileExistsError:
+            owned = None  # another writer's file: never ours to remove
+            raise
+        try:
+            view = memoryview(data)
+            while view:
+                view = view[os.write(fd, view) :]
+            os.fsync(fd)
+        finally:
+            os.close(fd)
+        os.replace(tmp, path)
     except OSError as exc:
-        raise ExportError(f"{path}: cannot be written: {exc.strerror or exc}.") from None
+        raise ExportError(_cannot_write(path, folder, exc)) from None
+    except ValueError:  # a NUL byte in the name
+        raise ExportError(
+            f"{path}: is not a usable file name (it holds a NUL character)."
+        ) from None
     finally:
-        if tmp_name is not None and os.path.exists(tmp_name):
-            os.unlink(tmp_name)
+        if owned is not None:
+            with contextlib.suppress(OSError):  # gone already once renamed into place
+                os.unlink(owned)
+
+
+def _check_target(path: Path, folder: Path) -> None:
+    """Refuse a target that is a folder, or whose folder is missing, before anything is made."""
+    try:
+        if path.is_dir():
+            raise ExportError(f"{path}: is a folder; give a file name such as {path / 'map.pdf'}.")
+        if not folder.is_dir():
+            if folder.exists():
+                raise ExportError(f"{path}: {folder} is a file, not a folder.")
+            raise ExportError(f"{path}: the folder {folder} does not exist.")
+    except OSError as exc:  # e.g. a folder on the way that cannot be searched
+        raise ExportError(_cannot_write(path, folder, exc)) from None
+
+
+def _cannot_write(path: Path, folder: Path, exc: OSError) -> str:
+    """Return the one-line message for an OSError met while writing ``path``."""
+    code = exc.errno
+    if code in (errno.EACCES, errno.EPERM):
+        why = f"no permission to write in the folder {folder}"
+    elif code == errno.EROFS:
+        why = f"the folder {folder} is on a read-only file system"
+    elif code in (errno.ENOSPC, getattr(errno, "EDQUOT", errno.ENOSPC)):
+        why = "no space left on the disk (or the disk quota is used up); nothing was written"
+    elif code == errno.ENAMETOOLONG:
+        why = "the file name is too long"
+    elif code == errno.EISDIR:
+        why = "it is a folder"
+    elif code == errno.ENOTDIR:
+        why = "a part of the path is a file, not a folder"
+    else:
+        why = (exc.strerror or str(exc)).rstrip(".")
+    return f"{path}: cannot be written: {why}."
 
 
 def export(
