@@ -339,6 +339,7 @@ class _Reader:
     _locator: Locator | None = None
     fatal: bool = False  # the XML could not be read to its end: contract checks are moot
     coverage: tuple[str, int | None] | None = None  # data-coverage of the root, with its line
+    root_line: int | None = None
     title: list[str] = field(default_factory=list)
     elements: int = 0
     _style_text: list[str] = field(default_factory=list)
@@ -481,8 +482,9 @@ class _Reader:
                 "the root element must be <svg> in the SVG namespace",
                 f'use <svg xmlns="{SVG_NS}" viewBox="...">',
             )
+        self.root_line = self.line()
         if "data-coverage" in plain:
-            self.coverage = (plain["data-coverage"], self.line())
+            self.coverage = (plain["data-coverage"], self.root_line)
         for key in ("width", "height"):
             m = _LENGTH.match(plain.get(key, "1"))
             if m is None or not 0 < float(m.group(1)) <= MAX_VIEWBOX:
@@ -872,6 +874,17 @@ def _build(reader: _Reader, display: str, name: str) -> tuple[Template | None, t
             "no body outline found",
             'draw the outline as paths inside <g id="silhouette">',
         )
+    suggested = _suggest_coverage(declared) if reader.coverage is None else None
+    if suggested is not None:
+        add(
+            reader.root_line,
+            "svg.data-coverage",
+            None,
+            f"is missing, and the map draws only {describe_coverage(suggested)} "
+            f"({len(declared)} of {len(expected)} vessels)",
+            f'declare a partial map: <svg data-coverage="{suggested}" ...>',
+        )
+        expected = []
     for key in expected if reader.vessels else ():
         if key not in declared:
             side, _, seg = key.rpartition("/")
@@ -897,6 +910,20 @@ def _build(reader: _Reader, display: str, name: str) -> tuple[Template | None, t
         coverage,
         " ".join("".join(reader.title).split()),
     ), ()
+
+
+def _suggest_coverage(declared: set[str]) -> str | None:
+    """Return the partial coverage the drawn vessels form exactly, if they form one."""
+    if not declared or declared == covered_keys("bilateral"):
+        return None
+    roots = []
+    for key in sorted(declared, key=_order):
+        side, _, seg = key.rpartition("/")
+        parent = anatomy.SEGMENTS[seg].parent
+        if parent is None or anatomy.vessel_key(side or "right", parent) not in declared:
+            roots.append(seg if not side else f"{side}:{seg}")
+    coverage = normalise_coverage(" ".join(roots))
+    return coverage if covered_keys(coverage) == declared else None
 
 
 def _coverage(reader: _Reader, add: Add) -> tuple[str, frozenset[str] | None]:

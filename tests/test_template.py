@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import contextlib
+import importlib.util
 import math
 import os
 import re
@@ -13,6 +14,7 @@ import time
 from collections.abc import Iterator
 from importlib import resources
 from pathlib import Path
+from typing import Any
 
 import pytest
 
@@ -21,12 +23,20 @@ from diagram.errors import TemplateError
 from diagram.geometry import PathGeometry, Point, format_number
 from diagram.template import (
     JOIN_TOLERANCE,
+    MAX_DEPTH,
+    MAX_ELEMENTS,
+    MAX_PATH_CHARS,
     MAX_TEMPLATE_BYTES,
     PLAUSIBLE_FACTOR,
     Template,
     Vessel,
     check_template,
+    covered_keys,
+    is_shipped,
     load_template,
+    normalise_coverage,
+    shipped_templates,
+    summary_line,
 )
 
 SHIPPED = Path(str(resources.files("diagram.templates_svg") / "bilateral.svg"))
@@ -761,3 +771,451 @@ def test_vessel_hidden_in_defs_is_reported(tmp_path: Path) -> None:
         f'{path}: vessels.right/PLA: is missing (add a <path data-segment="PLA" data-side="right">'
         " drawn from its parent's distal end)",
     ]
+
+
+# --------------------------------------------------------------------------- shipped one-leg maps
+
+LEG_SEGMENTS = [
+    s for s in anatomy.SEGMENT_IDS if s not in {"AO", "CIA", "IIA", "EIA"}
+]  # the CFA and everything downstream
+
+
+def _tool(name: str) -> Any:
+    """Import a generator script from tools/ (not part of the package)."""
+    path = Path(__file__).parent.parent / "tools" / f"{name}.py"
+    spec = importlib.util.spec_from_file_location(name, path)
+    assert spec is not None and spec.loader is not None
+    module = importlib.util.module_from_spec(spec)
+    sys.modules[name] = module  # dataclasses look their module up while the class is built
+    spec.loader.exec_module(module)
+    return module
+
+
+def test_shipped_template_names() -> None:
+    assert shipped_templates() == ("bilateral", "infrainguinal-left", "infrainguinal-right")
+    assert is_shipped("bilateral") and not is_shipped(Path("bilateral"))
+    assert not is_shipped("bilateral.svg")
+
+
+@pytest.mark.parametrize("name", ["bilateral", "infrainguinal-left", "infrainguinal-right"])
+def test_every_shipped_template_passes_the_checks(name: str) -> None:
+    assert check_template(name) == []
+    template = load_template(name)
+    assert template.source == f"{name}.svg" and template.name == name
+    assert template.title.startswith("limbchart ")
+
+
+@pytest.mark.parametrize("side", ["right", "left"])
+def test_one_leg_map_covers_one_leg_from_the_cfa(side: str) -> None:
+    template = load_template(f"infrainguinal-{side}")
+    assert template.coverage == f"{side}-infrainguinal" and template.partial
+    assert template.sides == (side,)
+    assert list(template.vessels) == [anatomy.vessel_key(side, s) for s in LEG_SEGMENTS]
+    assert template.covers(side, "CFA") and not template.covers(side, "EIA")
+    assert not template.covers(None, "AO")
+    other = "left" if side == "right" else "right"
+    assert not template.covers(other, "CFA")
+    assert summary_line(template) == (
+        f"ok: 19 vessels ({side}-infrainguinal: {side} leg from the CFA down), joins within "
+        "1.5 units, silhouette 1 path, nothing external referenced"
+    )
+
+
+@pytest.mark.parametrize("side", ["right", "left"])
+def test_one_leg_map_is_larger_than_the_bilateral_and_drawn_to_one_scale(side: str) -> None:
+    leg, both = load_template(f"infrainguinal-{side}"), load_template()
+    scales = {round(v.units_per_cm, 2) for v in leg.vessels.values()}
+    assert scales == {10.4}  # the generator's scale: the trunk's arc per nominal cm
+    # The groin-to-foot height fills most of the page: taller than the same stretch on the
+    # bilateral map (8.5 units per cm) relative to each viewBox height.
+    assert 10.4 / leg.viewbox[3] > 8.5 / both.viewbox[3]
+    for vessel in leg.vessels.values():
+        parent = anatomy.SEGMENTS[vessel.segment].parent
+        if parent in {"EIA", None}:
+            continue
+        assert math.dist(vessel.geometry.start, leg.vessel(side, parent).geometry.end) < 1e-3
+
+
+@pytest.mark.parametrize("side", ["right", "left"])
+def test_one_leg_map_anatomy_lateral_to_medial(side: str) -> None:
+    # clinical-values.md, "Anatomy for the map": profunda lateral; below the knee the anterior
+    # tibial most lateral, the posterior tibial most medial, the peroneal between (recalled).
+    leg = load_template(f"infrainguinal-{side}")
+    lateral = -1 if side == "right" else 1
+
+    def stem(name: str) -> list[Vessel]:
+        return [leg.vessel(side, f"{name}-{third}") for third in "PMD"]
+
+    for level in range(620, 820, 10):
+        at, per, pt = (x_at_y(stem(n), level) for n in ("ATA", "PER", "PTA"))
+        assert lateral * at > lateral * per > lateral * pt, level
+    pfa = leg.vessel(side, "PFA").geometry
+    for f in (0.25, 0.5, 1.0):
+        x, y = pfa.point_at(f * pfa.length())
+        assert lateral * x > lateral * x_at_y([leg.vessel(side, "SFA-P")], y)
+
+
+@pytest.mark.parametrize("side", ["right", "left"])
+def test_one_leg_map_vessels_sit_inside_its_outline(side: str) -> None:
+    leg = load_template(f"infrainguinal-{side}")
+    outline = PathGeometry.from_d(leg.silhouette[0])
+    polygon = outline.polyline(0, outline.length(), 1.0)
+    for vessel in leg.vessels.values():
+        for p in vessel.geometry.polyline(0, vessel.geometry.length(), 2.0):
+            assert inside(p, polygon), (vessel.key, p)
+
+
+def test_left_leg_is_the_mirror_of_the_right() -> None:
+    right, left = load_template("infrainguinal-right"), load_template("infrainguinal-left")
+    width = right.viewbox[2]
+    for segment in LEG_SEGMENTS:
+        r, lg = right.vessel("right", segment).geometry, left.vessel("left", segment).geometry
+        for f in (0.0, 0.5, 1.0):
+            rx, ry = r.point_at(f * r.length())
+            assert (width - rx, ry) == pytest.approx(lg.point_at(f * lg.length()), abs=2e-3)
+
+
+def test_shipped_files_and_fixtures_match_their_generators() -> None:
+    leg = _tool("make_leg_template")
+    for side in ("right", "left"):
+        shipped = resources.files("diagram.templates_svg") / f"infrainguinal-{side}.svg"
+        assert shipped.read_text(encoding="utf-8") == leg.template_svg(side)
+    for name, text in leg.fixtures().items():
+        assert (FIXTURES / name).read_text(encoding="utf-8") == text, name
+    assert SHIPPED.read_text(encoding="utf-8") == _tool("make_bilateral_template").template_svg()
+
+
+# --------------------------------------------------------------------------- declared coverage
+
+
+@pytest.mark.parametrize(
+    ("declared", "normal"),
+    [
+        ("bilateral", "bilateral"),
+        ("AO", "bilateral"),
+        (" Right-Infrainguinal ", "right-infrainguinal"),
+        ("right:CFA", "right-infrainguinal"),
+        ("rt:common femoral", None),  # tokens are split at spaces: use ids or one-word aliases
+        ("R:cfa, L:CFA", "bilateral-infrainguinal"),
+        ("left:CFA right:CFA", "bilateral-infrainguinal"),
+        ("right:POP-BK", "right:POP-BK"),
+        ("right:TPT right:ATA-P right:TPT", "right:TPT right:ATA-P"),
+        ("right:popliteal bk", None),
+        ("CFA", None),
+        ("right:AO", None),
+        ("up:CFA", None),
+        ("", None),
+    ],
+)
+def test_coverage_grammar(declared: str, normal: str | None) -> None:
+    if normal is None:
+        with pytest.raises(ValueError):
+            normalise_coverage(declared)
+    else:
+        assert normalise_coverage(declared) == normal
+
+
+def test_covered_keys() -> None:
+    assert len(covered_keys("bilateral")) == 45
+    assert len(covered_keys("bilateral-infrainguinal")) == 38
+    assert covered_keys("right:POP-BK") == {
+        anatomy.vessel_key("right", s)
+        for s in "POP-BK TPT PTA-P PTA-M PTA-D PLA PER-P PER-M PER-D ATA-P ATA-M ATA-D DPA".split()
+    }
+
+
+LEG = FIXTURES / "leg-swapped-side.svg"  # any one-leg fixture: line numbers follow the generator
+
+
+@pytest.mark.parametrize(
+    ("fixture", "expected"),
+    [
+        (
+            "leg-missing-segment.svg",
+            [
+                '{f}: vessels.right/PER-M: is missing (add a <path data-segment="PER-M" '
+                'data-side="right"> drawn from its parent\'s distal end)'
+            ],
+        ),
+        (
+            "leg-gap.svg",
+            [
+                "{f}:28: vessels.right/ATA-M: gap=3.00 must start within 1.5 units of the distal "
+                "end of right/ATA-P (move its first point onto the end of right/ATA-P)"
+            ],
+        ),
+        (
+            "leg-swapped-side.svg",
+            [
+                "{f}:20: vessels.left/PFA: x=189.3 must lie on the viewer's right of left/SFA-P "
+                "(x=212.7): PFA is lateral to SFA-P, and a left leg seen from the front has its "
+                "lateral side on the viewer's right (the patient's right is on the viewer's "
+                "left; check data-side)",
+                "{f}:28: vessels.left/ATA-M: x=165.3 must lie on the viewer's right of "
+                "left/PER-M (x=199.1): ATA-M is lateral to PER-M, and a left leg seen from the "
+                "front has its lateral side on the viewer's right (the patient's right is on "
+                "the viewer's left; check data-side)",
+                "{f}:34: vessels.left/PER-M: x=199.1 must lie on the viewer's right of "
+                "left/PTA-M (x=239.5): PER-M is lateral to PTA-M, and a left leg seen from the "
+                "front has its lateral side on the viewer's right (the patient's right is on "
+                "the viewer's left; check data-side)",
+            ],
+        ),
+        (
+            "leg-undeclared.svg",
+            [
+                "{f}:2: svg.data-coverage: is missing, and the map draws only right leg from the "
+                "CFA down (19 of 45 vessels) (declare a partial map: <svg "
+                'data-coverage="right-infrainguinal" ...>)'
+            ],
+        ),
+    ],
+)
+def test_broken_one_leg_fixtures(fixture: str, expected: list[str]) -> None:
+    path = FIXTURES / fixture
+    assert problem_lines(path) == [e.format(f=path) for e in expected]
+
+
+def test_vessels_outside_the_declared_coverage_are_reported() -> None:
+    path = FIXTURES / "leg-outside-coverage.svg"
+    lines = problem_lines(path)
+    outside = ["CFA", "PFA", "SFA-P", "SFA-M", "SFA-D", "POP-AK"]
+    assert lines == [
+        f"{path}:{19 + i}: path[data-segment={seg}][data-side=right]: right/{seg} lies outside "
+        "the declared coverage (right:POP-BK) (remove it, or widen data-coverage on the root "
+        "<svg>)"
+        for i, seg in enumerate(outside)
+    ]
+
+
+def test_a_map_of_two_subtrees_below_the_knee_passes() -> None:
+    template = load_template(FIXTURES / "leg-below-knee.svg")
+    assert template.coverage == "right:TPT right:ATA-P"
+    assert len(template.vessels) == 12 and template.partial
+    assert summary_line(template).startswith(
+        "ok: 12 vessels (right:TPT right:ATA-P: right leg from the TPT down; right leg from the "
+        "ATA-P down)"
+    )
+
+
+def test_unreadable_coverage_is_reported_with_a_hint(tmp_path: Path) -> None:
+    path = variant(
+        tmp_path,
+        'viewBox="0 0 400 1000"',
+        'viewBox="0 0 400 1000" data-coverage="rigt-infrainguinal"',
+    )
+    assert problem_lines(path) == [
+        f"{path}:2: svg.data-coverage: 'rigt-infrainguinal' must be bilateral, "
+        "bilateral-infrainguinal, right-infrainguinal, left-infrainguinal or a list of "
+        "SIDE:SEGMENT subtrees ('rigt-infrainguinal' is not a named coverage nor SIDE:SEGMENT) "
+        "(did you mean right-infrainguinal?)"
+    ]
+
+
+def _bilateral_without_pelvis(tmp_path: Path, swap: bool = False) -> Path:
+    """Return the shipped map with the aorta and iliacs removed, declared infrainguinal."""
+    rows = []
+    for row in SHIPPED.read_text(encoding="utf-8").splitlines():
+        if re.search(r'data-segment="(AO|CIA|IIA|EIA)"', row):
+            continue
+        if swap and "data-side=" in row:
+            row = (
+                row.replace('data-side="right"', "SIDE")
+                .replace('data-side="left"', 'data-side="right"')
+                .replace("SIDE", 'data-side="left"')
+            )
+        rows.append(row)
+    text = "\n".join(rows).replace("<svg ", '<svg data-coverage="bilateral-infrainguinal" ', 1)
+    path = tmp_path / "both-legs.svg"
+    path.write_text(text, encoding="utf-8")
+    return path
+
+
+def test_both_legs_without_the_pelvis(tmp_path: Path) -> None:
+    path = _bilateral_without_pelvis(tmp_path)
+    template = load_template(path)
+    assert template.sides == ("right", "left") and len(template.vessels) == 38
+    swapped = _bilateral_without_pelvis(tmp_path, swap=True)
+    lines = problem_lines(swapped)
+    assert len(lines) == 38
+    assert all("midway between the legs" in line for line in lines)
+    # the CFAs start at x 140.841 and 259.159 on the shipped map: midway is 200
+    assert lines[0] == (
+        f"{swapped}:21: vessels.left/CFA: x=136.1 must be > 200.0 (midway between the legs): a "
+        "left-side vessel lies on the viewer's right (the patient's right is on the viewer's "
+        "left; check data-side)"
+    )
+
+
+# --------------------------------------------------------------------------- more hostile files
+
+
+@pytest.mark.parametrize(
+    ("name", "text"),
+    [
+        (
+            "parameter-entity.svg",
+            '<?xml version="1.0"?>\n<!DOCTYPE svg [<!ENTITY % p SYSTEM "file:///etc/passwd"> %p;]>\n'
+            '<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 400 1000"/>\n',
+        ),
+        (
+            "external-dtd.svg",
+            '<?xml version="1.0"?>\n<!DOCTYPE svg SYSTEM "file:///etc/passwd">\n'
+            '<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 400 1000"/>\n',
+        ),
+        (
+            "public-dtd.svg",
+            '<?xml version="1.0"?>\n<!DOCTYPE svg PUBLIC "-//W3C//DTD SVG 1.1//EN" '
+            '"http://127.0.0.1:9/svg11.dtd">\n'
+            '<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 400 1000"/>\n',
+        ),
+    ],
+)
+def test_every_dtd_is_refused_and_nothing_is_read(tmp_path: Path, name: str, text: str) -> None:
+    path = tmp_path / name
+    path.write_text(text, encoding="utf-8")
+    with recorded() as events:
+        lines = problem_lines(path)
+    assert lines == [
+        f"{path}:2: <!DOCTYPE>: DTDs, entity declarations and external entities are refused "
+        "(remove the <!DOCTYPE ...> declaration and any entities)"
+    ]
+    assert [args for _, args in events if "passwd" in args or "svg11" in args] == []
+    assert {event for event, _ in events} <= {"open"}
+
+
+@pytest.mark.parametrize(
+    ("old", "new", "field"),
+    [
+        (
+            "<title>",
+            '<image xlink:href="file:///etc/passwd" width="1" height="1"/><title>',
+            "image.href",
+        ),
+        ("<title>", '<image href="data:image/png;base64,AAAA"/><title>', "image.href"),
+        ("<title>", '<use href="file:///tmp/art.svg#leg"/><title>', "use.href"),
+        (
+            "<title>",
+            '<xi:include xmlns:xi="http://www.w3.org/2001/XInclude" href="file:///etc/passwd"/>'
+            "<title>",
+            "include.href",
+        ),
+        (
+            '<g id="silhouette" fill="none"',
+            '<g id="silhouette" style="fill: url( file:///etc/passwd )"',
+            "g[id=silhouette].style",
+        ),
+        (
+            '<g id="silhouette" fill="none"',
+            '<g id="silhouette" filter="url(\'https://127.0.0.1:9/f.svg#x\')"',
+            "g[id=silhouette].filter",
+        ),
+    ],
+)
+def test_external_and_file_references_are_refused_unread(
+    tmp_path: Path, old: str, new: str, field: str
+) -> None:
+    path = variant(tmp_path, old, new)
+    if "xlink:" in new:
+        text = path.read_text(encoding="utf-8").replace(
+            "<svg ", '<svg xmlns:xlink="http://www.w3.org/1999/xlink" ', 1
+        )
+        path.write_text(text, encoding="utf-8")
+    with recorded() as events:
+        problems = check_template(path)
+    assert [(p.field, p.rule) for p in problems] == [(field, "external references are refused")]
+    assert not any(event != "open" or "passwd" in args for event, args in events)
+
+
+@pytest.mark.parametrize(
+    ("old", "new", "field", "rule"),
+    [
+        (
+            'width="400" height="1000"',
+            'width="1e9" height="1000"',
+            "svg.width",
+            "must be a length above 0 and at most 100000 (number and unit)",
+        ),
+        (
+            'width="400" height="1000"',
+            'width="400" height="200000mm"',
+            "svg.height",
+            "must be a length above 0 and at most 100000 (number and unit)",
+        ),
+        (
+            "<title>",
+            '<iframe src="http://127.0.0.1:9/"/><title>',
+            "iframe",
+            "<iframe> is refused in a map template",
+        ),
+        (
+            "<title>",
+            '<animate attributeName="d" to="M 0 0"/><title>',
+            "animate",
+            "<animate> is refused in a map template",
+        ),
+    ],
+)
+def test_absurd_sizes_and_active_content(
+    tmp_path: Path, old: str, new: str, field: str, rule: str
+) -> None:
+    path = variant(tmp_path, old, new)
+    problems = check_template(path)
+    assert [(p.field, p.rule) for p in problems] == [(field, rule)]
+
+
+@pytest.mark.parametrize("ok", [True, False])
+def test_root_size_boundary(tmp_path: Path, ok: bool) -> None:
+    size = "100000" if ok else "100000.5"
+    path = variant(tmp_path, 'width="400"', f'width="{size}px"')
+    assert (problem_lines(path) == []) is ok
+
+
+def test_too_many_elements_stop_the_reader(tmp_path: Path) -> None:
+    path = variant(tmp_path, "<title>", "<g/>" * (MAX_ELEMENTS + 1) + "<title>")
+    started = time.perf_counter()
+    problems = check_template(path)
+    assert time.perf_counter() - started < 5.0
+    assert [(p.field, p.rule) for p in problems] == [
+        ("g", f"more than {MAX_ELEMENTS} elements are refused")
+    ]
+
+
+def test_deep_nesting_is_refused(tmp_path: Path) -> None:
+    deep = "<g>" * MAX_DEPTH + "</g>" * MAX_DEPTH
+    path = variant(tmp_path, "<title>", deep + "<title>")
+    assert [(p.field, p.rule) for p in check_template(path)] == [
+        ("g", f"nesting deeper than {MAX_DEPTH} levels is refused")
+    ]
+    ok = variant(
+        tmp_path,
+        "<title>",
+        "<g>" * (MAX_DEPTH - 2) + "</g>" * (MAX_DEPTH - 2) + "<title>",
+        "ok.svg",
+    )
+    assert check_template(ok) == []
+
+
+def test_overlong_path_data_is_refused(tmp_path: Path) -> None:
+    row = next(r for r in SHIPPED.read_text(encoding="utf-8").splitlines() if "body-outline" in r)
+    long = row.replace(' Z"/>', " L 200 500" * (MAX_PATH_CHARS // 10) + ' Z"/>')
+    path = variant(tmp_path, row, long)
+    problems = check_template(path)
+    assert problems[0].field == "path[id=body-outline]"
+    assert problems[0].rule == f"path data longer than {MAX_PATH_CHARS} characters is refused"
+
+
+def test_a_vessel_outside_the_viewbox_is_reported(tmp_path: Path) -> None:
+    # The plantar arteries reach y = 906.0 on the shipped map; the tolerance is JOIN_TOLERANCE.
+    path = variant(tmp_path, 'viewBox="0 0 400 1000"', 'viewBox="0 0 400 904.4"')
+    lines = problem_lines(path)
+    assert lines == [
+        f"{path}:{line_of(path, f'{side}-PLA')}: vessels.{side}/PLA: bounds=({x0} 855.3 {x1} "
+        "906.0) must lie inside the viewBox (0 0 400 904.4) (move it onto the map or widen the "
+        "viewBox)"
+        for side, x0, x1 in (("right", "159.5", "163.5"), ("left", "236.5", "240.5"))
+    ]
+    inside_tolerance = variant(
+        tmp_path, 'viewBox="0 0 400 1000"', 'viewBox="0 0 400 904.6"', "ok.svg"
+    )
+    assert problem_lines(inside_tolerance) == []
