@@ -920,7 +920,21 @@ def test_covered_keys() -> None:
     assert len(covered_keys("bilateral-infrainguinal")) == 38
     assert covered_keys("right:POP-BK") == {
         anatomy.vessel_key("right", s)
-        for s in "POP-BK TPT PTA-P PTA-M PTA-D PLA PER-P PER-M PER-D ATA-P ATA-M ATA-D DPA".split()
+        for s in [
+            "POP-BK",
+            "TPT",
+            "PTA-P",
+            "PTA-M",
+            "PTA-D",
+            "PLA",
+            "PER-P",
+            "PER-M",
+            "PER-D",
+            "ATA-P",
+            "ATA-M",
+            "ATA-D",
+            "DPA",
+        ]
     }
 
 
