@@ -11,7 +11,7 @@ import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field, replace
 
-from diagram.anatomy import SEGMENT_IDS, Side, vessel_key
+from diagram.anatomy import SEGMENT_IDS, Side, ancestors, run_on, vessel_key
 from diagram.assess.results import Assessment, LesionResult, SegmentResult
 from diagram.errors import Problem, TemplateError
 from diagram.scene import (
@@ -168,25 +168,6 @@ def vessel_order(key: str) -> tuple[int, int, str]:
     return (index, 0 if side == "right" else 1, key)
 
 
-def vessel_of(template: Template, key: str) -> Vessel:
-    """Return the template's vessel ``key``; a template without it is refused."""
-    vessel = template.vessels.get(key)
-    if vessel is None:
-        raise TemplateError(
-            [
-                Problem(
-                    template.source,
-                    None,
-                    "vessels",
-                    key,
-                    "the map template has no vessel for this segment",
-                    "a map template must draw every segment of the arterial tree",
-                )
-            ]
-        )
-    return vessel
-
-
 def frame(vessel: Vessel, fit: Fit, s: float) -> tuple[Point, Point]:
     """Return the page point at arc length ``s`` and the unit normal there."""
     tx, ty = vessel.geometry.tangent_at(s)
@@ -215,26 +196,24 @@ def collect_labels(assessment: Assessment, template: Template, st: Style) -> lis
         limb = assessment.limbs.get(side)
         for lesion in limb.lesions if limb is not None else ():
             base = ("label", side.value, "lesion", lesion.index)
-            spans = lesion.spans
-            seg = spans[len(spans) // 2].segment if spans else lesion.at
-            vessel = vessel_of(template, vessel_key(side, seg))
-            frac = (
-                (spans[len(spans) // 2].start_frac + spans[len(spans) // 2].end_frac) / 2
-                if spans
-                else 0.5
-            )
-            add(
-                make_id(*base),
-                side,
-                "lesion",
-                vessel.key,
-                frac * vessel.geometry.length(),
-                lesion_label(lesion),
-                lesion.band,
-            )
+            # Anchor at the middle span the map draws (a lesion may run on off a partial map).
+            drawn = [
+                (sp, template.vessels[vessel_key(side, sp.segment)])
+                for sp in lesion.spans
+                if vessel_key(side, sp.segment) in template.vessels
+            ]
+            if drawn:
+                span, vessel = drawn[len(drawn) // 2]
+                s = (span.start_frac + span.end_frac) / 2 * vessel.geometry.length()
+            elif not lesion.spans and vessel_key(side, lesion.at) in template.vessels:
+                vessel = template.vessels[vessel_key(side, lesion.at)]
+                s = 0.5 * vessel.geometry.length()
+            else:
+                continue  # not on this map: listed in the notes
+            add(make_id(*base), side, "lesion", vessel.key, s, lesion_label(lesion), lesion.band)
             point = lesion.reconstitution
-            if point is not None:
-                rv = vessel_of(template, vessel_key(side, point.segment))
+            rv = template.vessels.get(vessel_key(side, point.segment)) if point else None
+            if point is not None and rv is not None:
                 add(
                     make_id(*base, "reconstitution"),
                     side,
@@ -245,8 +224,8 @@ def collect_labels(assessment: Assessment, template: Template, st: Style) -> lis
                     None,
                 )
     for key, res in sorted(segment_results(assessment).items(), key=lambda kv: vessel_order(kv[0])):
-        if res.psv is not None:
-            length = vessel_of(template, key).geometry.length()
+        if res.psv is not None and key in template.vessels:
+            length = template.vessels[key].geometry.length()
             add(
                 make_id("label", key),
                 res.side,
@@ -424,3 +403,81 @@ def margin_width(labels: Sequence[MarginLabel], margin: Side, columns: int) -> f
     """Return the width of one margin's label columns."""
     widest = max((lb.width for lb in labels if lb.margin is margin), default=0.0)
     return max(MIN_COLUMN_PT, columns * widest + (columns - 1) * COLUMN_GAP_PT)
+
+
+# --------------------------------------------------------------------------- partial maps
+
+
+def chain(first: str, last: str) -> tuple[str, ...]:
+    """Return the segments from ``first`` to ``last`` along the tree (both ends when unrelated)."""
+    inline = run_on(first)
+    if last in inline:
+        return inline[: inline.index(last) + 1]
+    up = ancestors(last)
+    if first in up:
+        return (*reversed(up[: up.index(first) + 1]), last)
+    return (first,) if first == last else (first, last)
+
+
+def not_drawn(assessment: Assessment, template: Template) -> list[str]:
+    """Return the notes naming findings on segments the map lacks (a partial template).
+
+    A template that holds none of the legs the study reports is refused.
+    """
+    legs = {v.side for v in template.vessels.values() if v.side}
+    found = {side: _findings(assessment, side) for side in Side}
+    reported = [side for side in Side if any(found[side].values())]
+    if reported and not legs & {side.value for side in reported}:
+        rule = "the map template draws neither leg the study reports"
+        hint = "use a map that holds the " + " and ".join(s.value for s in reported) + " leg"
+        raise TemplateError([Problem(template.source, None, "vessels", None, rule, hint)])
+    label = {b.id: b.label for b in assessment.bands}
+    results = sorted(segment_results(assessment).items(), key=lambda kv: vessel_order(kv[0]))
+    out: list[str] = []
+    for side in (Side.RIGHT, Side.LEFT):
+        leg = side.value
+        if leg not in legs and reported:
+            if side in reported:
+                counts = ", ".join(
+                    f"{n} {what}{'s' if n != 1 else ''}" for what, n in found[side].items() if n
+                )
+                out.append(f"not drawn: the {leg} leg ({counts}); this map has no {leg} leg")
+            continue
+        lost: list[str] = []
+        for key, res in results:
+            if res.side is side and res.assessed and key not in template.vessels:
+                where = res.segment if key == res.segment else f"{leg} {res.segment}"
+                lost.append(f"{where} {label.get(res.band, res.band)}")
+        limb = assessment.limbs.get(side)
+        for les in limb.lesions if limb else ():
+            off = [
+                p.segment for p in les.spans if vessel_key(side, p.segment) not in template.vessels
+            ]
+            if off or (not les.spans and not _on(template, side, les.at)):
+                part = f" (the part in {', '.join(off)})" if len(off) < len(les.spans) else ""
+                lost.append(f"{leg} {les.at} lesion{part}")
+        given = assessment.study.limb(side)
+        for what, devices in (("stent", given.stents), ("graft", given.grafts)):
+            for d in devices:
+                ends = (d.from_, d.to) if what == "graft" else chain(d.from_, d.to)
+                if not all(_on(template, side, seg) for seg in ends):
+                    lost.append(f"{leg} {what} {d.from_} to {d.to}")
+        if lost:
+            out.append("not drawn: " + "; ".join(lost) + " (not on this map)")
+    return out
+
+
+def _findings(assessment: Assessment, side: Side) -> dict[str, int]:
+    """Return how many findings of each kind the study reports for one leg."""
+    limb, given = assessment.limbs.get(side), assessment.study.limb(side)
+    assessed = [r for r in limb.segments.values() if r.assessed] if limb else []
+    return {
+        "segment": len(assessed),
+        "lesion": len(limb.lesions) if limb else 0,
+        "stent": len(given.stents),
+        "graft": len(given.grafts),
+    }
+
+
+def _on(template: Template, side: Side, segment: str) -> bool:
+    return vessel_key(side, segment) in template.vessels

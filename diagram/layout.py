@@ -12,28 +12,31 @@ from __future__ import annotations
 
 import math
 import re
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 
 from diagram import sheet
-from diagram.anatomy import Side, ancestors, run_on, vessel_key
+from diagram.anatomy import SEGMENTS, Side, vessel_key
+from diagram.assess.compare import BAND_CHANGES, SegmentChange, changed_segments
 from diagram.assess.results import Assessment, LesionResult
 from diagram.labels import (
     GUTTER_PT,
+    chain,
     choose_columns,
     frame,
     lesion_label,
     margin_width,
+    not_drawn,
     pack_1d,
     place_labels,
     segment_label,
     segment_results,
-    vessel_of,
     vessel_order,
 )
 from diagram.scene import (
     Anchor,
     Box,
+    CaseHeader,
     Circle,
     Fit,
     Group,
@@ -54,13 +57,12 @@ from diagram.sheet import (
     CAUTION,
     MARGIN_PT,
     PAGES,
-    PRESSURE_BOX_PT,
     VELOCITY_NOTE,
     PageSpec,
 )
 from diagram.style import NOT_ASSESSED, BandStyle, Style, default_style
+from diagram.tables import PRESSURE_SOURCES, Table, change_mark, change_table, planning_table
 from diagram.template import Template, Vessel
-from diagram.textmetrics import wrap
 
 __all__ = [
     "CAUTION",
@@ -75,6 +77,9 @@ __all__ = [
 ]
 
 SIDE_MARK_STRIP_PT = 16.0
+# Design margin, own choice: tables that would leave the map less than 45% of the page height
+# go to a further page, so the map stays large enough to read lesion extents.
+MIN_MAP_SHARE = 0.45
 STEP_PT = 2.0  # spacing of outline points along a vessel, on the page
 MIN_LESION_PT = 2.0  # shortest lesion still drawn visibly
 
@@ -235,7 +240,9 @@ def _draw_lesion(
     style = bands[band]
     stretch: list[tuple[Vessel, float, float]] = []
     for span in lesion.spans:
-        vessel = vessel_of(template, vessel_key(lesion.side, span.segment))
+        vessel = template.vessels.get(vessel_key(lesion.side, span.segment))
+        if vessel is None:  # not on this map: listed in the notes
+            continue
         length = vessel.geometry.length()
         s0, s1 = sorted((span.start_frac * length, span.end_frac * length))
         s0, s1 = _visible_span(max(0.0, s0), min(length, s1), length, fit)
@@ -254,7 +261,13 @@ def _draw_lesion(
         )
     if stretch:
         first, last = stretch[0], stretch[-1]
-        for end, (vessel, s) in (("start", (first[0], first[1])), ("end", (last[0], last[2]))):
+        ends = (
+            ("start", first[0], first[1], lesion.spans[0]),
+            ("end", last[0], last[2], lesion.spans[-1]),
+        )
+        for end, vessel, s, span in ends:
+            if vessel.segment != span.segment:
+                continue  # the lesion runs on off the map: no tick where the map ends
             hw = out.half_widths.get(vessel.key, _half_width(vessel, st))
             out.marks.append(
                 Line(
@@ -265,8 +278,9 @@ def _draw_lesion(
                 )
             )
     point = lesion.reconstitution
-    if point is not None:
-        vessel = vessel_of(template, vessel_key(lesion.side, point.segment))
+    vessel_back = template.vessels.get(vessel_key(lesion.side, point.segment)) if point else None
+    if point is not None and vessel_back is not None:
+        vessel = vessel_back
         s = point.start_frac * vessel.geometry.length()
         hw = out.half_widths.get(vessel.key, _half_width(vessel, st))
         (x, y), _ = frame(vessel, fit, s)
@@ -295,26 +309,21 @@ def _draw_lesion(
         )
 
 
-def _chain(first: str, last: str) -> tuple[str, ...]:
-    """Return the segments from ``first`` to ``last`` along the tree (both ends when unrelated)."""
-    inline = run_on(first)
-    if last in inline:
-        return inline[: inline.index(last) + 1]
-    up = ancestors(last)
-    if first in up:
-        return (*reversed(up[: up.index(first) + 1]), last)
-    return (first,) if first == last else (first, last)
-
-
 def _draw_stents(
     assessment: Assessment, side: Side, template: Template, fit: Fit, st: Style, out: _MapOut
 ) -> None:
     for i, stent in enumerate(assessment.study.limb(side).stents):
-        chain = _chain(stent.from_, stent.to)
-        vessels = [vessel_of(template, vessel_key(side, seg)) for seg in chain]
+        path = chain(stent.from_, stent.to)
+        vessels = [template.vessels.get(vessel_key(side, seg)) for seg in path]
         start_cm = stent.from_cm or 0.0
         left_cm = stent.length_cm if stent.length_cm is not None else math.inf
         for j, vessel in enumerate(vessels):
+            if vessel is None:  # off the map: its cm are counted in the template's terms below
+                seg = path[j]
+                left_cm -= SEGMENTS[seg].length_cm - (start_cm if j == 0 else 0.0)
+                if left_cm <= 0:
+                    break
+                continue
             length = vessel.geometry.length()
             per_cm = length / vessel.length_cm if vessel.length_cm > 0 else 0.0
             s0 = min(start_cm * per_cm, length) if j == 0 else 0.0
@@ -380,8 +389,10 @@ def _draw_grafts(
 ) -> None:
     outward = -1.0 if side is Side.RIGHT else 1.0  # the patient's right is the viewer's left
     for i, graft in enumerate(assessment.study.limb(side).grafts):
-        a = vessel_of(template, vessel_key(side, graft.from_))
-        b = vessel_of(template, vessel_key(side, graft.to))
+        a = template.vessels.get(vessel_key(side, graft.from_))
+        b = template.vessels.get(vessel_key(side, graft.to))
+        if a is None or b is None:  # an end off the map: listed in the notes
+            continue
         p0, _ = frame(a, fit, a.geometry.length() * 0.5)
         p3, _ = frame(b, fit, b.geometry.length() * 0.5)
         bulge = outward * (
@@ -438,6 +449,49 @@ def _register_bands(assessment: Assessment, st: Style, bands: dict[str, BandStyl
             _band(bands, st, les.band)
 
 
+def _change_marks(
+    assessment: Assessment,
+    template: Template,
+    fit: Fit,
+    map_box: Box,
+    half: dict[str, float],
+    st: Style,
+) -> list[Item]:
+    """Return the change symbol beside each segment whose band changed since the prior exam.
+
+    The symbol sits at the middle of the segment on the side facing the body's midline, away
+    from the margin labels' leader lines (which reach the outer edge).
+    """
+    comparison = assessment.comparison
+    if comparison is None:
+        return []
+    kinds = {(c.side, c.segment): c.change.value for c in comparison.segments}
+    mid_x = map_box.x + map_box.w / 2
+    out: list[Item] = []
+    for side, seg in changed_segments(comparison):
+        vessel = template.vessels.get(vessel_key(side, seg))
+        if vessel is None:
+            continue
+        (x, y), (nx, ny) = frame(vessel, fit, vessel.geometry.length() / 2)
+        if abs(nx) < 0.25:  # running across: above it
+            nx, ny = (nx, ny) if ny < 0 else (-nx, -ny)
+        elif (nx > 0) != (mid_x > x if seg != "AO" else True):
+            nx, ny = -nx, -ny
+        off = half.get(vessel.key, 3.0) + 1.5 + st.change_mark_pt / 2
+        base = make_id("change", vessel.key)
+        out.append(change_mark(base, kinds[(side, seg)], x + nx * off, y + ny * off, st))
+    return out
+
+
+def _tables(assessment: Assessment, bands: Mapping[str, BandStyle]) -> list[Table]:
+    out = []
+    if assessment.planning:
+        out.append(planning_table(assessment.planning, bands))
+    if assessment.comparison is not None:
+        out.append(change_table(assessment.comparison, bands))
+    return out
+
+
 def layout(
     assessment: Assessment,
     template: Template,
@@ -446,36 +500,65 @@ def layout(
     version: str,
     generated_note: str | None = None,
     style: Style | None = None,
+    case: CaseHeader | None = None,
 ) -> Scene:
-    """Lay out the sheet of one assessment on ``page`` ("a4", "letter" or "map")."""
+    """Lay out the sheet of one assessment on ``page`` ("a4", "letter" or "map").
+
+    ``case`` makes a teaching sheet: the header shows only the case. Tables that would leave
+    the map less than ``MIN_MAP_SHARE`` of the page continue on further pages (``Scene.more``).
+    """
     if page not in PAGES:
         raise ValueError(f"page {page!r} is not one of {', '.join(PAGES)}")
     spec = PAGES[page]
     st = style or default_style()
     bands = _bands(assessment, st)
+    _register_bands(assessment, st, bands)
+    missing = not_drawn(assessment, template)
     x0, x1 = MARGIN_PT, spec.width_pt - MARGIN_PT
-    top, bottom = MARGIN_PT, spec.height_pt - MARGIN_PT
+    top, bottom = MARGIN_PT, spec.height_pt - MARGIN_PT - sheet.footer_height(st)
 
     head: list[Item] = []
     if spec.furniture:
-        head, top = sheet.header(assessment, st, x0, x1, top)
-    foot, bottom = sheet.footer(assessment, version, generated_note, st, x0, x1, bottom)
-    caution_lines = [(t, False) for t in wrap(CAUTION, st.caution_pt, x1 - x0)]
-    caution, bottom = sheet.text_block(
-        "caution", caution_lines, st, st.caution_pt, x0, bottom - 2, st.text_ink
-    )
+        head, top = sheet.header(assessment, st, x0, x1, top, case)
+    caution, bottom = sheet.caution(st, x0, x1, bottom - 2)
     note_items: list[Item] = []
-    if spec.furniture:
-        note_items, bottom = sheet.notes(assessment, st, x0, x1, bottom - BLOCK_GAP_PT / 2)
-    _register_bands(assessment, st, bands)
-    with_pressures = sheet.pressure_sides(assessment)
-    reserve = PRESSURE_BOX_PT[1] + BLOCK_GAP_PT if with_pressures else 0.0
-    symbols = sheet.symbols_used(assessment)
+    if spec.furniture or missing:
+        note_items, bottom = sheet.notes(
+            assessment,
+            st,
+            x0,
+            x1,
+            bottom - BLOCK_GAP_PT / 2,
+            missing,
+            case,
+            warnings=spec.furniture,
+        )
+    tables = _tables(assessment, bands) if spec.furniture else []
+    changes = sorted({c.change.value for c in _changed(assessment)})
+    symbols = sheet.symbols_used(assessment, changes)
+    pressure_h = sheet.pressure_height(assessment, st, x0, x1)
+    strip = pressure_h + BLOCK_GAP_PT if pressure_h else 0.0
+    note = VELOCITY_NOTE + (" " + PRESSURE_SOURCES if pressure_h else "")
+    legend_h = -sheet.legend(list(bands.values()), symbols, st, x0, x1, 0.0, bands, note)[1]
+    room = bottom - 2 * BLOCK_GAP_PT - legend_h - strip - top - SIDE_MARK_STRIP_PT
+    need = sheet.tables_height(tables, x0, x1, st)
+    one_page = room - need >= MIN_MAP_SHARE * (spec.height_pt - 2 * MARGIN_PT)
+    table_items: list[Item] = []
+    more_pages: list[list[Item]] = []
+    if tables and one_page:
+        table_items, _ = sheet.place_tables(tables, x0, x1, bottom - need, st, bands)
+        bottom -= need
+    elif tables:
+        _, cont_top = sheet.header(assessment, st, x0, x1, MARGIN_PT, case, page_number=2)
+        page_bottom = spec.height_pt - MARGIN_PT - sheet.footer_height(st) - 2
+        cont_bottom = sheet.caution(st, x0, x1, page_bottom)[1] - BLOCK_GAP_PT
+        more_pages = sheet.flow_tables(tables, x0, x1, cont_top, cont_bottom, st, bands)
+        table_items, bottom = sheet.see_next_page(tables, st, x0, x1, bottom - BLOCK_GAP_PT / 2)
     key, legend_top = sheet.legend(
-        list(bands.values()), symbols, st, x0, x1, bottom - BLOCK_GAP_PT, bands
+        list(bands.values()), symbols, st, x0, x1, bottom - BLOCK_GAP_PT, bands, note
     )
     area_top = top + SIDE_MARK_STRIP_PT
-    area_bottom = legend_top - BLOCK_GAP_PT - reserve
+    area_bottom = legend_top - BLOCK_GAP_PT - strip
     labels, columns, label_st = choose_columns(assessment, template, st, area_bottom - area_top)
     widths = (
         margin_width(labels, Side.RIGHT, columns[Side.RIGHT]),
@@ -496,7 +579,7 @@ def layout(
         label_st,
         bands,
     )
-
+    change_items = _change_marks(assessment, template, fit, map_box, drawn.half_widths, st)
     silhouette = tuple(
         PathItem(
             make_id("silhouette", k),
@@ -507,51 +590,81 @@ def layout(
         )
         for k, d in enumerate(template.silhouette)
     )
-    mark_y = map_box.y - 3
-    side_marks = (
+    side_marks = tuple(
         Text(
-            "side-mark-right",
-            map_box.x + map_box.w * 0.25,
-            mark_y,
-            "R",
+            f"side-mark-{side.value}",
+            leg.x + leg.w / 2,
+            map_box.y - 3,
+            side.value[0].upper(),
             st.side_mark_pt,
             Weight.BOLD,
             Anchor.MIDDLE,
             st.muted_ink,
-        ),
-        Text(
-            "side-mark-left",
-            map_box.x + map_box.w * 0.75,
-            mark_y,
-            "L",
-            st.side_mark_pt,
-            Weight.BOLD,
-            Anchor.MIDDLE,
-            st.muted_ink,
-        ),
+        )
+        for side in (Side.RIGHT, Side.LEFT)
+        if (leg := drawn.boxes.get(side.value)) is not None
     )
     vessel_box = None
     for box in drawn.boxes.values():
         vessel_box = box if vessel_box is None else vessel_box.union(box)
-    regions = sheet.pressure_regions(
-        with_pressures, drawn.boxes, map_box, x0, x1, area_bottom + BLOCK_GAP_PT / 2
+    pressure_items, regions = sheet.pressure_boxes(
+        assessment,
+        drawn.boxes,
+        map_box,
+        (x0, x1, area_bottom + BLOCK_GAP_PT / 2, pressure_h),
+        st,
+        bands,
     )
-    items: list[Item] = [
-        Rect("page", 0, 0, spec.width_pt, spec.height_pt, fill="#FFFFFF"),
-        Group("header", tuple(head), role="header"),
+    count = 1 + len(more_pages)
+    foot, _ = sheet.footer(
+        assessment, version, generated_note, st, x0, x1, spec.height_pt - MARGIN_PT, (1, count)
+    )
+    map_groups = [
         Group("silhouette", silhouette, role="silhouette"),
         Group("vessels", tuple(drawn.tubes), role="vessels"),
         Group("lesions", tuple(drawn.lesions), role="lesions"),
         Group("devices", tuple(drawn.overlays), role="devices"),
         Group("marks", tuple(drawn.marks), role="marks"),
+    ]
+    items: list[Item] = [
+        Rect("page", 0, 0, spec.width_pt, spec.height_pt, fill="#FFFFFF"),
+        Group("header", tuple(head), role="header"),
+        *map_groups,
         Group("leaders", tuple(leaders), role="leaders"),
+        Group("changes", tuple(change_items), role="changes"),
         Group("labels", tuple(label_items), role="labels"),
         Group("side-marks", side_marks, role="side-marks"),
+        Group("pressures", tuple(pressure_items), role="pressures"),
         *key,
+        *table_items,
         Group("notes", tuple(note_items), role="notes"),
         Group("caution", tuple(caution), role="caution"),
         Group("footer", tuple(foot), role="footer"),
     ]
+    by_margin = {
+        side: [Rect(lb.id, *_xywh(lb.box)) for lb in label_boxes if lb.side == side.value]
+        for side in Side
+    }
+    blocks = sheet.blocks(
+        [
+            ("header", head),
+            ("map", [*map_groups, *change_items, *side_marks]),
+            ("labels-right", by_margin[Side.RIGHT]),
+            ("labels-left", by_margin[Side.LEFT]),
+            *((r.id, [Rect(r.id, *_xywh(r.box))]) for r in regions),
+            ("legend", key),
+            *((item.id, [item]) for item in table_items),
+            ("notes", note_items),
+            ("caution", caution),
+            ("footer", foot),
+        ]
+    )
+    rest = tuple(
+        sheet.continuation(
+            assessment, spec, st, bands, body, (n, count), version, generated_note, case
+        )
+        for n, body in enumerate(more_pages, start=2)
+    )
     return Scene(
         page=spec.name,
         width_pt=spec.width_pt,
@@ -564,4 +677,19 @@ def layout(
         vessel_box=vessel_box or map_box,
         label_boxes=tuple(label_boxes),
         pressure_regions=regions,
+        blocks=blocks,
+        page_number=1,
+        page_count=count,
+        more=rest,
     )
+
+
+def _xywh(box: Box) -> tuple[float, float, float, float]:
+    return box.x, box.y, box.w, box.h
+
+
+def _changed(assessment: Assessment) -> list[SegmentChange]:
+    comparison = assessment.comparison
+    if comparison is None:
+        return []
+    return [c for c in comparison.segments if c.change in BAND_CHANGES]

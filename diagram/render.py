@@ -8,7 +8,7 @@ definitions in page units, which cairosvg and rsvg-convert both paint.
 from __future__ import annotations
 
 import re
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from typing import TYPE_CHECKING, Any
 
 from diagram.scene import (
@@ -187,3 +187,40 @@ def render_svg(scene: Scene) -> str:
             sheet.add(el)
     dwg.add(sheet)
     return '<?xml version="1.0" encoding="utf-8"?>\n' + str(dwg.tostring()) + "\n"
+
+
+def render_pages(scene: Scene) -> tuple[str, ...]:
+    """Return the SVG text of every page of the sheet, page 1 first."""
+    return tuple(render_svg(page) for page in scene.pages())
+
+
+def pdf_from_svgs(svgs: Sequence[str]) -> bytes:
+    """Return one PDF with a page per SVG text, each page sized from its SVG.
+
+    CairoSVG converts one SVG to one PDF; here every page is drawn by CairoSVG's own surface
+    code onto one shared cairo PDF surface (resized per page), so a sheet of several pages
+    becomes a single document. CairoSVG runs in its safe mode: entities and every resource
+    that is not a ``data:`` URL are refused. The caller points fontconfig at the shipped
+    fonts first (``diagram.export`` does), as for a one-page PDF.
+    """
+    import io
+
+    import cairocffi
+    from cairosvg.parser import Tree
+    from cairosvg.surface import PDFSurface
+
+    if not svgs:
+        raise ValueError("a PDF needs at least one page")
+    out = io.BytesIO()
+    shared = cairocffi.PDFSurface(out, 1, 1)
+
+    class _Page(PDFSurface):  # type: ignore[misc]
+        def _create_surface(self, width: float, height: float) -> tuple[Any, float, float]:
+            shared.set_size(width, height)
+            return shared, width, height
+
+    for svg in svgs:
+        page = _Page(Tree(bytestring=svg.encode("utf-8"), unsafe=False), None, 96)
+        page.context.show_page()
+    shared.finish()
+    return out.getvalue()

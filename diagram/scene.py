@@ -190,7 +190,7 @@ class LabelBox:
 
 @dataclass(frozen=True)
 class Region:
-    """An area of the sheet kept free for a later stage (ankle pressure boxes)."""
+    """An area of the sheet that belongs to one leg (the ankle pressure boxes)."""
 
     id: str
     side: str
@@ -198,8 +198,20 @@ class Region:
 
 
 @dataclass(frozen=True)
+class Block:
+    """Where one top-level block of a page lies (header, map, legend, a table ...)."""
+
+    id: str
+    box: Box
+
+
+@dataclass(frozen=True)
 class Scene:
-    """A laid-out sheet."""
+    """A laid-out page of a sheet; page 1 carries the further pages in ``more``.
+
+    A sheet whose tables do not fit beside the map continues on further pages, each a Scene of
+    its own (``pages()`` lists them in order); every renderer draws each page separately.
+    """
 
     page: str  # "a4", "letter" or "map"
     width_pt: float
@@ -211,7 +223,15 @@ class Scene:
     map_box: Box  # where the template's viewBox sits on the page
     vessel_box: Box  # bounding box of the drawn vessels
     label_boxes: tuple[LabelBox, ...]
-    pressure_regions: tuple[Region, ...]  # empty when the study has no pressures
+    pressure_regions: tuple[Region, ...]  # the ankle pressure boxes; empty without pressures
+    blocks: tuple[Block, ...] = ()  # the top-level blocks, which never overlap
+    page_number: int = 1
+    page_count: int = 1
+    more: tuple[Scene, ...] = ()  # pages 2 .. page_count (on page 1 only)
+
+    def pages(self) -> tuple[Scene, ...]:
+        """Return every page of the sheet, this one first."""
+        return (self, *self.more)
 
     def walk(self) -> Iterator[Item]:
         """Yield every item, groups before their members, in paint order."""
@@ -260,3 +280,62 @@ class CaseHeader:
     year: int | None = None
     age: str | None = None  # whole years at the exam, or "90+"
     sex: str | None = None
+
+
+def _path_points(commands: tuple[PathCommand, ...]) -> list[Point]:
+    """Return the end and control points of a path, relative commands resolved."""
+    out: list[Point] = []
+    cx = cy = 0.0
+    for cmd, args in commands:
+        up, rel = cmd.upper(), cmd.islower()
+        if up == "H":
+            cx = args[0] + (cx if rel else 0.0)
+        elif up == "V":
+            cy = args[0] + (cy if rel else 0.0)
+        elif up == "A":
+            cx, cy = args[5] + (cx if rel else 0.0), args[6] + (cy if rel else 0.0)
+        elif up != "Z":
+            ox, oy = (cx, cy) if rel else (0.0, 0.0)
+            pairs = [(args[k] + ox, args[k + 1] + oy) for k in range(0, len(args) - 1, 2)]
+            out.extend(pairs[:-1])
+            cx, cy = pairs[-1]
+        out.append((cx, cy))
+    return out
+
+
+def bounds(item: Item) -> Box | None:
+    """Return the area ``item`` paints (strokes and text extents included), None if nothing."""
+    from diagram.textmetrics import line_extents, text_width
+
+    if isinstance(item, Group):
+        found = [b for b in (bounds(i) for i in item.items) if b is not None]
+        if not found:
+            return None
+        out = found[0]
+        for b in found[1:]:
+            out = out.union(b)
+        return out
+    if isinstance(item, Text):
+        bold = item.weight is Weight.BOLD
+        w = text_width(item.text, item.size, bold)
+        asc, desc = line_extents(item.size, bold)
+        shift = {Anchor.START: 0.0, Anchor.MIDDLE: w / 2, Anchor.END: w}[item.anchor]
+        return Box(item.x - shift, item.y - asc, w, asc + desc)
+    if isinstance(item, Rect):
+        pad = item.stroke_width / 2 if item.stroke != "none" else 0.0
+        return Box(item.x - pad, item.y - pad, item.w + 2 * pad, item.h + 2 * pad)
+    if isinstance(item, Circle):
+        r = item.r + (item.stroke_width / 2 if item.stroke != "none" else 0.0)
+        return Box(item.cx - r, item.cy - r, 2 * r, 2 * r)
+    if isinstance(item, PathItem):
+        points = _path_points(item.commands)
+        pad = item.stroke_width / 2 if item.stroke != "none" else 0.0
+    else:
+        points = list(item.points)
+        pad = item.stroke_width / 2 if item.stroke != "none" else 0.0
+    if not points:
+        return None
+    xs, ys = [p[0] for p in points], [p[1] for p in points]
+    return Box(
+        min(xs) - pad, min(ys) - pad, max(xs) - min(xs) + 2 * pad, max(ys) - min(ys) + 2 * pad
+    )

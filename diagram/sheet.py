@@ -13,7 +13,9 @@ from diagram.anatomy import Side
 from diagram.assess.results import Assessment
 from diagram.scene import (
     Anchor,
+    Block,
     Box,
+    CaseHeader,
     Circle,
     Group,
     Item,
@@ -22,17 +24,32 @@ from diagram.scene import (
     PathItem,
     Rect,
     Region,
+    Scene,
     Text,
     Weight,
+    bounds,
     make_id,
 )
+from diagram.study import Study
 from diagram.style import NOT_ASSESSED, BandStyle, Style
+from diagram.tables import (
+    CHANGE_WORDS,
+    Table,
+    box_height,
+    change_mark,
+    draw_box,
+    draw_table,
+    notes_height,
+    pressure_entries,
+    row_heights,
+    table_head_height,
+)
 from diagram.textmetrics import ellipsize, line_extents, text_width, wrap
 
 PT_PER_MM = 72.0 / 25.4
 MARGIN_PT = 10 * PT_PER_MM
 BLOCK_GAP_PT = 7.0
-PRESSURE_BOX_PT = (140.0, 34.0)
+PRESSURE_BOX_MAX_PT = 250.0
 
 CAUTION = (
     "Schematic aid for the report — not a substitute for the images or the interpreting "
@@ -66,43 +83,40 @@ PAGES: Mapping[str, PageSpec] = {
 # --------------------------------------------------------------------------- sheet furniture
 
 
-def header(
-    assessment: Assessment, st: Style, x0: float, x1: float, y: float
+KIND = "Lower-limb arterial duplex"
+
+
+def _title_line(
+    title: str | None, right: str, st: Style, x0: float, x1: float, y: float
 ) -> tuple[list[Item], float]:
-    """Return the header items and the y below them; each field only when the study has it."""
-    study = assessment.study
-    items: list[Item] = []
+    """Return a bold title at the left and a muted note at the right; the y below them."""
     asc, desc = line_extents(st.header_title_pt, True)
     baseline = y + asc
-    kind = "Lower-limb arterial duplex"
-    items.append(
-        Text("header-kind", x1, baseline, kind, st.header_pt, anchor=Anchor.END, fill=st.muted_ink)
-    )
-    if study.exam.site:
-        room = x1 - x0 - text_width(kind, st.header_pt) - 12
+    items: list[Item] = [
+        Text("header-kind", x1, baseline, right, st.header_pt, anchor=Anchor.END, fill=st.muted_ink)
+    ]
+    if title:
+        room = x1 - x0 - text_width(right, st.header_pt) - 12
+        shown = ellipsize(title, st.header_title_pt, room, True)
         items.append(
             Text(
                 "header-site",
                 x0,
                 baseline,
-                ellipsize(study.exam.site, st.header_title_pt, room, True),
+                shown,
                 st.header_title_pt,
                 Weight.BOLD,
                 fill=st.text_ink,
             )
         )
-    y = baseline + desc + 2
-    p, e = study.patient, study.exam
-    rows = (
-        (
-            ("Patient", p.name),
-            ("ID", p.id),
-            ("Born", p.birth_date.isoformat() if p.birth_date else None),
-            ("Sex", p.sex),
-        ),
-        (("Exam", e.date.isoformat() if e.date else None), ("Accession", e.accession)),
-        (("Indication", e.indication),),
-    )
+    return items, baseline + desc + 2
+
+
+def _fields(
+    rows: Sequence[Sequence[tuple[str, str | None]]], st: Style, x0: float, x1: float, y: float
+) -> tuple[list[Item], float]:
+    """Return rows of "name value" pairs (only those with a value), wrapping at ``x1``."""
+    items: list[Item] = []
     h_asc, h_desc = line_extents(st.header_pt)
     line_h = h_asc + h_desc + 1.5
     for r, row in enumerate(rows):
@@ -139,9 +153,54 @@ def header(
             )
             x += name_w + text_width(shown, st.header_pt, True) + 14
         y += line_h
+    return items, y
+
+
+def _rule(items: list[Item], st: Style, x0: float, x1: float, y: float) -> tuple[list[Item], float]:
     y += 2
     items.append(Line("header-rule", ((x0, y), (x1, y)), st.rule_ink, 0.5))
     return items, y + BLOCK_GAP_PT
+
+
+def header(
+    assessment: Assessment,
+    st: Style,
+    x0: float,
+    x1: float,
+    y: float,
+    case: CaseHeader | None = None,
+    *,
+    page_number: int = 1,
+) -> tuple[list[Item], float]:
+    """Return the header items and the y below them; each field only when the study has it.
+
+    With ``case`` (a teaching sheet) only the case id, year, age and sex are shown. A further
+    page repeats who the sheet is about on one line (and ``page_number`` says it continues).
+    """
+    more = page_number > 1
+    right = KIND if not more else f"{KIND} · continued"
+    if case is not None:
+        items, y = _title_line(f"Teaching case {case.case_id}", right, st, x0, x1, y)
+        row = (
+            ("Year", None if case.year is None else str(case.year)),
+            ("Age", case.age),
+            ("Sex", case.sex),
+        )
+        fields, y = _fields((row,), st, x0, x1, y)
+        return _rule(items + fields, st, x0, x1, y)
+    study = assessment.study
+    p, e = study.patient, study.exam
+    items, y = _title_line(study.exam.site, right, st, x0, x1, y)
+    who = (
+        ("Patient", p.name),
+        ("ID", p.id),
+        ("Born", p.birth_date.isoformat() if p.birth_date else None),
+        ("Sex", p.sex),
+    )
+    exam = (("Exam", e.date.isoformat() if e.date else None), ("Accession", e.accession))
+    rows = ((*who[:3], exam[0]),) if more else (who, exam, (("Indication", e.indication),))
+    fields, y = _fields(rows, st, x0, x1, y)
+    return _rule(items + fields, st, x0, x1, y)
 
 
 def text_block(
@@ -180,9 +239,13 @@ def footer(
     x0: float,
     x1: float,
     bottom: float,
+    page: tuple[int, int] = (1, 1),
 ) -> tuple[list[Item], float]:
+    """Return the footer (criteria sets at the left; page, note and version at the right)."""
     asc, desc = line_extents(st.small_pt)
     right = f"limbchart {version}" if not note else f"{note} · limbchart {version}"
+    if page[1] > 1:
+        right = f"page {page[0]} of {page[1]} · {right}"
     right_w = text_width(right, st.small_pt)
     sets = assessment.criteria_used or ((assessment.criteria_name, assessment.criteria_title, ""),)
     left = "Criteria: " + "; ".join(f"{title} ({name})" for name, title, _ in sets)
@@ -196,20 +259,61 @@ def footer(
     ], bottom - asc - desc
 
 
+def _free_text(study: Study) -> list[str]:
+    """Return the study's own words (identifiers, notes, comments) a teaching sheet never shows."""
+    p, e = study.patient, study.exam
+    words = [p.name, p.id, e.accession, e.site, e.operator, e.referrer, e.indication, study.notes]
+    words += [e.study_uid]
+    for limb in study.limbs.values():
+        words += [f.comment for f in limb.segments.values()]
+        words += [les.comment for les in limb.lesions]
+    return sorted({w.strip() for w in words if w and len(w.strip()) >= 3})
+
+
+def footer_height(st: Style) -> float:
+    """Return the height of the footer line."""
+    asc, desc = line_extents(st.small_pt)
+    return asc + desc
+
+
+def caution(st: Style, x0: float, x1: float, bottom: float) -> tuple[list[Item], float]:
+    """Return the fixed caution, set to end at ``bottom``, and its top."""
+    lines = [(t, False) for t in wrap(CAUTION, st.caution_pt, x1 - x0)]
+    return text_block("caution", lines, st, st.caution_pt, x0, bottom, st.text_ink)
+
+
 def notes(
-    assessment: Assessment, st: Style, x0: float, x1: float, bottom: float
+    assessment: Assessment,
+    st: Style,
+    x0: float,
+    x1: float,
+    bottom: float,
+    extra: Sequence[str] = (),
+    case: CaseHeader | None = None,
+    *,
+    warnings: bool = True,
 ) -> tuple[list[Item], float]:
-    """Return the measurement notes (first few warnings, then a count of the rest)."""
-    warnings = assessment.warnings
-    if not warnings:
+    """Return the measurement notes: ``extra`` lines in full, the first few warnings, a count.
+
+    A teaching sheet (``case``) leaves out any line that quotes the study's own text.
+    """
+    messages = [f.message for f in assessment.warnings] if warnings else []
+    withheld = 0
+    if case is not None:
+        quoted = _free_text(assessment.study)
+        kept = [m for m in messages if not any(q.casefold() in m.casefold() for q in quoted)]
+        withheld, messages = len(messages) - len(kept), kept
+    if not messages and not extra and not withheld:
         return [], bottom
-    shown = warnings[: st.max_warnings]
+    shown = messages[: st.max_warnings]
     lines: list[tuple[str, bool]] = [("Measurement notes", True)]
-    for finding in shown:
-        wrapped = wrap(finding.message, st.small_pt, x1 - x0 - 10)
+    for message in (*extra, *shown):
+        wrapped = wrap(message, st.small_pt, x1 - x0 - 10)
         lines.extend((("• " if k == 0 else "  ") + text, False) for k, text in enumerate(wrapped))
-    if len(warnings) > len(shown):
-        lines.append((f"+{len(warnings) - len(shown)} more in the results file", False))
+    if len(messages) > len(shown):
+        lines.append((f"+{len(messages) - len(shown)} more in the results file", False))
+    if withheld:
+        lines.append((f"{withheld} note(s) left out: they quote the study's own text", False))
     items, top = text_block("notes", lines, st, st.small_pt, x0, bottom, st.warning_ink)
     return items, top
 
@@ -249,6 +353,8 @@ def _symbol(
             Line(f"{base}-a", zig, st.stent_ink, st.stent_pt),
             Line(f"{base}-b", zag, st.stent_ink, st.stent_pt),
         ]
+    elif kind in CHANGE_WORDS:
+        return change_mark(base, kind, x + w / 2, mid, st)
     else:  # graft
         cmds: tuple[PathCommand, ...] = (("M", (x, mid)), ("L", (x + w, mid)))
         parts = [
@@ -258,11 +364,12 @@ def _symbol(
     return Group(base, tuple(parts), role="legend-symbol")
 
 
-SYMBOL_LABELS = {
+SYMBOL_LABELS: Mapping[str, str] = {
     "ticks": "lesion extent",
     "reconstitution": "reconstitution",
     "stent": "stent",
     "graft": "bypass graft",
+    **CHANGE_WORDS,
 }
 
 
@@ -274,8 +381,9 @@ def legend(
     x1: float,
     bottom: float,
     all_bands: Mapping[str, BandStyle],
+    note: str = VELOCITY_NOTE,
 ) -> tuple[list[Item], float]:
-    """Return the legend (band swatches, symbols in use, velocity note) ending at ``bottom``."""
+    """Return the legend (band swatches, symbols in use, ``note``) ending at ``bottom``."""
     sw_w, sw_h, row_h = 22.0, 9.0, 14.0
     entries = [("band", b.id, b.label) for b in bands]
     entries += [("symbol", kind, SYMBOL_LABELS[kind]) for kind in symbols]
@@ -287,9 +395,14 @@ def legend(
             row, x = row + 1, x0
         placed.append((row, x, entry))
         x += w
-    note = wrap(VELOCITY_NOTE, st.small_pt, x1 - x0)
     note_items, note_top = text_block(
-        "legend-note", [(t, False) for t in note], st, st.small_pt, x0, bottom, st.muted_ink
+        "legend-note",
+        [(t, False) for t in wrap(note, st.small_pt, x1 - x0)],
+        st,
+        st.small_pt,
+        x0,
+        bottom,
+        st.muted_ink,
     )
     top = note_top - 2 - (row + 1) * row_h
     items: list[Item] = []
@@ -326,10 +439,8 @@ def legend(
     return [rule, Group("legend", (*items, *note_items), role="legend")], top - 3
 
 
-# --------------------------------------------------------------------------- ankle pressures
-
-
-def symbols_used(assessment: Assessment) -> list[str]:
+def symbols_used(assessment: Assessment, changes: Sequence[str] = ()) -> list[str]:
+    """Return the map symbols in use, in legend order (``changes``: change kinds marked)."""
     lesions = [les for limb in assessment.limbs.values() for les in limb.lesions]
     limbs = [assessment.study.limb(side) for side in (Side.RIGHT, Side.LEFT)]
     used = {
@@ -338,41 +449,214 @@ def symbols_used(assessment: Assessment) -> list[str]:
         "stent": any(limb.stents for limb in limbs),
         "graft": any(limb.grafts for limb in limbs),
     }
-    return [kind for kind in SYMBOL_LABELS if used[kind]]
+    return [kind for kind in SYMBOL_LABELS if used.get(kind) or kind in changes]
 
 
-def pressure_sides(assessment: Assessment) -> list[Side]:
+# --------------------------------------------------------------------------- ankle pressures
+
+
+def has_pressures(assessment: Assessment) -> bool:
+    """Return True when any ankle or toe pressure was measured (both legs then get a box)."""
     pressures = assessment.study.pressures
-    return [
-        side
+    return any(
+        v is not None
         for side in (Side.RIGHT, Side.LEFT)
-        if any(
-            v is not None
-            for v in (pressures.limb(side).pt, pressures.limb(side).dp, pressures.limb(side).toe)
-        )
-    ]
+        for v in (pressures.limb(side).pt, pressures.limb(side).dp, pressures.limb(side).toe)
+    )
 
 
-def pressure_regions(
-    sides: Sequence[Side], drawn: Mapping[str, Box], map_box: Box, x0: float, x1: float, top: float
-) -> tuple[Region, ...]:
-    """Reserve a box under each ankle that has pressures (filled by a later stage)."""
-    w, h = PRESSURE_BOX_PT
+def pressure_box_width(x0: float, x1: float) -> float:
+    """Return the width of one leg's pressure box: up to half the page, less a gap."""
+    return min(PRESSURE_BOX_MAX_PT, (x1 - x0) / 2 - 4)
+
+
+def pressure_height(assessment: Assessment, st: Style, x0: float, x1: float) -> float:
+    """Return the height of the ankle pressure strip (0 without pressures)."""
+    if not has_pressures(assessment):
+        return 0.0
+    width = pressure_box_width(x0, x1)
+    return max(
+        box_height(pressure_entries(assessment.indices.get(side)), width, st)
+        for side in (Side.RIGHT, Side.LEFT)
+    )
+
+
+def pressure_boxes(
+    assessment: Assessment,
+    drawn: Mapping[str, Box],
+    map_box: Box,
+    span: tuple[float, float, float, float],
+    st: Style,
+    bands: Mapping[str, BandStyle],
+) -> tuple[list[Item], tuple[Region, ...]]:
+    """Return each leg's pressure box, under its ankle, in ``span`` (x0, x1, top, height)."""
+    x0, x1, top, height = span
+    if not height:
+        return [], ()
+    width = pressure_box_width(x0, x1)
     mid = (x0 + x1) / 2
-    out = []
-    for side in sides:
+    items: list[Item] = []
+    regions = []
+    for side in (Side.RIGHT, Side.LEFT):
         leg = drawn.get(side.value)
         centre = (
             leg.x + leg.w / 2
             if leg
             else map_box.x + map_box.w * (0.25 if side is Side.RIGHT else 0.75)
         )
-        lo, hi = (x0, mid - 3) if side is Side.RIGHT else (mid + 3, x1)
-        width = min(w, hi - lo)
+        lo, hi = (x0, mid - 4) if side is Side.RIGHT else (mid + 4, x1)
         x = _clamp(centre - width / 2, lo, hi - width)
-        out.append(Region(make_id("pressure", side.value), side.value, Box(x, top, width, h)))
-    return tuple(out)
+        box = Box(x, top, width, height)
+        base = make_id("pressure", side.value)
+        entries = pressure_entries(assessment.indices.get(side))
+        title = f"{side.value.capitalize()} leg"
+        items += draw_box(base, title, entries, box, st, bands)
+        regions.append(Region(base, side.value, box))
+    return items, tuple(regions)
 
 
 def _clamp(v: float, lo: float, hi: float) -> float:
     return lo if hi < lo else min(max(v, lo), hi)
+
+
+# --------------------------------------------------------------------------- tables on the page
+
+
+def tables_height(tables: Sequence[Table], x0: float, x1: float, st: Style) -> float:
+    """Return the height the tables take set one under the other (with the gaps between)."""
+    total = 0.0
+    for table in tables:
+        rows = sum(row_heights(table, x0, x1, st))
+        total += table_head_height(st) + rows + notes_height(table, x0, x1, st) + BLOCK_GAP_PT
+    return total
+
+
+def place_tables(
+    tables: Sequence[Table],
+    x0: float,
+    x1: float,
+    top: float,
+    st: Style,
+    bands: Mapping[str, BandStyle],
+) -> tuple[list[Item], float]:
+    """Return the tables set one under the other from ``top``, and the y below the last."""
+    items: list[Item] = []
+    y = top
+    for table in tables:
+        more, y = draw_table(table, range(len(table.rows)), x0, x1, y, st, bands, with_notes=True)
+        items += more
+        y += BLOCK_GAP_PT
+    return items, y
+
+
+def flow_tables(
+    tables: Sequence[Table],
+    x0: float,
+    x1: float,
+    top: float,
+    bottom: float,
+    st: Style,
+    bands: Mapping[str, BandStyle],
+) -> list[list[Item]]:
+    """Return the tables set on as many pages as they need (rows kept whole), page by page."""
+    pages: list[list[Item]] = [[]]
+    y = top
+    for table in tables:
+        heights = row_heights(table, x0, x1, st)
+        foot = notes_height(table, x0, x1, st)
+        head = table_head_height(st)
+        i, continued = 0, False
+        while i < len(heights):
+            room = bottom - y - head
+            j, used = i, 0.0
+            while j < len(heights) and used + heights[j] <= room:
+                used, j = used + heights[j], j + 1
+            if j == len(heights) and used + foot > room and j - i > 1:
+                j -= 1  # keep the last row with the table's notes
+            if j == i and pages[-1]:
+                pages.append([])
+                y = top
+                continue
+            j = max(j, i + 1)  # a row taller than a page is set anyway
+            last = j == len(heights)
+            items, y = draw_table(
+                table, range(i, j), x0, x1, y, st, bands, with_notes=last, continued=continued
+            )
+            pages[-1] += items
+            y += BLOCK_GAP_PT
+            i, continued = j, True
+    return pages
+
+
+def see_next_page(
+    tables: Sequence[Table], st: Style, x0: float, x1: float, bottom: float
+) -> tuple[list[Item], float]:
+    """Return the line that sends the reader to page 2 for the tables, ending at ``bottom``."""
+    names = {"planning": "planning summary", "changes": "change since the prior exam"}
+    what = " and ".join(names.get(t.id, t.id) for t in tables)
+    line = [(f"{what[0].upper()}{what[1:]}: page 2.", True)]
+    items, top = text_block("next-page", line, st, st.table_pt, x0, bottom, st.text_ink)
+    return [Group("next-page", tuple(items), role="next-page")], top
+
+
+# --------------------------------------------------------------------------- pages
+
+
+def blocks(named: Sequence[tuple[str, Sequence[Item]]]) -> tuple[Block, ...]:
+    out = []
+    for name, items in named:
+        found = bounds(Group(name, tuple(items)))
+        if found is not None:
+            out.append(Block(name, found))
+    return tuple(out)
+
+
+def continuation(
+    assessment: Assessment,
+    spec: PageSpec,
+    st: Style,
+    bands: Mapping[str, BandStyle],
+    body: list[Item],
+    page: tuple[int, int],
+    version: str,
+    generated_note: str | None,
+    case: CaseHeader | None,
+) -> Scene:
+    """Return a further page: a short header, the tables that did not fit, caution and footer."""
+    x0, x1 = MARGIN_PT, spec.width_pt - MARGIN_PT
+    head, _ = header(assessment, st, x0, x1, MARGIN_PT, case, page_number=page[0])
+    bottom = spec.height_pt - MARGIN_PT
+    foot, _ = footer(assessment, version, generated_note, st, x0, x1, bottom, page)
+    warn, _ = caution(st, x0, x1, bottom - footer_height(st) - 2)
+    items: list[Item] = [
+        Rect("page", 0, 0, spec.width_pt, spec.height_pt, fill="#FFFFFF"),
+        Group("header", tuple(head), role="header"),
+        *body,
+        Group("caution", tuple(warn), role="caution"),
+        Group("footer", tuple(foot), role="footer"),
+    ]
+    found = blocks(
+        [
+            ("header", head),
+            *((item.id, [item]) for item in body),
+            ("caution", warn),
+            ("footer", foot),
+        ]
+    )
+    empty = Box(0, 0, 0, 0)
+    return Scene(
+        page=spec.name,
+        width_pt=spec.width_pt,
+        height_pt=spec.height_pt,
+        unit=spec.unit,
+        font_family=st.font_family,
+        bands=tuple(bands.values()),
+        items=tuple(items),
+        map_box=empty,
+        vessel_box=empty,
+        label_boxes=(),
+        pressure_regions=(),
+        blocks=found,
+        page_number=page[0],
+        page_count=page[1],
+    )

@@ -126,6 +126,12 @@ class Style:
     rule_ink: str = "#9A9A9A"
     warning_ink: str = "#7A2E00"
     max_warnings: int = 6
+    table_pt: float = 7.0  # values in the pressure boxes and tables; their basis in small_pt
+    table_rule_ink: str = "#CFCFCA"
+    box_fill: str = "#FBFBF9"
+    # Change since the prior exam: one dark ink (reads in greyscale); the shape tells the kind.
+    change_ink: str = "#7C1A10"
+    change_mark_pt: float = 7.0
 
     def band_map(self) -> Mapping[str, BandStyle]:
         """Return the band styles by id."""

@@ -10,6 +10,7 @@ from typing import Any
 import pytest
 
 from diagram.anatomy import SEGMENTS, Side, run_on, vessel_key
+from diagram.assess.indices import limb_indices
 from diagram.assess.results import (
     Assessment,
     BandDef,
@@ -210,8 +211,10 @@ def crowded(**pressures: LimbPressures) -> Assessment:
         )
         for k in range(9)
     )
+    measured = study(**pressures)
     return Assessment(
-        study=study(**pressures),
+        study=measured,
+        indices={side: limb_indices(measured.pressures, side) for side in Side},
         criteria_name="native",
         criteria_title="Native arteries, velocity ratio",
         criteria_source="test",
@@ -442,13 +445,75 @@ def test_occlusion_reconstitution_and_ticks(template: Template) -> None:
     assert "reconst." in texts(scene)
 
 
-def test_template_without_a_needed_vessel_is_refused(template: Template) -> None:
+def part_of(template: Template, keep: Any) -> Template:
+    """Return a template holding only the vessels ``keep(vessel)`` accepts (a partial map)."""
+    vessels = {k: v for k, v in template.vessels.items() if keep(v)}
+    return Template("part", "part.svg", template.viewbox, vessels, template.silhouette)
+
+
+def test_a_missing_vessel_is_listed_not_refused(template: Template) -> None:
+    part = part_of(template, lambda v: v.key != "left/PER-M")
+    scene = layout(crowded(), part, version="0.0.0")
+    ids = {i.id for i in scene.walk()}
+    assert not any(i.startswith("vessel-left_PER-M") for i in ids)
+    # left lesion 3 is a PER-M stenosis: not drawn, and said so
+    assert "lesion-left-3-span-0" not in ids
+    assert "• not drawn: left PER-M lesion (not on this map)" in texts(scene)
+    assert not any(lb.target == "left/PER-M" for lb in scene.label_boxes)
+
+
+def test_one_leg_map_draws_that_leg_and_lists_the_other(template: Template) -> None:
+    below_groin = set(SEGMENTS) - {"AO", "CIA", "IIA", "EIA"}
+    part = part_of(template, lambda v: v.side == "right" and v.segment in below_groin)
+    scene = layout(crowded(), part, version="0.0.0")
+    tubes = [i for i in scene.walk() if isinstance(i, Polygon) and i.id.startswith("vessel-")]
+    assert len(tubes) == len(below_groin)
+    assert all(lb.side == "right" and lb.target in part.vessels for lb in scene.label_boxes)
+    shown = texts(scene)
+    # crowded(): 17 of the left leg's 22 segments assessed, 4 lesions, a vein graft
+    assert (
+        "• not drawn: the left leg (17 segments, 4 lesions, 1 graft); this map has no left leg"
+        in shown
+    )
+    # above this map's top (the CFA): the aorta, the right iliac samples and the EIA stenosis
+    assert (
+        "• not drawn: AO Normal; right CIA <50%; right IIA 50-74%; right EIA lesion (not on this map)"
+        in shown
+    )
+    # the right SFA occlusion is drawn whole, with both ticks and its reconstitution
+    ids = {i.id for i in scene.walk()}
+    assert {"lesion-right-1-tick-start", "lesion-right-1-tick-end"} <= ids
+    assert "side-mark-right" in ids and "side-mark-left" not in ids
+
+
+def test_a_lesion_running_off_the_map_has_no_tick_where_the_map_ends(template: Template) -> None:
+    from dataclasses import replace
+
+    a = crowded()
+    run_in = lesion(Side.RIGHT, 0, "EIA", "50-74", from_cm=8, length_cm=4, psv=330, vr=3.1)
+    right = replace(a.limbs[Side.RIGHT], lesions=(run_in,))
+    part = part_of(template, lambda v: v.side == "right" and v.segment not in ("CIA", "IIA", "EIA"))
+    scene = layout(replace(a, limbs={**a.limbs, Side.RIGHT: right}), part, version="x")
+    ids = {i.id for i in scene.walk()}
+    assert "lesion-right-0-span-0" in ids  # the 2 cm in the CFA
+    assert "lesion-right-0-tick-end" in ids and "lesion-right-0-tick-start" not in ids
+    assert "right EIA lesion (the part in EIA)" in " ".join(texts(scene))
+
+
+def test_a_map_without_the_studys_legs_is_refused(template: Template) -> None:
+    from dataclasses import replace
+
     from diagram.errors import TemplateError
 
-    vessels = {k: v for k, v in template.vessels.items() if k != "left/PER-M"}
-    broken = Template("broken", "broken.svg", template.viewbox, vessels, template.silhouette)
-    with pytest.raises(TemplateError, match="left/PER-M"):
-        layout(crowded(), broken, version="0.0.0")
+    a = crowded()
+    limbs = {Side.LEFT: Limb(Side.LEFT, grafts=a.study.limb(Side.LEFT).grafts)}
+    left_only = replace(
+        a, study=replace(a.study, limbs=limbs), limbs={Side.LEFT: a.limbs[Side.LEFT]}
+    )
+    right_map = part_of(template, lambda v: v.side == "right")
+    with pytest.raises(TemplateError, match="draws neither leg the study reports"):
+        layout(left_only, right_map, version="0.0.0")
+    layout(left_only, part_of(template, lambda v: v.side == "left"), version="0.0.0")
 
 
 # ----------------------------------------------------------------------------- sheet furniture
@@ -538,15 +603,20 @@ def test_legend_leaves_out_symbols_not_in_use(template: Template) -> None:
         assert label not in shown
 
 
-def test_pressure_regions_only_with_pressures(template: Template) -> None:
+def test_pressure_boxes_only_with_ankle_or_toe_pressures(template: Template) -> None:
     assert layout(crowded(), template, version="x").pressure_regions == ()
     scene = layout(crowded(right=LimbPressures(120, 110, 80)), template, version="x")
-    (region,) = scene.pressure_regions
-    assert region.side == "right"
-    assert region.box.x + region.box.w <= scene.width_pt / 2  # under the viewer's left leg
-    assert region.box.y >= scene.map_box.bottom
+    right, left = scene.pressure_regions  # a leg without pressures says "not measured"
+    assert (right.side, left.side) == ("right", "left")
+    assert right.box.right <= scene.width_pt / 2 <= left.box.x  # the right leg on the viewer's left
+    assert right.box.y >= scene.map_box.bottom
     for lb in scene.label_boxes:
-        assert not lb.box.intersects(region.box)
+        assert not lb.box.intersects(right.box) and not lb.box.intersects(left.box)
+    shown = texts(scene)
+    # 120 / 142 = 0.845 -> 0.85, abnormal (<= 0.90), mild-moderate: 2016 AHA/ACC PAD guideline
+    assert "ABI 0.85 abnormal, mild\u2013moderate" in shown
+    assert "· PT 120 / brachial 142 mmHg" in shown  # the basis beside the value
+    assert "ABI not measured" in shown and "· no ankle pressure" in shown
 
 
 def test_band_of_another_set_is_drawn_with_its_look(template: Template) -> None:
