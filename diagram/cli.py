@@ -269,6 +269,16 @@ def schema(results: bool) -> None:
     click.echo(json.dumps(study_schema(), indent=2))
 
 
+def _register() -> None:
+    """Add the commands defined beside their stages (their heavy imports stay inside them)."""
+    from diagram.teach_cli import teach
+
+    cli.add_command(teach)
+
+
+_register()
+
+
 class Interrupted(KeyboardInterrupt):
     """A stop signal (SIGINT or SIGTERM) taking the Ctrl-C path; ``signum`` says which."""
 
