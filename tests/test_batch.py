@@ -24,8 +24,8 @@ def run(args: list[str], capsys: pytest.CaptureFixture[str]) -> tuple[int, str]:
 def inputs(tmp_path: Path) -> Path:
     folder = tmp_path / "in"
     folder.mkdir()
-    for p in sorted(EXAMPLES.glob("*.yaml")):
-        shutil.copy(p, folder / p.name)
+    for name in ("claudicant-sfa.yaml", "multilevel-occlusion.yaml", "normal.yaml"):
+        shutil.copy(EXAMPLES / name, folder / name)
     (folder / "zz-broken.yaml").write_text(
         "format: 1\nlimbs: {left: {segments: {SFA-X: {psv: 9}}}}\n"
     )
