@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import contextlib
 import importlib.util
+import itertools
 import math
 import os
 import re
@@ -1233,3 +1234,130 @@ def test_a_vessel_outside_the_viewbox_is_reported(tmp_path: Path) -> None:
         tmp_path, 'viewBox="0 0 400 1000"', 'viewBox="0 0 400 904.6"', "ok.svg"
     )
     assert problem_lines(inside_tolerance) == []
+
+
+# --------------------------------------------------------------------------- the commands
+
+
+def run(args: list[str], capsys: pytest.CaptureFixture[str]) -> tuple[int, str, str]:
+    from diagram.cli import cli, main
+    from diagram.design_cli import COMMANDS
+
+    for command in COMMANDS:
+        cli.add_command(command)
+    with pytest.raises(SystemExit) as done:
+        main(args)
+    out = capsys.readouterr()
+    return int(done.value.code or 0), out.out, out.err
+
+
+@pytest.mark.parametrize("name", ["bilateral", str(SHIPPED), "infrainguinal-right"])
+def test_template_check_ok(name: str, capsys: pytest.CaptureFixture[str]) -> None:
+    code, out, err = run(["template", "check", name], capsys)
+    assert (code, err) == (0, "")
+    assert out.startswith("ok: ") and out.count("\n") == 1
+    assert "joins within 1.5 units" in out
+
+
+def test_template_check_reports_each_problem_and_exits_2(
+    capsys: pytest.CaptureFixture[str],
+) -> None:
+    path = FIXTURES / "swapped-sides.svg"
+    code, out, err = run(["template", "check", str(path)], capsys)
+    assert (code, out) == (2, "")
+    assert err.splitlines() == problem_lines(path)
+    assert len(err.splitlines()) == 44
+
+
+def test_template_check_of_a_hostile_file(capsys: pytest.CaptureFixture[str]) -> None:
+    path = FIXTURES / "billion-laughs.svg"
+    code, out, err = run(["template", "check", str(path)], capsys)
+    assert (code, out) == (2, "")
+    assert err == (
+        f"{path}:2: <!DOCTYPE>: DTDs, entity declarations and external entities are refused "
+        "(remove the <!DOCTYPE ...> declaration and any entities)\n"
+    )
+
+
+def test_template_check_of_a_missing_file_suggests_a_shipped_name(
+    capsys: pytest.CaptureFixture[str],
+) -> None:
+    code, _, err = run(["template", "check", "infrainguinal-rigth"], capsys)
+    assert code == 2
+    assert err == (
+        "infrainguinal-rigth: (file): cannot be read: No such file or directory (did you mean "
+        "the shipped infrainguinal-right?)\n"
+    )
+
+
+def test_template_list(capsys: pytest.CaptureFixture[str]) -> None:
+    code, out, err = run(["template", "list"], capsys)
+    assert (code, err) == (0, "")
+    assert out.splitlines() == [
+        "bilateral            45 vessels  aorta to both feet  (limbchart bilateral leg-artery map)",
+        "infrainguinal-left   19 vessels  left leg from the CFA down  (limbchart left leg map, "
+        "groin to foot)",
+        "infrainguinal-right  19 vessels  right leg from the CFA down  (limbchart right leg map, "
+        "groin to foot)",
+    ]
+
+
+def test_design_commands_keep_the_command_line_light() -> None:
+    code = (
+        "import sys, diagram.design_cli; "
+        "print(sorted(m for m in ('defusedxml', 'cairosvg', 'PIL', 'svgwrite', 'yaml') "
+        "if m in sys.modules))"
+    )
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "[]"
+
+
+def test_a_template_saved_by_a_vector_editor(tmp_path: Path) -> None:
+    # What a general editor keeps and adds: its namespaces, a named view, RDF metadata, layers
+    # named by inkscape:label with generated ids, vessels renamed to generated ids and named by
+    # their label, a layer moved by a transform its paths were not re-written for.
+    text = (resources.files("diagram.templates_svg") / "infrainguinal-right.svg").read_text(
+        encoding="utf-8"
+    )
+    text = text.replace(
+        "<svg ",
+        '<svg xmlns:inkscape="http://www.inkscape.org/namespaces/inkscape" '
+        'xmlns:sodipodi="http://sodipodi.sourceforge.net/DTD/sodipodi-0.dtd" '
+        'xmlns:rdf="http://www.w3.org/1999/02/22-rdf-syntax-ns#" '
+        'xmlns:dc="http://purl.org/dc/elements/1.1/" '
+        'xmlns:cc="http://creativecommons.org/ns#" sodipodi:docname="leg.svg" ',
+        1,
+    )
+    text = text.replace(
+        "  <title>",
+        '  <sodipodi:namedview id="namedview7" pagecolor="#ffffff" inkscape:zoom="0.8"/>\n'
+        '  <metadata id="metadata5"><rdf:RDF><cc:Work rdf:about=""><dc:format>image/svg+xml'
+        '</dc:format><dc:type rdf:resource="http://purl.org/dc/dcmitype/StillImage"/>'
+        "</cc:Work></rdf:RDF></metadata>\n  <title>",
+        1,
+    )
+    text = text.replace(
+        '<g id="silhouette"',
+        '<g inkscape:groupmode="layer" id="layer1" inkscape:label="Silhouette" transform="translate(0 0)"',
+        1,
+    )
+    text = text.replace(
+        '<g id="vessels"',
+        '<g inkscape:groupmode="layer" id="layer2" inkscape:label="Vessels" transform="translate(12.5 -3)"',
+        1,
+    )
+    serial = itertools.count(1021)
+    text = re.sub(
+        r'id="right-([A-Z-]+)" data-segment="[A-Z-]+" data-side="right"',
+        lambda m: f'id="path{next(serial)}" inkscape:label="Right {m.group(1)}"',
+        text,
+    )
+    path = tmp_path / "edited.svg"
+    path.write_text(text, encoding="utf-8")
+    edited, shipped = load_template(path), load_template("infrainguinal-right")
+    assert edited.coverage == "right-infrainguinal" and list(edited.vessels) == list(
+        shipped.vessels
+    )
+    for key, vessel in shipped.vessels.items():
+        x, y = vessel.geometry.start
+        assert edited.vessels[key].geometry.start == pytest.approx((x + 12.5, y - 3), abs=1e-9)
