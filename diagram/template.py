@@ -198,7 +198,11 @@ class Template:
 
 
 def load_template(path: str | Path | None = None) -> Template:
-    """Return the parsed template at ``path`` (the shipped bilateral map when None); cached."""
+    """Return the parsed template at ``path`` (the shipped bilateral map when None); cached.
+
+    A shipped template's name (``infrainguinal-left``) stands for it; given as a ``Path``, the
+    name is used only when no such file exists.
+    """
     template, problems = _read(path)
     if problems or template is None:
         raise TemplateError(list(problems))
@@ -244,6 +248,8 @@ def summary_line(template: Template) -> str:
 
 def _read(path: str | Path | None) -> tuple[Template | None, tuple[Problem, ...]]:
     name = SHIPPED_TEMPLATE[:-4] if path is None else path
+    if isinstance(name, Path) and is_shipped(str(name)) and not name.exists():
+        name = str(name)  # a shipped name given as a path (a command-line option) and no such file
     if is_shipped(name):
         with resources.as_file(resources.files("diagram.templates_svg") / f"{name}.svg") as p:
             return _read_file(Path(p), f"{name}.svg")

@@ -1361,3 +1361,11 @@ def test_a_template_saved_by_a_vector_editor(tmp_path: Path) -> None:
     for key, vessel in shipped.vessels.items():
         x, y = vessel.geometry.start
         assert edited.vessels[key].geometry.start == pytest.approx((x + 12.5, y - 3), abs=1e-9)
+
+
+def test_a_shipped_name_given_as_a_path(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    assert load_template(Path("infrainguinal-left")).coverage == "left-infrainguinal"
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "infrainguinal-left").write_bytes(SHIPPED.read_bytes())
+    assert load_template(Path("infrainguinal-left")).coverage == "bilateral"  # the file wins
+    assert load_template("infrainguinal-left").coverage == "left-infrainguinal"  # the name wins
