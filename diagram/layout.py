@@ -515,7 +515,8 @@ def layout(
     _register_bands(assessment, st, bands)
     missing = not_drawn(assessment, template)
     x0, x1 = MARGIN_PT, spec.width_pt - MARGIN_PT
-    top, bottom = MARGIN_PT, spec.height_pt - MARGIN_PT - sheet.footer_height(st)
+    rise = sheet.footer_height(assessment, version, generated_note, st, x0, x1)
+    top, bottom = MARGIN_PT, spec.height_pt - MARGIN_PT - rise
 
     head: list[Item] = []
     if spec.furniture:
@@ -550,7 +551,7 @@ def layout(
         bottom -= need
     elif tables:
         _, cont_top = sheet.header(assessment, st, x0, x1, MARGIN_PT, case, page_number=2)
-        page_bottom = spec.height_pt - MARGIN_PT - sheet.footer_height(st) - 2
+        page_bottom = spec.height_pt - MARGIN_PT - rise - 2
         cont_bottom = sheet.caution(st, x0, x1, page_bottom)[1] - BLOCK_GAP_PT
         more_pages = sheet.flow_tables(tables, x0, x1, cont_top, cont_bottom, st, bands)
         table_items, bottom = sheet.see_next_page(tables, st, x0, x1, bottom - BLOCK_GAP_PT / 2)

@@ -241,22 +241,38 @@ def footer(
     bottom: float,
     page: tuple[int, int] = (1, 1),
 ) -> tuple[list[Item], float]:
-    """Return the footer (criteria sets at the left; page, note and version at the right)."""
+    """Return the footer (criteria sets at the left; page, note and version at the right).
+
+    The criteria sets are never cut: they wrap, at a width that leaves room for any page number,
+    so that every page of a sheet has the same footer height.
+    """
     asc, desc = line_extents(st.small_pt)
+    line_h = asc + desc + 1.0
     right = f"limbchart {version}" if not note else f"{note} · limbchart {version}"
+    room = x1 - x0 - text_width(f"page 99 of 99 · {right}", st.small_pt) - 12
     if page[1] > 1:
         right = f"page {page[0]} of {page[1]} · {right}"
-    right_w = text_width(right, st.small_pt)
     sets = assessment.criteria_used or ((assessment.criteria_name, assessment.criteria_title, ""),)
     left = "Criteria: " + "; ".join(f"{title} ({name})" for name, title, _ in sets)
-    left = ellipsize(left, st.small_pt, x1 - x0 - right_w - 12)
+    lines = wrap(left, st.small_pt, room)
     baseline = bottom - desc
-    return [
-        Text("footer-criteria", x0, baseline, left, st.small_pt, fill=st.muted_ink),
+    items: list[Item] = [
+        Text(
+            make_id("footer", "criteria", k) if k else "footer-criteria",
+            x0,
+            baseline - (len(lines) - 1 - k) * line_h,
+            text,
+            st.small_pt,
+            fill=st.muted_ink,
+        )
+        for k, text in enumerate(lines)
+    ]
+    items.append(
         Text(
             "footer-version", x1, baseline, right, st.small_pt, anchor=Anchor.END, fill=st.muted_ink
-        ),
-    ], bottom - asc - desc
+        )
+    )
+    return items, bottom - asc - desc - (len(lines) - 1) * line_h
 
 
 def _free_text(study: Study) -> list[str]:
@@ -270,10 +286,11 @@ def _free_text(study: Study) -> list[str]:
     return sorted({w.strip() for w in words if w and len(w.strip()) >= 3})
 
 
-def footer_height(st: Style) -> float:
-    """Return the height of the footer line."""
-    asc, desc = line_extents(st.small_pt)
-    return asc + desc
+def footer_height(
+    assessment: Assessment, version: str, note: str | None, st: Style, x0: float, x1: float
+) -> float:
+    """Return the height of the footer (the same on every page of a sheet)."""
+    return -footer(assessment, version, note, st, x0, x1, 0.0, (99, 99))[1]
 
 
 def caution(st: Style, x0: float, x1: float, bottom: float) -> tuple[list[Item], float]:
@@ -627,7 +644,8 @@ def continuation(
     head, _ = header(assessment, st, x0, x1, MARGIN_PT, case, page_number=page[0])
     bottom = spec.height_pt - MARGIN_PT
     foot, _ = footer(assessment, version, generated_note, st, x0, x1, bottom, page)
-    warn, _ = caution(st, x0, x1, bottom - footer_height(st) - 2)
+    rise = footer_height(assessment, version, generated_note, st, x0, x1)
+    warn, _ = caution(st, x0, x1, bottom - rise - 2)
     items: list[Item] = [
         Rect("page", 0, 0, spec.width_pt, spec.height_pt, fill="#FFFFFF"),
         Group("header", tuple(head), role="header"),

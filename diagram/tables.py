@@ -19,7 +19,7 @@ from diagram.assess.compare import ABI_SOURCE, BAND_CHANGES, Change, Comparison
 from diagram.assess.planning import CALCIFICATION_ASSUMPTION, Planning, planning_note
 from diagram.assess.results import LimbIndices
 from diagram.scene import Box, Group, Item, Line, Point, Polygon, Rect, Text, Weight, make_id
-from diagram.style import BandStyle, Style
+from diagram.style import NOT_ASSESSED, BandStyle, Style
 from diagram.textmetrics import line_extents, text_width
 
 SIDES = (Side.RIGHT, Side.LEFT)
@@ -166,6 +166,9 @@ def _level(p: Planning, k: int, bands: Mapping[str, BandStyle]) -> Cell:
     lv = p.levels[k]
     label = bands[lv.worst_band].label if lv.worst_band in bands else lv.worst_band
     runs: list[Run | str] = [_strong(label)]
+    if lv.worst_band == NOT_ASSESSED:  # nothing at this level was assessed
+        runs.append(_basis(" · " + ", ".join(lv.not_assessed)))
+        return (_entry(*runs, chip=lv.worst_band),)
     if lv.lesion_count == 0 and lv.diseased_cm == 0:
         runs.append(" · no disease \u226550%")
     else:
