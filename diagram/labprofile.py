@@ -64,13 +64,14 @@ class LabProfile:
     template: str | Path | None = None  # a shipped template's name, or a resolved path
     page: str | None = None
     style: Style = field(default_factory=default_style)
-    lines: Mapping[str, int] = field(default_factory=lambda: MappingProxyType({}))
+    lines: tuple[tuple[str, int], ...] = ()  # (field, line); a tuple keeps the profile picklable
 
     def line(self, key: str) -> int | None:
         """Return the line of a field (``bands.50-74.tint``), or of its nearest parent."""
+        found = dict(self.lines)
         while key:
-            if key in self.lines:
-                return self.lines[key]
+            if key in found:
+                return found[key]
             key = key.rpartition(".")[0]
         return None
 
@@ -141,7 +142,7 @@ def parse_lab_profile(text: str, file: str, base: Path) -> LabProfile:
     _too_heavy(style, set(overrides), bad)
     if problems:
         raise LabProfileError(sorted(problems, key=lambda p: (p.line or 0, p.field)))
-    return LabProfile(file, lab_name, template, page, style, MappingProxyType(lines))
+    return LabProfile(file, lab_name, template, page, style, tuple(lines.items()))
 
 
 # --------------------------------------------------------------------------- YAML with lines

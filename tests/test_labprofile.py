@@ -232,3 +232,12 @@ def test_a_lab_style_reaches_the_rendered_map() -> None:
 
 def test_errors_are_input_errors() -> None:
     assert issubclass(LabProfileError, DiagramError)
+
+
+def test_a_profile_travels_to_worker_processes() -> None:
+    import pickle
+
+    profile = load_lab_profile(LAB / "lab.yaml")
+    copy = pickle.loads(pickle.dumps(profile))
+    assert copy == profile and hash(copy) == hash(profile)
+    assert copy.line("bands.50-74.tint") == 9
