@@ -2,7 +2,8 @@
 
 Labels sit in the margins (the right leg's on the viewer's left) with leader lines to their
 vessel, stacked per column by ``pack_1d`` so that no two overlap; text is measured with the
-shipped font before anything is drawn.
+shipped font before anything is drawn. A partial map (one leg, or from the groin down) labels
+what it draws; ``not_drawn`` names every finding it cannot show, for the sheet's notes.
 """
 
 from __future__ import annotations

@@ -4,8 +4,11 @@
 is the template scaled to fit its area (aspect kept), patient's right on the viewer's left. Each
 vessel is a tube in its segment's band; each lesion is painted over it from ``start_frac`` to
 ``end_frac`` of each segment it touches (arc length s = frac x path length), with ticks at its
-ends. Margin labels are placed by ``diagram.labels``; the blocks around the map (header, legend,
-notes, caution, footer) come from ``diagram.sheet``.
+ends; a segment whose band changed since the prior exam gets the change symbol beside it.
+Margin labels are placed by ``diagram.labels``; the blocks around the map (header, ankle
+pressure boxes, legend, tables, notes, caution, footer) come from ``diagram.sheet`` and
+``diagram.tables``. Blocks are stacked from the page's edges inwards and the map takes the rest;
+tables that would leave the map too small continue on further pages (``Scene.more``).
 """
 
 from __future__ import annotations

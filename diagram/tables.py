@@ -67,7 +67,7 @@ Cell = tuple[Entry, ...]
 
 @dataclass(frozen=True)
 class Row:
-    """A table row: a label, then one cell per leg (right, left) or one cell across both."""
+    """A table row: a label, then one cell per leg (right, left)."""
 
     label: str
     cells: tuple[Cell, ...]
@@ -597,15 +597,14 @@ def box_height(entries: Sequence[Entry], width: float, st: Style) -> float:
 @dataclass(frozen=True)
 class _Columns:
     label: tuple[float, float]
-    cells: tuple[tuple[float, float], ...]  # (x, width) per leg
-    span: tuple[float, float]  # a cell across both legs
+    cells: tuple[tuple[float, float], ...]  # (x, width) per leg: right, then left
 
     @staticmethod
     def of(x0: float, x1: float) -> _Columns:
         first = x0 + LABEL_COLUMN_PT
         half = (x1 - first) / 2
         cells = ((first, half - CELL_PAD_PT * 2), (first + half, half - CELL_PAD_PT))
-        return _Columns((x0, LABEL_COLUMN_PT - CELL_PAD_PT), cells, (first, x1 - first))
+        return _Columns((x0, LABEL_COLUMN_PT - CELL_PAD_PT), cells)
 
 
 def row_heights(table: Table, x0: float, x1: float, st: Style) -> list[float]:
@@ -614,10 +613,9 @@ def row_heights(table: Table, x0: float, x1: float, st: Style) -> list[float]:
     lh = line_height(st)
     out = []
     for row in table.rows:
-        spans = [cols.span] if len(row.cells) == 1 else cols.cells
         lines = [
             sum(len(flow(e, w, st)) for e in cell)
-            for cell, (_, w) in zip(row.cells, spans, strict=True)
+            for cell, (_, w) in zip(row.cells, cols.cells, strict=True)
         ]
         label_lines = len(flow(_entry(_basis(row.label)), cols.label[1], st))
         out.append(max([*lines, label_lines]) * lh + 2.0)
@@ -671,8 +669,7 @@ def draw_table(
             f"{rid}-label", _entry(_basis(row.label)), *cols.label[:1], y, cols.label[1], st, bands
         )
         items.extend(label)
-        spans = [cols.span] if len(row.cells) == 1 else cols.cells
-        for k, (cell, (x, w)) in enumerate(zip(row.cells, spans, strict=True)):
+        for k, (cell, (x, w)) in enumerate(zip(row.cells, cols.cells, strict=True)):
             cell_items, _ = _set_cell(f"{rid}-{k}", cell, x, y, w, st, bands)
             items.extend(cell_items)
         y += heights[i]
