@@ -27,7 +27,7 @@ if TYPE_CHECKING:
 PT_PER_MM = 72.0 / 25.4
 PAGE_PT = {"a4": (210 * PT_PER_MM, 297 * PT_PER_MM), "letter": (612.0, 792.0)}
 MARGIN_PT = 28.0
-PANEL_PT = 156.0  # height of the band panel above the map
+PANEL_PT = 166.0  # height of the band panel above the map
 FORMATS = ("svg", "pdf", "png")
 SPECIMEN_NOTE = "Style gallery: a fictional specimen, not a patient."
 
@@ -152,7 +152,8 @@ def _panel(style: Style, title: str, width: float) -> tuple[list[Item], list[Ban
                 style.small_pt,
                 Weight.NORMAL,
             ),
-            (f"tint {band.tint} ink {band.ink}", style.small_pt, Weight.NORMAL),
+            (f"tint {band.tint}", style.small_pt, Weight.NORMAL),
+            (f"ink {band.ink}", style.small_pt, Weight.NORMAL),
         )
         ty = y + 2 * sh + 14
         for k, (text, size, weight) in enumerate(texts):

@@ -79,7 +79,7 @@ def test_gallery_svg_is_one_well_formed_page(default_gallery: str) -> None:
     assert len(ids) == len(set(ids))
     nested = [el for el in root if el.tag.endswith("svg")]
     assert len(nested) == 1  # the specimen sheet, placed under the band panel
-    assert float(nested[0].get("y", "0")) >= 150
+    assert float(nested[0].get("y", "0")) >= 160
 
 
 def test_gallery_shows_each_band_in_colour_and_in_grey(default_gallery: str) -> None:
