@@ -210,7 +210,8 @@ class Scene:
     """A laid-out page of a sheet; page 1 carries the further pages in ``more``.
 
     A sheet whose tables do not fit beside the map continues on further pages, each a Scene of
-    its own (``pages()`` lists them in order); every renderer draws each page separately.
+    its own (``pages()`` lists them in order); every renderer draws each page separately. A
+    further page holds no map: its ``map_box`` and ``vessel_box`` are empty boxes at the origin.
     """
 
     page: str  # "a4", "letter" or "map"

@@ -455,6 +455,25 @@ def test_pdf_from_svgs_needs_a_page() -> None:
         pdf_from_svgs([])
 
 
+def test_pdf_from_svgs_keeps_cairosvg_safe_mode() -> None:
+    entity = (
+        '<?xml version="1.0"?><!DOCTYPE svg [<!ENTITY a "aaaa">]>'
+        '<svg xmlns="http://www.w3.org/2000/svg" width="10" height="10"><text>&a;</text></svg>'
+    )
+    from defusedxml import EntitiesForbidden
+
+    with pytest.raises(EntitiesForbidden):
+        pdf_from_svgs([entity])
+    outside = (
+        '<svg xmlns="http://www.w3.org/2000/svg" xmlns:xlink="http://www.w3.org/1999/xlink" '
+        'width="10" height="10"><image xlink:href="file:///etc/hostname" width="10" height="10"/>'
+        "</svg>"
+    )
+    secret = Path("/etc/hostname").read_bytes().strip() if Path("/etc/hostname").exists() else b""
+    data = pdf_from_svgs([outside])  # the image is replaced by nothing, never read
+    assert data[:5] == b"%PDF-" and (not secret or secret not in data)
+
+
 # ----------------------------------------------------------------------------- golden SVGs
 
 
