@@ -271,9 +271,12 @@ def schema(results: bool) -> None:
 
 def _register() -> None:
     """Add the commands defined beside their stages (their heavy imports stay inside them)."""
+    from diagram.design_cli import COMMANDS
     from diagram.teach_cli import teach
 
     cli.add_command(teach)
+    for command in COMMANDS:
+        cli.add_command(command)
 
 
 _register()
