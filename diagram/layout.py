@@ -462,8 +462,9 @@ def _change_marks(
 ) -> list[Item]:
     """Return the change symbol beside each segment whose band changed since the prior exam.
 
-    The symbol sits at the middle of the segment on the side facing the body's midline, away
-    from the margin labels' leader lines (which reach the outer edge).
+    The symbol sits beside the worst lesion that sets the segment's band (the segment's middle
+    when its own sample does), on the side facing the body's midline, away from the margin
+    labels' leader lines (which reach the outer edge).
     """
     comparison = assessment.comparison
     if comparison is None:
@@ -475,7 +476,8 @@ def _change_marks(
         vessel = template.vessels.get(vessel_key(side, seg))
         if vessel is None:
             continue
-        (x, y), (nx, ny) = frame(vessel, fit, vessel.geometry.length() / 2)
+        at = _worst_lesion_middle(assessment, side, seg)
+        (x, y), (nx, ny) = frame(vessel, fit, vessel.geometry.length() * at)
         if abs(nx) < 0.25:  # running across: above it
             nx, ny = (nx, ny) if ny < 0 else (-nx, -ny)
         elif (nx > 0) != (mid_x > x if seg != "AO" else True):
@@ -484,6 +486,26 @@ def _change_marks(
         base = make_id("change", vessel.key)
         out.append(change_mark(base, kinds[(side, seg)], x + nx * off, y + ny * off, st))
     return out
+
+
+def _worst_lesion_middle(assessment: Assessment, side: Side, seg: str) -> float:
+    """Return where in ``seg`` (a fraction) its worst lesion's stretch is centred, else 0.5."""
+    limb = assessment.limbs.get(side)
+    result = limb.segments.get(seg) if limb else None
+    if limb is None or result is None:
+        return 0.5
+    rank = {b.id: b.rank for b in assessment.bands}
+    spans = [
+        (rank.get(les.band, -1), -k, span)
+        for k, les in enumerate(limb.lesions)
+        if les.index in result.lesions
+        for span in les.spans
+        if span.segment == seg
+    ]
+    if not spans:
+        return 0.5
+    span = max(spans, key=lambda t: (t[0], t[1]))[2]
+    return (span.start_frac + span.end_frac) / 2
 
 
 def _tables(assessment: Assessment, bands: Mapping[str, BandStyle]) -> list[Table]:
