@@ -275,7 +275,9 @@ def planning_table(planning: Mapping[Side, Planning], bands: Mapping[str, BandSt
         def calcified(p: Planning) -> Cell:
             if CALCIFICATION_ASSUMPTION in p.assumptions:
                 return (
-                    _entry(Run("applied", Tone.FLAG), _basis(f" · {CALCIFICATION_ASSUMPTION}")),
+                    _entry(
+                        Run("applied", Tone.FLAG), _basis(f" · {_pretty(CALCIFICATION_ASSUMPTION)}")
+                    ),
                 )
             return (_entry("not applied"),)
 
@@ -285,7 +287,7 @@ def planning_table(planning: Mapping[Side, Planning], bands: Mapping[str, BandSt
 
         def assumed(p: Planning) -> Cell:
             rest = [a for a in p.assumptions if a != CALCIFICATION_ASSUMPTION]
-            return (_entry(_basis("; ".join(rest) if rest else "none")),)
+            return (_entry(_basis(_pretty("; ".join(rest)) if rest else "none")),)
 
         rows.append(Row("Assumptions", _per_side(planning, assumed)))
     return Table(
