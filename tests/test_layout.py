@@ -5,6 +5,7 @@ from __future__ import annotations
 import datetime as dt
 import itertools
 import time
+from dataclasses import replace
 from typing import Any
 
 import pytest
@@ -293,8 +294,6 @@ def test_pack_1d_is_fast_for_many_labels() -> None:
 
 def _les(**kw: Any) -> LesionResult:
     base = lesion(Side.LEFT, 0, "SFA-M", "50-74")
-    from dataclasses import replace
-
     return replace(base, **kw)
 
 
@@ -383,8 +382,6 @@ def test_many_labels_spill_into_a_second_column(template: Template) -> None:
         lesion(Side.RIGHT, 10 + k, seg, "lt50", psv=150 + k, vr=1.5, from_cm=0.5, length_cm=1)
         for k, seg in enumerate([s for s in SEGMENTS if s != "AO" and s != "PER-D"] * 2)
     )
-    from dataclasses import replace
-
     right = replace(a.limbs[Side.RIGHT], lesions=a.limbs[Side.RIGHT].lesions + extra)
     scene = layout(replace(a, limbs={**a.limbs, Side.RIGHT: right}), template, version="0.0.0")
     xs = {round(lb.box.right, 3) for lb in scene.label_boxes if lb.side == "right"}
@@ -427,8 +424,6 @@ def test_every_vessel_is_drawn_in_its_band(template: Template) -> None:
 
 def test_unassessed_vessels_are_drawn_not_assessed(template: Template) -> None:
     a = crowded()
-    from dataclasses import replace
-
     scene = layout(replace(a, limbs={Side.RIGHT: a.limbs[Side.RIGHT]}), template, version="x")
     left = [i for i in scene.walk() if isinstance(i, Polygon) and i.id.startswith("vessel-left")]
     assert left and all(t.band == "not-assessed" for t in left)
@@ -487,8 +482,6 @@ def test_one_leg_map_draws_that_leg_and_lists_the_other(template: Template) -> N
 
 
 def test_a_lesion_running_off_the_map_has_no_tick_where_the_map_ends(template: Template) -> None:
-    from dataclasses import replace
-
     a = crowded()
     run_in = lesion(Side.RIGHT, 0, "EIA", "50-74", from_cm=8, length_cm=4, psv=330, vr=3.1)
     right = replace(a.limbs[Side.RIGHT], lesions=(run_in,))
@@ -501,8 +494,6 @@ def test_a_lesion_running_off_the_map_has_no_tick_where_the_map_ends(template: T
 
 
 def test_a_map_without_the_studys_legs_is_refused(template: Template) -> None:
-    from dataclasses import replace
-
     from diagram.errors import TemplateError
 
     a = crowded()
@@ -520,8 +511,6 @@ def test_a_map_without_the_studys_legs_is_refused(template: Template) -> None:
 
 
 def test_header_shows_only_what_the_study_has(template: Template) -> None:
-    from dataclasses import replace
-
     a = crowded()
     full = texts(layout(a, template, version="0.0.0"))
     for word in (
@@ -590,8 +579,6 @@ def test_legend_lists_every_band_and_the_symbols_in_use(template: Template) -> N
 
 
 def test_legend_leaves_out_symbols_not_in_use(template: Template) -> None:
-    from dataclasses import replace
-
     a = crowded()
     bare_limbs = {s: Limb(s) for s in Side}
     limbs = {s: replace(r, lesions=()) for s, r in a.limbs.items()}
@@ -620,8 +607,6 @@ def test_pressure_boxes_only_with_ankle_or_toe_pressures(template: Template) -> 
 
 
 def test_band_of_another_set_is_drawn_with_its_look(template: Template) -> None:
-    from dataclasses import replace
-
     a = crowded()
     bands = (*a.bands[:-1], BandDef("isr-50-69", "ISR 50-69%", 2, "50-74", "stent"), a.bands[-1])
     les = replace(a.limbs[Side.LEFT].lesions[0], band="isr-50-69")
@@ -654,8 +639,6 @@ def test_page_sizes(template: Template, page: str, size: tuple[float, float]) ->
 
 
 def test_footer_names_every_criteria_set_used(template: Template) -> None:
-    from dataclasses import replace
-
     a = replace(
         crowded(),
         criteria_used=(
@@ -684,8 +667,6 @@ def test_stent_mesh_lies_over_its_segments(template: Template) -> None:
 
 
 def test_empty_study_draws_every_vessel_not_assessed(template: Template) -> None:
-    from dataclasses import replace
-
     a = crowded()
     empty = replace(
         a,
