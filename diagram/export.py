@@ -31,6 +31,7 @@ if TYPE_CHECKING:
 class Drawing:
     """What the pipeline produced for one study: the SVG text and the results document.
 
+    ``svg`` is page 1; ``more`` holds the further pages of a sheet whose tables did not fit.
     ``study`` gives the DICOM header its patient and exam attributes; ``dicom`` overrides them
     (the teaching export passes de-identified ones).
     """
@@ -39,6 +40,12 @@ class Drawing:
     results: dict[str, Any]
     study: Study | None = None
     dicom: DicomIdentity | None = None
+    more: tuple[str, ...] = ()
+
+    @property
+    def pages(self) -> tuple[str, ...]:
+        """Return the SVG text of every page, page 1 first."""
+        return (self.svg, *self.more)
 
 
 @dataclass(frozen=True)
@@ -75,22 +82,35 @@ def _cairosvg() -> Any:
 
 
 def _svg(drawing: Drawing, options: ExportOptions) -> bytes:
-    return drawing.svg.encode("utf-8")
+    from diagram.pages import stack_svgs
+
+    return stack_svgs(drawing.pages).encode("utf-8")
 
 
 def _pdf(drawing: Drawing, options: ExportOptions) -> bytes:
-    data: bytes = _cairosvg().svg2pdf(bytestring=drawing.svg.encode("utf-8"), unsafe=False)
-    return data
+    cairosvg = _cairosvg()
+    if not drawing.more:
+        data: bytes = cairosvg.svg2pdf(bytestring=drawing.svg.encode("utf-8"), unsafe=False)
+        return data
+    from diagram.render import pdf_from_svgs
+
+    return pdf_from_svgs(drawing.pages)
 
 
 def _png(drawing: Drawing, options: ExportOptions) -> bytes:
-    data: bytes = _cairosvg().svg2png(
-        bytestring=drawing.svg.encode("utf-8"),
-        unsafe=False,
-        dpi=options.png_dpi,
-        background_color="white",
-    )
-    return data
+    from diagram.pages import GAP_PT, stack_pngs
+
+    cairosvg = _cairosvg()
+    images = [
+        cairosvg.svg2png(
+            bytestring=page.encode("utf-8"),
+            unsafe=False,
+            dpi=options.png_dpi,
+            background_color="white",
+        )
+        for page in drawing.pages
+    ]
+    return stack_pngs(images, round(GAP_PT * options.png_dpi / 72))
 
 
 def _dcm(drawing: Drawing, options: ExportOptions) -> bytes:

@@ -24,16 +24,18 @@ def draw(
 ) -> Drawing:
     """Assess the study and draw its map; return the SVG text and the results document."""
     from diagram.layout import layout
-    from diagram.render import render_svg
+    from diagram.render import render_pages
     from diagram.summary import results_document
     from diagram.template import load_template
 
     assessment = assess_study(study, criteria=criteria, target=target, prior=prior)
     scene = layout(assessment, load_template(template), page=page, version=__version__)
+    first, *more = render_pages(scene)
     return Drawing(
-        svg=render_svg(scene),
+        svg=first,
         results=results_document(assessment, version=__version__),
         study=study,
+        more=tuple(more),
     )
 
 

@@ -99,8 +99,13 @@ def test_png_is_an_opaque_page(drawn: dict) -> None:  # type: ignore[type-arg]
 
     img = Image.open(io.BytesIO(drawn["png"]))
     assert img.format == "PNG"
-    # A4 portrait at 150 dpi is 1240 x 1754 px; Letter 1275 x 1650
-    assert (img.width, img.height) in ((1240, 1754), (1275, 1650))
+    # A4 portrait at 150 dpi is 1240 x 1754 px, Letter 1275 x 1650; further pages of a sheet
+    # are stacked below page 1 with a 24 pt (50 px) gap
+    from pypdf import PdfReader
+
+    pages = len(PdfReader(io.BytesIO(drawn["pdf"])).pages)
+    page_h = {1240: 1754, 1275: 1650}[img.width]
+    assert img.height == pages * page_h + (pages - 1) * 50
     grey = img.convert("L")
     assert grey.getpixel((2, 2)) == 255  # white paper, not transparent
     lo, hi = grey.getextrema()
@@ -122,3 +127,22 @@ def test_svg_renders_in_a_second_renderer(drawn: dict) -> None:  # type: ignore[
 def test_svg_is_deterministic() -> None:
     study = load_study(EXAMPLES[0])
     assert draw(study).svg == draw(study).svg
+
+
+def test_multi_page_sheet_keeps_every_page_in_every_format() -> None:
+    from pypdf import PdfReader
+
+    study = load_study(ROOT / "examples" / "clti-multilevel.yaml")
+    drawing = draw(study)
+    assert len(drawing.pages) == 2  # the planning table continues on page 2
+    reader = PdfReader(io.BytesIO(render_bytes(drawing, "pdf")))
+    assert len(reader.pages) == 2
+    assert "page 2 of 2" in _norm(reader.pages[1].extract_text())
+    assert "Planning summary" in _norm(reader.pages[1].extract_text())
+    import xml.etree.ElementTree as ET
+
+    root = ET.fromstring(render_bytes(drawing, "svg"))
+    ids = [e.get("id") for e in root.iter() if e.get("id")]
+    assert len(ids) == len(set(ids))  # page ids prefixed, still unique
+    nested = [e for e in root if e.tag.endswith("svg")]
+    assert len(nested) == 2
