@@ -217,13 +217,28 @@ def _draw_batch(
     metavar="NAME|PATH",
     help="Criteria set to grade with, instead of the one the study names.",
 )
-def check(study: Path, as_json: bool, criteria: str | None) -> None:
+@click.option(
+    "--target",
+    type=click.Choice(["ATA", "PTA", "PER"]),
+    help="Tibial artery of the planning path (default: the least diseased).",
+)
+@click.option(
+    "--prior",
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="An earlier exam to compare with (instead of the study's own prior:).",
+)
+def check(
+    study: Path, as_json: bool, criteria: str | None, target: str | None, prior: Path | None
+) -> None:
     """Validate a STUDY file and print its computed grading."""
-    from diagram.load import load_study
+    from diagram.load import load_prior, load_study
     from diagram.pipeline import assess_study
     from diagram.summary import results_document, results_table
 
-    assessment = assess_study(load_study(study), criteria=criteria)
+    current = load_study(study)
+    assessment = assess_study(
+        current, criteria=criteria, target=target, prior=load_prior(current, prior)
+    )
     if as_json:
         click.echo(json.dumps(results_document(assessment, version=__version__), indent=2))
     else:

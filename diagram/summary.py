@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import dataclasses
+from enum import Enum
 from typing import Any
 
 from diagram import anatomy
@@ -115,6 +117,9 @@ def _limb(assessment: Assessment, side: Side) -> dict[str, Any]:
         "stents": [_stent(s) for s in limb.stents],
         "grafts": [_graft(g) for g in limb.grafts],
     }
+    plan = assessment.planning.get(side)
+    if plan is not None:
+        out["planning"] = _plain(plan)
     ix = assessment.indices.get(side)
     if ix is not None:
         out.update(
@@ -131,6 +136,21 @@ def _limb(assessment: Assessment, side: Side) -> dict[str, Any]:
             }
         )
     return out
+
+
+def _plain(value: Any) -> Any:
+    """Return a frozen result value as JSON-ready data (``from_`` is written ``from``)."""
+    if dataclasses.is_dataclass(value) and not isinstance(value, type):
+        return {
+            f.name.rstrip("_"): _plain(getattr(value, f.name)) for f in dataclasses.fields(value)
+        }
+    if isinstance(value, Enum):
+        return value.value
+    if isinstance(value, tuple | list):
+        return [_plain(v) for v in value]
+    if isinstance(value, float):
+        return _num(value)
+    return value
 
 
 def _study_echo(study: Study) -> dict[str, Any]:
@@ -179,6 +199,7 @@ def results_document(
                 {"id": b.id, "label": b.label, "look": b.look or None} for b in assessment.bands
             ],
             "limbs": {side.value: _limb(assessment, side) for side in (Side.RIGHT, Side.LEFT)},
+            "comparison": _plain(assessment.comparison) if assessment.comparison else None,
             "warnings": [
                 {
                     "code": w.code,
