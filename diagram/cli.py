@@ -59,14 +59,18 @@ def cli() -> None:
 @click.option(
     "--page",
     type=click.Choice(["a4", "letter", "map"]),
-    default="a4",
-    show_default=True,
-    help="Page size, or 'map' for the map and legend alone.",
+    help="Page size, or 'map' for the map and legend alone [default: the lab's, else a4].",
 )
 @click.option(
     "--template",
     type=click.Path(dir_okay=False, path_type=Path),
-    help="A lab's own map template (SVG); the shipped bilateral map by default.",
+    help="A lab's own map template (SVG) or a shipped one by name "
+    "[default: the lab's, else bilateral].",
+)
+@click.option(
+    "--lab",
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="A lab profile (YAML): lab name, template, page and band style.",
 )
 @click.option(
     "--criteria",
@@ -105,8 +109,9 @@ def draw(
     studies: tuple[Path, ...],
     output: str,
     formats: tuple[str, ...],
-    page: str,
+    page: str | None,
     template: Path | None,
+    lab: Path | None,
     criteria: str | None,
     dpi: float,
     target: str | None,
@@ -118,6 +123,13 @@ def draw(
 ) -> None:
     """Draw the map of each STUDY (a file, a folder of files, or a .txt list of paths)."""
     from diagram.export import ExportOptions, export, format_for
+
+    profile = None
+    if lab is not None:
+        from diagram.labprofile import load_lab_profile
+
+        profile = load_lab_profile(lab)
+    page = page or (profile.page if profile and profile.page else "a4")
 
     as_folder = output.endswith(("/", os.sep)) or Path(output).is_dir()
     single = (
@@ -137,7 +149,13 @@ def draw(
         study = load_study(studies[0])
         earlier = load_prior(study, prior)
         drawing = draw_study(
-            study, page=page, template=template, criteria=criteria, target=target, prior=earlier
+            study,
+            page=page,
+            template=template,
+            criteria=criteria,
+            target=target,
+            prior=earlier,
+            lab=profile,
         )
         written = export(drawing, Path(output), chosen, ExportOptions(png_dpi=dpi))
         if not quiet:
@@ -153,6 +171,7 @@ def draw(
         template=template,
         criteria=criteria,
         target=target,
+        lab=profile,
         png_dpi=dpi,
         overwrite=overwrite,
     )

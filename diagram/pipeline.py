@@ -2,13 +2,18 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from diagram._version import __version__
 from diagram.assess import assess, resolve_criteria
 from diagram.assess.results import Assessment
 from diagram.export import Drawing
 from diagram.study import Study
+
+if TYPE_CHECKING:
+    from diagram.labprofile import LabProfile
 
 PAGES: tuple[str, ...] = ("a4", "letter", "map")
 
@@ -21,15 +26,24 @@ def draw(
     criteria: str | None = None,
     target: str | None = None,
     prior: Study | None = None,
+    lab: LabProfile | None = None,
 ) -> Drawing:
-    """Assess the study and draw its map; return the SVG text and the results document."""
+    """Assess the study and draw its map; return the SVG pages and the results document.
+
+    A lab profile gives the style, the lab name for the header, and defaults for the template
+    and the page; ``template`` and a page other than the default win over it.
+    """
     from diagram.layout import layout
     from diagram.render import render_pages
     from diagram.summary import results_document
     from diagram.template import load_template
 
     assessment = assess_study(study, criteria=criteria, target=target, prior=prior)
-    scene = layout(assessment, load_template(template), page=page, version=__version__)
+    style = None
+    if lab is not None:
+        style = replace(lab.style, lab_name=lab.lab_name)
+        template = template if template is not None else lab.template
+    scene = layout(assessment, load_template(template), page=page, version=__version__, style=style)
     first, *more = render_pages(scene)
     return Drawing(
         svg=first,

@@ -190,7 +190,7 @@ def header(
         return _rule(items + fields, st, x0, x1, y)
     study = assessment.study
     p, e = study.patient, study.exam
-    items, y = _title_line(study.exam.site, right, st, x0, x1, y)
+    items, y = _title_line(st.lab_name or study.exam.site, right, st, x0, x1, y)
     who = (
         ("Patient", p.name),
         ("ID", p.id),

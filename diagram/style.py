@@ -94,6 +94,7 @@ class Style:
     """Band styles, fonts, sizes and inks of a sheet. Sizes in points."""
 
     bands: tuple[BandStyle, ...] = field(default_factory=_default_bands)
+    lab_name: str | None = None  # heads the sheet in place of the study's exam.site
     font_family: str = "DejaVu Sans"
     text_ink: str = "#1A1A1A"
     muted_ink: str = "#555555"

@@ -105,3 +105,29 @@ def test_python_dash_m_is_the_same_command() -> None:
     )
     assert done.returncode == 0
     assert done.stdout.startswith("limbchart, version ")
+
+
+def test_lab_profile_names_the_lab_and_sets_page_and_template(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    out = tmp_path / "map.svg"
+    lab = ROOT / "tests" / "data" / "lab" / "lab.yaml"
+    code, _, err = run(["draw", str(EXAMPLES[0]), "--lab", str(lab), "-o", str(out)], capsys)
+    assert code == 0, err
+    svg = out.read_text()
+    assert ">Riverside Demo Vascular Lab<" in svg and ">Demo Vascular Lab<" not in svg
+    assert 'width="8.5in"' in svg  # the profile's Letter page
+    assert "#7FB3D5" in svg.upper() or "#7fb3d5" in svg  # the profile's 50-74 tint
+    # an explicit option beats the profile
+    code, _, _ = run(
+        ["draw", str(EXAMPLES[0]), "--lab", str(lab), "--page", "a4", "-o", str(out)], capsys
+    )
+    assert code == 0 and 'width="210mm"' in out.read_text()
+
+
+def test_bad_lab_profile_is_one_line_per_problem(capsys: pytest.CaptureFixture[str]) -> None:
+    lab = ROOT / "tests" / "data" / "lab" / "bad.yaml"
+    code, _, err = run(["draw", str(EXAMPLES[0]), "--lab", str(lab), "-o", "/tmp/x.svg"], capsys)
+    assert code == 2 and "Traceback" not in err
+    expected = (ROOT / "tests" / "data" / "lab" / "bad.expected").read_text().splitlines()
+    assert len(err.splitlines()) == len(expected)
