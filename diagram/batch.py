@@ -20,8 +20,12 @@ from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass, field
 from pathlib import Path
 from types import FrameType
+from typing import TYPE_CHECKING
 
 from diagram.errors import DiagramError, Problem, StudyError
+
+if TYPE_CHECKING:
+    from diagram.labprofile import LabProfile
 
 STUDY_SUFFIXES = (".yaml", ".yml", ".json")
 MANIFEST_SUFFIXES = (".txt", ".list", ".manifest")
@@ -40,6 +44,7 @@ class BatchSettings:
     template: Path | None = None
     criteria: str | None = None
     target: str | None = None
+    lab: LabProfile | None = None
     png_dpi: float = 150.0
     overwrite: bool = False
 
@@ -185,6 +190,7 @@ def draw_one(task: BatchTask) -> BatchResult:
             criteria=cfg.criteria,
             target=cfg.target,
             prior=load_prior(study),
+            lab=cfg.lab,
         )
         options = ExportOptions(png_dpi=cfg.png_dpi)
         blobs = [render_bytes(drawing, fmt, options) for fmt in cfg.formats]
@@ -248,31 +254,31 @@ _BROKEN = (
 )
 
 
-class _Stopped(BaseException):
-    """Raised in a worker by SIGTERM to unwind a study in progress (temporary files removed)."""
-
-
 def _worker_init() -> None:
     """Set a worker's signals: Ctrl-C is the parent's to handle; SIGTERM ends it quietly."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)
-    signal.signal(signal.SIGTERM, _worker_stop)
+    signal.signal(signal.SIGTERM, _worker_exit)
 
 
-def _worker_stop(signum: int, frame: FrameType | None) -> None:
-    """End the worker: unwind a study in progress first, so that it leaves no partial file."""
-    while frame is not None:
-        if frame.f_code is _work.__code__:
-            raise _Stopped
-        frame = frame.f_back
-    os._exit(128 + signum)  # idle: nothing to clean up, and no traceback from the pool's loop
+def _worker_exit(signum: int, frame: FrameType | None) -> None:
+    """End the worker at once: it holds no partial file here (see ``_work``), and no traceback."""
+    os._exit(128 + signum)
 
 
 def _work(task: BatchTask) -> BatchResult:
-    """Draw one study in a worker process."""
+    """Draw one study in a worker process, deferring SIGTERM until the study is done.
+
+    An exception raised by a signal handler in the middle of a drawing could land inside a
+    C callback (cairo's writer), which would print it and carry on; blocking SIGTERM instead
+    lets the study finish or fail whole, and the worker exits as the signal is unblocked.
+    """
+    if not hasattr(signal, "pthread_sigmask"):  # no POSIX signal masks (Windows)
+        return draw_one(task)
+    signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGTERM})
     try:
         return draw_one(task)
-    except _Stopped:
-        os._exit(128 + signal.SIGTERM)
+    finally:
+        signal.pthread_sigmask(signal.SIG_UNBLOCK, {signal.SIGTERM})
 
 
 def _pool_round(todo: deque[BatchTask], jobs: int, record: Callable[[BatchResult], None]) -> None:
@@ -314,16 +320,24 @@ def _drain(
     pending: dict[Future[BatchResult], BatchTask],
     record: Callable[[BatchResult], None],
 ) -> None:
-    """After an interrupt: drop what has not started, let what has finish, then stop workers."""
+    """After an interrupt: drop what has not started and let what has finish, within limits.
+
+    Studies still running after ``DRAIN_SECONDS`` get SIGTERM (each worker finishes or drops its
+    study whole, then exits; its result is not counted); a worker still alive after as long
+    again is killed.
+    """
     running = [f for f in pending if not f.cancel()]
     done, late = wait(running, timeout=DRAIN_SECONDS)
-    if late:
-        # Python 3.11 has no public way to stop a pool's workers; SIGTERM makes each unwind
-        # the study it holds (removing its temporary file) and exit.
-        for process in list((pool._processes or {}).values()):
+    # Python 3.11 has no public way to stop a pool's workers; these are its worker processes.
+    workers = list((pool._processes or {}).values()) if late else []
+    for hard in (False, True):  # SIGTERM first, then SIGKILL
+        if not late:
+            break
+        for process in workers:
             with contextlib.suppress(OSError):
-                process.terminate()
-        wait(late, timeout=DRAIN_SECONDS)
+                process.kill() if hard else process.terminate()
+        finished, late = wait(late, timeout=DRAIN_SECONDS)
+        done |= finished
     for future in running:
         if future in done and future.exception() is None:
             record(future.result())  # a study that failed normally is reported too
