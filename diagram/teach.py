@@ -24,7 +24,7 @@ from collections import Counter
 from collections.abc import Mapping
 from dataclasses import dataclass, replace
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from diagram._version import __version__
 from diagram.errors import DiagramError, ExportError
@@ -33,6 +33,9 @@ from diagram.study import Graft, Lesion, Limb, Patient, Sample, SegmentFinding, 
 from diagram.teach_patterns import Category
 from diagram.teach_scan import Hit, scan_outputs
 from diagram.teach_scrub import Identifiers, age_at_exam, identifiers_of, scrub
+
+if TYPE_CHECKING:
+    from diagram.export import Drawing
 
 TEACH_FORMATS: tuple[str, ...] = ("pdf", "svg", "png", "dcm", "yaml")
 DEFAULT_FORMATS: tuple[str, ...] = ("pdf", "yaml")
@@ -169,20 +172,33 @@ def deidentify(
     return TeachCase(case_id, clean_study, header, tuple(removed), dict(sorted(counts.items())))
 
 
-def case_svg(case: TeachCase, *, page: str = "a4", template: str | Path | None = None) -> str:
-    """Draw the teaching case (header: the case only) and return the SVG from the allow-list."""
+def case_pages(
+    case: TeachCase, *, page: str = "a4", template: str | Path | None = None
+) -> tuple[str, ...]:
+    """Draw the teaching case (header: the case only); return each page's SVG, allow-listed."""
+    from diagram import render
     from diagram.layout import layout
     from diagram.pipeline import assess_study
-    from diagram.render import render_svg
     from diagram.teach_clean import clean_svg
     from diagram.template import load_template
 
     assessment = assess_study(case.study)
-    extra: dict[str, Any] = (
-        {"case": case.header} if "case" in inspect.signature(layout).parameters else {}
-    )
+    extra: dict[str, Any] = {}
+    if "case" in inspect.signature(layout).parameters:  # the sheet header shows only the case
+        extra["case"] = case.header
     scene = layout(assessment, load_template(template), page=page, version=__version__, **extra)
-    return clean_svg(render_svg(scene))
+    pages = getattr(render, "render_pages", None)  # a sheet whose tables run onto more pages
+    svgs: tuple[str, ...] = tuple(pages(scene)) if pages else (render.render_svg(scene),)
+    return tuple(clean_svg(svg) for svg in svgs)
+
+
+def _drawing(pages: tuple[str, ...]) -> Drawing:
+    """Return the pages as a Drawing for the export writers (no study: nothing to identify)."""
+    from diagram.export import Drawing
+
+    if len(pages) == 1:
+        return Drawing(svg=pages[0], results={})
+    return Drawing(svg=pages[0], results={}, more=pages[1:])  # type: ignore[call-arg,unused-ignore]
 
 
 def _yaml_text(case: TeachCase) -> str:
@@ -241,8 +257,8 @@ def render_case(
     png_dpi: float = 150.0,
 ) -> CaseOutputs:
     """De-identify, draw and encode one study in every format asked for, then scan it all."""
-    from diagram.export import Drawing, ExportOptions, render_bytes
-    from diagram.teach_clean import clean_png, strip_pdf_info, teaching_dicom
+    from diagram.export import ExportOptions, render_bytes
+    from diagram.teach_clean import clean_png, clean_svg, strip_pdf_info, teaching_dicom
 
     unknown = [f for f in formats if f not in TEACH_FORMATS]
     if unknown:
@@ -251,14 +267,13 @@ def render_case(
     case = deidentify(study, case_id, keep_year=keep_year, ids=ids)
     data: dict[str, bytes] = {}
     if set(formats) - {"yaml"}:
-        svg = case_svg(case, page=page, template=template)
-        drawing = Drawing(svg=svg, results={}, study=None)
+        drawing = _drawing(case_pages(case, page=page, template=template))
         pdf = b""
         if {"pdf", "dcm"} & set(formats):
             pdf = strip_pdf_info(render_bytes(drawing, "pdf"))
         for fmt in formats:
-            if fmt == "svg":
-                data[fmt] = svg.encode("utf-8")
+            if fmt == "svg":  # several pages are stacked into one picture: allow-listed again
+                data[fmt] = clean_svg(render_bytes(drawing, "svg").decode("utf-8")).encode("utf-8")
             elif fmt == "pdf":
                 data[fmt] = pdf
             elif fmt == "png":

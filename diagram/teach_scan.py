@@ -48,15 +48,6 @@ class Hit:
     output: str  # "svg", "pdf", "png", "dcm", "yaml" or "file name"
 
 
-def _text_hits(text: str, ids: Identifiers) -> set[Category]:
-    """Look in text as a whole (words) and in each line (letters run together too)."""
-    found = find(text, ids, fragments=False)
-    for line in text.splitlines():
-        if line.strip():
-            found |= find(line, ids)
-    return found
-
-
 def scan_svg(svg: bytes, ids: Identifiers) -> set[Category]:
     """Return the categories found in an SVG's text, attribute values and markup."""
     import defusedxml.ElementTree as DET
@@ -69,13 +60,11 @@ def scan_svg(svg: bytes, ids: Identifiers) -> set[Category]:
         root = DET.fromstring(svg, forbid_dtd=True)
     except (ValueError, SyntaxError):  # ParseError is a SyntaxError
         return found | {Category.METADATA}
-    values: list[str] = []
     words: list[str] = []
-    for el in root.iter():
-        values.extend(el.attrib.values())
+    for el in root.iter():  # attribute values are in the raw text searched above
         words.extend(part for part in (el.text, el.tail) if part and part.strip())
     # one text element per line: names spread over one label are found, not across labels
-    return found | find("\n".join(values), ids, markup=True) | _text_hits("\n".join(words), ids)
+    return found | find("\n".join(words), ids)
 
 
 def scan_pdf(pdf: bytes, ids: Identifiers) -> set[Category]:
@@ -90,7 +79,7 @@ def scan_pdf(pdf: bytes, ids: Identifiers) -> set[Category]:
         found.add(Category.METADATA)
     for page in reader.pages:
         # layout mode keeps words apart that plain extraction runs together ("duplexDemo")
-        found |= _text_hits(page.extract_text(extraction_mode="layout"), ids)
+        found |= find(page.extract_text(extraction_mode="layout"), ids)
     return found
 
 
@@ -147,7 +136,7 @@ def scan_dicom(
             found |= scanned_pdfs[digest] if digest in scanned_pdfs else scan_pdf(doc, ids)
         elif vr in _DICOM_TEXT_VRS:
             values = value if isinstance(value, list | tuple) else [value]
-            found |= _text_hits("\n".join(str(v) for v in values), ids)
+            found |= find("\n".join(str(v) for v in values), ids)
     return found
 
 
@@ -169,12 +158,9 @@ def scan_yaml(text: bytes, ids: Identifiers) -> set[Category]:
 
     raw = text.decode("utf-8")
     found = find(raw, ids, markup=True)
-    for line in raw.splitlines():  # comments too
-        if line.lstrip().startswith("#"):
-            found |= _text_hits(line, ids)
-    for value in _strings(yaml.safe_load(raw)):
-        found |= _text_hits(value, ids)
-    return found
+    comments = [line for line in raw.splitlines() if line.lstrip().startswith("#")]
+    strings = [s.replace("\n", " ") for s in _strings(yaml.safe_load(raw))]
+    return found | find("\n".join(comments + strings), ids)
 
 
 def scan_outputs(
@@ -199,5 +185,5 @@ def scan_outputs(
             raise ValueError(f"no scan for the output format {fmt!r}")  # a bug, not bad input
         hits.update(Hit(cat, fmt) for cat in found)
     for name in names:
-        hits.update(Hit(cat, "file name") for cat in _text_hits(name, ids))
+        hits.update(Hit(cat, "file name") for cat in find(name, ids))
     return tuple(sorted(hits, key=lambda h: (h.output, h.category)))

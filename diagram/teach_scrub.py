@@ -323,14 +323,13 @@ def _initials_beside_removal(text: str, ids: Identifiers, counts: Counter[Catego
     return near.sub(replace, text)
 
 
-def find(
-    text: str, ids: Identifiers, *, markup: bool = False, fragments: bool = True
-) -> set[Category]:
+def find(text: str, ids: Identifiers, *, markup: bool = False) -> set[Category]:
     """Return the categories of identifiers found in ``text`` (an output being checked).
 
-    ``markup`` (attribute values, raw file text) looks only for the study's own values, not
-    for the general patterns that numbers in markup would trip. ``fragments`` also looks for
-    each identifier's letters with everything between them removed.
+    Text is searched as a whole for every form and pattern, and line by line for each
+    identifier's letters with everything between them removed (give one label or value per
+    line). ``markup`` (raw file text, attribute values) looks only for the study's own values:
+    the general patterns would trip over the numbers of markup.
     """
     folded = fold(text)
     found = {cat for _, _, cat in _spans(folded, ids.rules, scan_only=True)}
@@ -342,7 +341,8 @@ def find(
         )
         return found
     found.update(cat for _, _, cat in _spans(folded, GENERIC_RULES, scan_only=True))
-    if fragments:
-        squeezed = "".join(c for c in folded if c.isalnum())
-        found.update(cat for cat, form in ids.compact_forms if form in squeezed)
+    if ids.compact_forms:
+        for line in folded.splitlines():
+            squeezed = "".join(c for c in line if c.isalnum())
+            found.update(cat for cat, form in ids.compact_forms if form in squeezed)
     return found
