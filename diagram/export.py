@@ -14,7 +14,9 @@ import errno
 import json
 import os
 import secrets
-from collections.abc import Callable
+import signal
+import threading
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from importlib import resources
 from pathlib import Path
@@ -155,8 +157,33 @@ def format_for(path: Path, forced: str | None = None) -> str:
 
 
 def render_bytes(drawing: Drawing, fmt: str, options: ExportOptions | None = None) -> bytes:
-    """Return the drawing encoded in one format, without writing anything."""
-    return WRITERS[fmt](drawing, options or ExportOptions())
+    """Return the drawing encoded in one format, without writing anything.
+
+    SIGINT and SIGTERM are held meanwhile (see ``_signals_held``) and handled when it returns.
+    """
+    with _signals_held():
+        return WRITERS[fmt](drawing, options or ExportOptions())
+
+
+@contextlib.contextmanager
+def _signals_held() -> Iterator[None]:
+    """Hold SIGINT and SIGTERM while a drawing is encoded; they are handled once it is done.
+
+    A handler that raises (Ctrl-C, or the command line's SIGTERM handler) could otherwise raise
+    inside cairo's write callback, where cffi prints the exception and drops it, and cairo then
+    fails with an unrelated error. Python runs signal handlers only in the main thread, so in
+    other threads there is nothing to hold; a process with other threads that leave these
+    signals unblocked could still see its handler run during the encoding.
+    """
+    main = threading.current_thread() is threading.main_thread()
+    if not main or not hasattr(signal, "pthread_sigmask"):
+        yield
+        return
+    previous = signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT, signal.SIGTERM})
+    try:
+        yield
+    finally:
+        signal.pthread_sigmask(signal.SIG_SETMASK, previous)
 
 
 PART_SUFFIX = ".part"
