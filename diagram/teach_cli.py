@@ -95,6 +95,12 @@ def teach(
     )
 
     paths = expand_inputs(inputs)
+    inside = [p for p in paths if p.resolve().is_relative_to(output.resolve())]
+    if inside:  # identified studies must not sit among the teaching files
+        raise ExportError(
+            f"{output}: holds {len(inside)} of the source studies; give an output folder apart "
+            "from the identified studies."
+        )
     try:
         output.mkdir(parents=True, exist_ok=True)
     except OSError as exc:

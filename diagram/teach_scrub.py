@@ -99,11 +99,6 @@ class Identifiers:
     literals: tuple[tuple[Category, str], ...]  # folded values as written, for markup
     initials: tuple[str, ...]  # bare capital initials ("AD"), removed only beside a removal
 
-    def present(self) -> tuple[Category, ...]:
-        """Return the categories this study has values for."""
-        seen = {r.category for r in self.rules} | {c for c, _ in self.literals}
-        return tuple(c for c in Category if c in seen)
-
 
 def _alternation(words: Iterable[str]) -> str:
     return "|".join(re.escape(w) for w in sorted(set(words), key=lambda w: (-len(w), w)))

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import datetime as dt
 import random
+import re
 import unicodedata
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -71,6 +72,12 @@ def stripped(text: str) -> str:
     return "".join(c for c in decomposed(text) if not unicodedata.combining(c))
 
 
+def fold(text: str) -> str:
+    """Return ``text`` NFKC-normalised, casefolded and without accents."""
+    text = unicodedata.normalize("NFKC", text).casefold()
+    return "".join(c for c in unicodedata.normalize("NFKD", text) if not unicodedata.combining(c))
+
+
 @dataclass
 class Planted:
     """What one study holds that must not reach a teaching output."""
@@ -78,6 +85,18 @@ class Planted:
     words: set[str] = field(default_factory=set)  # name words: looked for as whole words
     values: set[str] = field(default_factory=set)  # ids, dates, addresses: looked for anywhere
     year_of_birth: str | None = None  # an identifier only when the patient is 90 or older
+
+    def found_in(self, text: str, prose: str | None = None) -> list[str]:
+        """Return what was planted that occurs in ``text`` (names as whole words), and any
+        e-mail, URL or long number in ``prose`` (what a reader sees; ``text`` by default)."""
+        t = fold(text)
+        out = [w for w in self.words if re.search(rf"(?<![^\W_]){re.escape(fold(w))}(?![^\W_])", t)]
+        out += [v for v in self.values if fold(v) in t]
+        if self.year_of_birth and re.search(rf"(?<!\d){self.year_of_birth}(?!\d)", t):
+            out.append(self.year_of_birth)
+        for generic in (r"\d{5,}", r"[\w.]+@[\w.]+\.\w+", r"https?://", r"www\."):
+            out += re.findall(generic, t if prose is None else fold(prose))
+        return out
 
 
 def date_forms(day: dt.date) -> list[str]:

@@ -17,13 +17,14 @@ import shutil
 import subprocess
 import sys
 import unicodedata
+from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import replace
 from pathlib import Path
 
 import click
 import pytest
-from teach_generator import Planted, full_width, study, write_studies
+from teach_generator import fold, full_width, study, write_studies
 
 from diagram.errors import DiagramError
 from diagram.load import load_study
@@ -31,7 +32,7 @@ from diagram.pipeline import assess_study
 from diagram.summary import results_document
 from diagram.teach import TEACH_FORMATS, age_text, deidentify, new_case_id, render_case
 from diagram.teach_cli import FORMAT_CHOICES, teach
-from diagram.teach_scrub import MARKER, age_at_exam, identifiers_of, scrub
+from diagram.teach_scrub import MARKER, Identifiers, age_at_exam, identifiers_of, scrub
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLE = ROOT / "examples" / "claudicant-sfa.yaml"
@@ -52,24 +53,6 @@ def run(args: list[str], capsys: pytest.CaptureFixture[str]) -> tuple[int, str]:
             print(line, file=sys.stderr)
         code = exc.exit_code
     return code, capsys.readouterr().err
-
-
-def fold(text: str) -> str:
-    text = unicodedata.normalize("NFKC", text).casefold()
-    return "".join(c for c in unicodedata.normalize("NFKD", text) if not unicodedata.combining(c))
-
-
-def leaks(text: str, planted: Planted, prose: str | None = None) -> list[str]:
-    """Return what of ``planted`` occurs in ``text`` (whole words for names), and any e-mail,
-    URL or long number in ``prose`` (the text a reader sees; ``text`` itself by default)."""
-    t = fold(text)
-    out = [w for w in planted.words if re.search(rf"(?<![^\W_]){re.escape(fold(w))}(?![^\W_])", t)]
-    out += [v for v in planted.values if fold(v) in t]
-    if planted.year_of_birth and re.search(rf"(?<!\d){planted.year_of_birth}(?!\d)", t):
-        out.append(planted.year_of_birth)
-    for generic in (r"\d{5,}", r"[\w.]+@[\w.]+\.\w+", r"https?://", r"www\."):
-        out += re.findall(generic, t if prose is None else fold(prose))
-    return out
 
 
 def pdf_text(path: Path) -> str:
@@ -120,14 +103,9 @@ def png_text(path: Path) -> str:
 def output_text(path: Path, tmp: Path) -> tuple[str, str]:
     """Return an output's text and the part of it a reader sees (an SVG's text nodes)."""
     kind = path.suffix
-    if kind == ".pdf":
-        text = pdf_text(path)
-    elif kind == ".dcm":
-        text = dicom_text(path, tmp)
-    elif kind == ".png":
-        text = png_text(path)
-    else:
-        text = path.read_bytes().decode("utf-8")  # SVG and YAML: the raw file
+    readers: dict[str, Callable[[Path], str]] = {".pdf": pdf_text, ".png": png_text}
+    readers[".dcm"] = lambda p: dicom_text(p, tmp)
+    text = readers[kind](path) if kind in readers else path.read_text("utf-8")  # SVG, YAML: raw
     if kind == ".svg":  # colours such as #555555 are not numbers anyone reads
         return text, "\n".join(re.findall(r">([^<]+)<", text))
     return text, text
@@ -137,7 +115,7 @@ def output_text(path: Path, tmp: Path) -> tuple[str, str]:
 
 
 @pytest.fixture(scope="module")
-def demo() -> tuple[object, object]:
+def demo() -> Identifiers:
     base = load_study(EXAMPLE)
     s = replace(
         base,
@@ -146,7 +124,7 @@ def demo() -> tuple[object, object]:
         ),
         exam=replace(base.exam, referrer="Dr Jane Roe-Smith", study_uid="1.2.840.99.12345.6"),
     )
-    return s, identifiers_of(s)
+    return identifiers_of(s)
 
 
 @pytest.mark.parametrize(
@@ -192,9 +170,8 @@ def demo() -> tuple[object, object]:
         "seen in March",
     ],
 )
-def test_identifier_forms_are_removed(demo: tuple[object, object], text: str) -> None:
-    _, ids = demo
-    out, counts = scrub(f"before {text} after", ids)  # type: ignore[arg-type]
+def test_identifier_forms_are_removed(demo: Identifiers, text: str) -> None:
+    out, counts = scrub(f"before {text} after", demo)
     assert out.startswith("before ") and out.endswith(" after"), out
     assert MARKER in out and sum(counts.values()) >= 1
     leftover = out.replace(MARKER, " ")
@@ -213,9 +190,8 @@ def test_identifier_forms_are_removed(demo: tuple[object, object], text: str) ->
         "accession X-1234 belongs to another study",
     ],
 )
-def test_clinical_text_is_left_alone(demo: tuple[object, object], text: str) -> None:
-    _, ids = demo
-    assert scrub(text, ids) == (text, {})  # type: ignore[arg-type]
+def test_clinical_text_is_left_alone(demo: Identifiers, text: str) -> None:
+    assert scrub(text, demo) == (text, {})
 
 
 @pytest.mark.parametrize(
@@ -242,10 +218,8 @@ def test_age_in_whole_years_and_90_plus(
 def test_clinical_content_unchanged_and_identifiers_gone(tmp_path: Path) -> None:
     for n in range(1, 13):
         data, _ = study(n, seed=7)
-        path = tmp_path / f"s{n}.yaml"
-        path.write_text(json.dumps(data), "utf-8")
-        path = path.rename(path.with_suffix(".json"))
-        source = load_study(path)
+        (tmp_path / f"s{n}.json").write_text(json.dumps(data), "utf-8")
+        source = load_study(tmp_path / f"s{n}.json")
         case = deidentify(source, new_case_id())
         before = results_document(assess_study(source), version="t", identified=False)
         after = results_document(assess_study(case.study), version="t", identified=False)
@@ -267,10 +241,10 @@ def test_case_ids_are_random_and_unique() -> None:
     assert all(re.fullmatch(r"tc-[b-df-hj-np-tv-xz]{5}-[b-df-hj-np-tv-xz]{5}", i) for i in ids)
 
 
-def test_a_lab_criteria_file_is_refused(tmp_path: Path) -> None:
-    source = replace(load_study(EXAMPLE), exam=replace(load_study(EXAMPLE).exam, criteria="x.yaml"))
+def test_a_lab_criteria_file_is_refused() -> None:
+    base = load_study(EXAMPLE)
     with pytest.raises(DiagramError, match="criteria file cannot travel"):
-        deidentify(source, new_case_id())
+        deidentify(replace(base, exam=replace(base.exam, criteria="x.yaml")), new_case_id())
 
 
 # --- documents ---------------------------------------------------------------------------------
@@ -311,13 +285,14 @@ def test_pdf_info_is_emptied_in_place(tmp_path: Path) -> None:
     assert len(clean) == len(raw) and b"/Producer" not in clean and b"/CreationDate" not in clean
     (tmp_path / "a.pdf").write_bytes(raw)
     (tmp_path / "b.pdf").write_bytes(clean)
-    check = subprocess.run(["qpdf", "--check", str(tmp_path / "b.pdf")], capture_output=True)
-    assert check.returncode == 0, check.stdout
+    if shutil.which("qpdf"):
+        check = subprocess.run(["qpdf", "--check", str(tmp_path / "b.pdf")], capture_output=True)
+        assert check.returncode == 0, check.stdout
     text = [
         subprocess.run(["pdftotext", str(p), "-"], capture_output=True, text=True).stdout
         for p in (tmp_path / "a.pdf", tmp_path / "b.pdf")
     ]
-    assert (text[0] == text[1] and "Teaching case" in text[1]) or "PSV" in text[1]
+    assert text[0] == text[1] and "PSV" in text[1]
     with pytest.raises(CleanError, match="incremental update"):
         strip_pdf_info(raw.replace(b"/Size", b"/Prev 1 /Size"))
 
@@ -341,10 +316,10 @@ def test_png_keeps_image_chunks_only() -> None:
 def test_dicom_follows_the_confidentiality_profile(tmp_path: Path) -> None:
     from pydicom import dcmread
 
-    source = replace(
-        load_study(EXAMPLE), exam=replace(load_study(EXAMPLE).exam, study_uid="1.2.3.4")
+    base = load_study(EXAMPLE)
+    out = render_case(
+        replace(base, exam=replace(base.exam, study_uid="1.2.3.4")), "tc-bbbbb-ccccc", ("dcm",)
     )
-    out = render_case(source, "tc-bbbbb-ccccc", ("dcm",))
     assert out.clean, out.hits
     ds = dcmread(io.BytesIO(out.files["tc-bbbbb-ccccc.dcm"]))
     assert (str(ds.PatientName), ds.PatientID) == ("tc-bbbbb-ccccc^", "tc-bbbbb-ccccc")
@@ -377,11 +352,13 @@ def test_study_file_reloads_and_draws(tmp_path: Path) -> None:
 # --- the command ---------------------------------------------------------------------------------
 
 
-def test_formats_agree_and_the_command_registers() -> None:
+def test_formats_agree_and_the_command_registers(capsys: pytest.CaptureFixture[str]) -> None:
     assert FORMAT_CHOICES == TEACH_FORMATS
     group = click.Group("limbchart")
-    group.add_command(teach)
-    assert group.commands["teach"] is teach
+    group.add_command(teach)  # what cli.py does
+    with pytest.raises(SystemExit):
+        group.main(["teach", "--help"], prog_name="limbchart")
+    assert "limbchart teach [OPTIONS] INPUTS..." in capsys.readouterr().out
 
 
 def test_link_file_only_when_asked_and_never_inside_the_output(
@@ -424,7 +401,7 @@ def test_an_identifier_the_scrubber_misses_stops_that_case(
     assert code == 2
     assert "input 2 (" in err and ": not written: name found in the yaml output." in err
     assert "2 of 3 studies written as teaching cases, 1 failed." in err
-    assert leaks(err, what) == [] and leaks(err, planted[tmp_path / "in" / "study-0001.yaml"]) == []
+    assert what.found_in(err) == [] == planted[tmp_path / "in" / "study-0001.yaml"].found_in(err)
     audit = json.loads((out / "audit.json").read_text())["cases"]
     refused = [c for c in audit if c["status"] == "refused"]
     assert len(refused) == 1 and refused[0]["outputs"] == []
@@ -447,12 +424,24 @@ def test_a_label_layout_leaks_is_caught_in_svg_and_pdf(
         return replace(scene, items=(*scene.items, Group("planted-group", (label,))))
 
     monkeypatch.setattr(diagram.layout, "layout", leaky_layout)
+    named = tmp_path / "Testcase_Morgan_2026-11-20.yaml"  # a file named after the patient
+    shutil.copy(EXAMPLE, named)
     out = tmp_path / "out"
-    code, err = run([str(EXAMPLE), "-o", str(out), "--format", "svg", "--format", "pdf",
+    code, err = run([str(named), "-o", str(out), "--format", "svg", "--format", "pdf",
                      "--jobs", "1", "--quiet"], capsys)  # fmt: skip
     assert code == 2 and "testcase" not in err.lower() and "morgan" not in err.lower()
+    assert "2026-11-20" not in err and "_[removed]" in err  # the input named, scrubbed
     assert "name found in the svg output." in err and "name found in the pdf output." in err
     assert not list(out.glob("tc-*"))
+
+
+def test_sources_inside_the_output_folder_are_refused(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    shutil.copy(EXAMPLE, tmp_path / "s.yaml")
+    code, err = run([str(tmp_path / "s.yaml"), "-o", str(tmp_path)], capsys)
+    assert code == 2 and "holds 1 of the source studies" in err
+    assert not list(tmp_path.glob("tc-*")) and not (tmp_path / "audit.json").exists()
 
 
 def test_metadata_left_in_a_pdf_is_caught(monkeypatch: pytest.MonkeyPatch) -> None:
@@ -493,13 +482,13 @@ def test_two_hundred_studies_leave_no_identifier(
 
         def check(path: Path) -> tuple[str, list[str]]:
             text, prose = output_text(path, tmp_path)
-            return path.name, leaks(text, planted[sources[path.name.split(".")[0]]], prose)
+            return path.name, planted[sources[path.name.split(".")[0]]].found_in(text, prose)
 
         with ThreadPoolExecutor(max_workers=2) as pool:  # poppler runs as separate processes
             found = [r for r in pool.map(check, sorted(out.glob("tc-*"))) if r[1]]
         assert found == []
         audit = (out / "audit.json").read_text()
-        assert all(leaks(audit, p) == [] for p in planted.values())
+        assert all(p.found_in(audit) == [] for p in planted.values())
     assert len(sources) == 220
     for case, source in list(sources.items())[::10]:  # grading unchanged, from the YAML
         again = next((tmp_path / d / f"{case}.yaml") for d in ("out", "all") if
