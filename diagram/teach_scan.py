@@ -16,6 +16,7 @@ from collections.abc import Iterable, Iterator, Mapping
 from dataclasses import dataclass
 from typing import Any
 
+from diagram.errors import ExportError
 from diagram.teach_clean import PNG_CHUNKS_KEPT, CleanError, png_chunks
 from diagram.teach_patterns import Category
 from diagram.teach_scrub import Identifiers, find
@@ -69,7 +70,13 @@ def scan_svg(svg: bytes, ids: Identifiers) -> set[Category]:
 
 def scan_pdf(pdf: bytes, ids: Identifiers) -> set[Category]:
     """Return the categories found in a PDF's extracted text and any metadata left in it."""
-    from pypdf import PdfReader
+    try:
+        from pypdf import PdfReader
+    except ImportError:  # no PDF is written unread
+        raise ExportError(
+            "a teaching PDF (or DICOM) is read back before it is written, which needs pypdf: "
+            "'pip install pypdf'."
+        ) from None
 
     found: set[Category] = set()
     if any(key in pdf for key in _PDF_METADATA_KEYS):
