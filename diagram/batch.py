@@ -219,9 +219,10 @@ def run_batch(
     """Draw every task with ``jobs`` worker processes (in this process when 1).
 
     A KeyboardInterrupt (Ctrl-C, or a stop signal the command line turns into one, carrying the
-    signal number as ``signum``) ends the batch cleanly: studies not yet started are dropped,
-    those in progress are finished (at most ``DRAIN_SECONDS``, then their workers are stopped,
-    leaving no partial file), and the summary says what was done.
+    signal number as ``signum``) ends the batch cleanly: no study is started after it but those
+    already handed to workers (two per worker at most, for up to ``DRAIN_SECONDS`` before the
+    workers are stopped), a study in progress is finished or leaves no file, and the summary
+    says what was done.
     """
     summary = BatchSummary()
 
@@ -235,8 +236,11 @@ def run_batch(
 
     try:
         if jobs <= 1:
-            for task in tasks:
-                record(draw_one(task))
+            from diagram.export import held_signals
+
+            for task in tasks:  # like a worker: a study is drawn whole, or not started
+                with held_signals():
+                    record(draw_one(task))
         else:
             todo = deque(tasks)
             while todo:  # a new pool after one broke (a worker killed, say for memory)
@@ -249,8 +253,9 @@ def run_batch(
 
 DRAIN_SECONDS = 5.0  # after an interrupt, how long studies in progress may take to finish
 _BROKEN = (
-    "(file): not drawn: the worker process drawing it stopped unexpectedly "
-    "(killed, or out of memory?)."
+    "(file): outcome unknown: a worker process stopped unexpectedly (killed, or out of memory?) "
+    "while this study was in its hands; any output it left is complete; draw it again with "
+    "--overwrite to be sure."
 )
 
 
@@ -284,8 +289,9 @@ def _work(task: BatchTask) -> BatchResult:
 def _pool_round(todo: deque[BatchTask], jobs: int, record: Callable[[BatchResult], None]) -> None:
     """Draw tasks from ``todo`` in one pool, keeping a few per worker in flight.
 
-    Returns when ``todo`` is empty, or early when the pool broke (its studies in flight are
-    recorded as failed; the caller starts a new pool for the rest).
+    Returns when ``todo`` is empty, or early when the pool broke: its studies in flight are
+    recorded as failed with an unknown outcome (a worker may have written a study's files just
+    before another died), and the caller starts a new pool for the rest.
     """
     pending: dict[Future[BatchResult], BatchTask] = {}
     with ProcessPoolExecutor(max_workers=jobs, initializer=_worker_init) as pool:
@@ -320,14 +326,15 @@ def _drain(
     pending: dict[Future[BatchResult], BatchTask],
     record: Callable[[BatchResult], None],
 ) -> None:
-    """After an interrupt: drop what has not started and let what has finish, within limits.
+    """After an interrupt: submit nothing more and let the pool finish what it holds, in time.
 
-    Studies still running after ``DRAIN_SECONDS`` get SIGTERM (each worker finishes or drops its
-    study whole, then exits; its result is not counted); a worker still alive after as long
-    again is killed.
+    The pool holds at most two studies per worker. They are not cancelled: on Python 3.11 a
+    cancel can race the pool's own clean-up when its workers were signalled too, which then
+    fails in the pool's thread. Studies still running after ``DRAIN_SECONDS`` get SIGTERM (each
+    worker finishes or drops its study whole, then exits; that result is not counted); a worker
+    still alive after as long again is killed.
     """
-    running = [f for f in pending if not f.cancel()]
-    done, late = wait(running, timeout=DRAIN_SECONDS)
+    done, late = wait(pending, timeout=DRAIN_SECONDS)
     # Python 3.11 has no public way to stop a pool's workers; these are its worker processes.
     workers = list((pool._processes or {}).values()) if late else []
     for hard in (False, True):  # SIGTERM first, then SIGKILL
@@ -338,7 +345,7 @@ def _drain(
                 process.kill() if hard else process.terminate()
         finished, late = wait(late, timeout=DRAIN_SECONDS)
         done |= finished
-    for future in running:
+    for future in pending:
         if future in done and future.exception() is None:
             record(future.result())  # a study that failed normally is reported too
 

@@ -129,9 +129,13 @@ def _dcm(drawing: Drawing, options: ExportOptions) -> bytes:
 
 
 def _json(drawing: Drawing, options: ExportOptions) -> bytes:
-    return (
-        json.dumps(drawing.results, indent=2, sort_keys=False, ensure_ascii=False) + "\n"
-    ).encode("utf-8")
+    try:
+        text = json.dumps(drawing.results, indent=2, sort_keys=False, ensure_ascii=False)
+        return (text + "\n").encode("utf-8")
+    except UnicodeEncodeError:
+        # A lone surrogate (from a JSON study's "\ud800" escape) is no UTF-8 character: write
+        # every non-ASCII character as a JSON escape instead, the value exactly as it came in.
+        return (json.dumps(drawing.results, indent=2, sort_keys=False) + "\n").encode("ascii")
 
 
 WRITERS: dict[str, Writer] = {
@@ -159,15 +163,17 @@ def format_for(path: Path, forced: str | None = None) -> str:
 def render_bytes(drawing: Drawing, fmt: str, options: ExportOptions | None = None) -> bytes:
     """Return the drawing encoded in one format, without writing anything.
 
-    SIGINT and SIGTERM are held meanwhile (see ``_signals_held``) and handled when it returns.
+    SIGINT and SIGTERM are held meanwhile (see ``held_signals``) and handled once it returns.
     """
-    with _signals_held():
+    with held_signals():
         return WRITERS[fmt](drawing, options or ExportOptions())
 
 
 @contextlib.contextmanager
-def _signals_held() -> Iterator[None]:
-    """Hold SIGINT and SIGTERM while a drawing is encoded; they are handled once it is done.
+def held_signals() -> Iterator[None]:
+    """Hold SIGINT and SIGTERM in the main thread meanwhile; they are handled on the way out.
+
+    Used around encoding a drawing, and by a batch around each study it draws in-process.
 
     A handler that raises (Ctrl-C, or the command line's SIGTERM handler) could otherwise raise
     inside cairo's write callback, where cffi prints the exception and drops it, and cairo then
