@@ -50,10 +50,13 @@ NATIVE_CRITERIA = (ROOT / "diagram" / "criteria" / "native.yaml").read_text("utf
 
 
 # Open defects in other modules, found by these tests. Each has a strict-xfail reproducer in
-# test_open_defect_reproducer (bottom of this file). While one is open, a fuzz case that ends in
+# test_open_defect_reproducer (bottom of this file; fixed ones move to test_fixed_defect_...). While one is open, a fuzz case that ends in
 # it is set aside (hypothesis.reject) instead of failing, so the harness keeps guarding against
 # every other failure. When a fix lands the reproducer XPASSes, which fails: delete both entries.
-OPEN_DEFECTS: dict[tuple[str, str], str] = {}
+OPEN_DEFECTS: dict[tuple[str, str], str] = {
+    ("RuntimeError", "diagram/labprofile.py"): "a template path ~user/... for an unknown user",
+    ("OverflowError", "diagram/labprofile.py"): "a whole number too large for a float",
+}
 
 
 def defect(exc: BaseException) -> tuple[str, str]:
@@ -237,7 +240,7 @@ def numbers(low: float, high: float, *, above_low: bool = False) -> st.SearchStr
     ends = [high] if above_low else [low, high]
     parts: list[st.SearchStrategy[float]] = [
         st.sampled_from(ends),
-        st.floats(low, high, exclude_min=above_low, allow_nan=False, allow_subnormal=True),
+        st.floats(low, high, exclude_min=above_low, allow_nan=False),  # subnormals if in range
     ]
     first, last = math.floor(low) + 1 if above_low else math.ceil(low), math.floor(high)
     if first <= last:
@@ -846,6 +849,137 @@ def _dumpable(tree: Any) -> bool:
     return True
 
 
+# --- lab profiles -----------------------------------------------------------------------------
+
+EXAMPLE = ROOT / "examples" / "normal.yaml"
+TEXTURED = ("dots", "lines", "cross", "rings")
+ONE_LINE = st.text(st.characters(exclude_categories=["Cs", "Cc"]), min_size=1, max_size=80).filter(
+    lambda t: t.strip()
+)
+COLOURS = st.from_regex(r"\A#[0-9a-fA-F]{6}\Z")
+HATCHES = ("none", "dots", "lines", "cross", "solid")
+
+
+@st.composite
+def valid_lab_profiles(draw: st.DrawFn) -> dict[str, Any]:
+    """A lab profile that breaks none of the loader's rules (the study must draw with it)."""
+    from diagram.style import default_style
+    from diagram.template import shipped_templates
+
+    profile: dict[str, Any] = {}
+    optional(draw, profile, "format", st.just(1))
+    optional(draw, profile, "lab_name", ONE_LINE)
+    optional(draw, profile, "template", st.sampled_from(sorted(shipped_templates())))
+    optional(draw, profile, "page", st.sampled_from(("a4", "letter", "map")))
+    optional(
+        draw, profile, "font", st.sampled_from(("DejaVu Sans", "dejavu sans", " DejaVu Sans "))
+    )
+    defaults = default_style().band_map()
+    bands: dict[str, Any] = {}
+    for look in draw(st.lists(st.sampled_from(sorted(defaults)), unique=True, max_size=6)):
+        fields: dict[str, Any] = {}
+        optional(draw, fields, "tint", COLOURS)
+        optional(draw, fields, "ink", COLOURS)
+        hatches = (*HATCHES, "rings") if look == "not-assessed" else HATCHES
+        optional(draw, fields, "hatch", st.sampled_from(hatches))
+        optional(draw, fields, "spacing_pt", numbers(1, 12))
+        optional(draw, fields, "angle_deg", numbers(0, 179.999))
+        spacing = fields.get("spacing_pt", defaults[look].spacing_pt)
+        optional(draw, fields, "weight_pt", numbers(0.1, min(6, spacing / 2)))
+        hatch = fields.get("hatch", defaults[look].hatch)
+        weight = fields.get("weight_pt", defaults[look].weight_pt)
+        if hatch in TEXTURED and weight > spacing / 2:  # the default weight under a new spacing
+            fields["weight_pt"] = spacing / 2
+        bands[look] = fields
+    empty_too: bool = draw(st.booleans())  # an empty bands mapping is allowed too
+    if bands or empty_too:
+        profile["bands"] = bands
+    return profile
+
+
+def lab_runs(text: str | bytes, *, must_draw: bool = False, set_aside: bool = True) -> Run:
+    """Draw a study with a lab profile and parse the profile; check both against the contract."""
+    from diagram.labprofile import LabProfileError, parse_lab_profile
+
+    with case_folder() as folder, open_defects_set_aside(set_aside):
+        path = folder / "lab.yaml"
+        path.write_bytes(text if isinstance(text, bytes) else text.encode("utf-8", "surrogatepass"))
+        out_dir = folder / "out"
+        out_dir.mkdir()
+        target = out_dir / "out.svg"
+        drawn = run_cli(["draw", str(EXAMPLE), "--lab", str(path), "-o", str(target)])
+        note(f"draw: {drawn}")
+        left = sorted(os.listdir(out_dir))
+        if drawn.code == 0:
+            assert left == ["out.svg"], left
+            assert_complete(target)
+        else:
+            assert left == [], f"a failed draw left {left}"
+            assert_problems(drawn, must_name=str(path))
+        if must_draw:
+            assert drawn.code == 0, drawn.err
+        if isinstance(text, str):
+            try:
+                parse_lab_profile(text, "lab.yaml", folder)
+            except LabProfileError as err:
+                assert err.lines() and drawn.code == 2
+        assert sorted(os.listdir(folder)) == ["lab.yaml", "out"]
+        return drawn
+
+
+@settings(max_examples=cases(1))
+@given(profile=valid_lab_profiles(), style=STYLES)
+def test_a_valid_lab_profile_draws(profile: dict[str, Any], style: int) -> None:
+    lab_runs(crit_dump(profile, style), must_draw=True)
+
+
+@st.composite
+def mutated_lab_profiles(draw: st.DrawFn) -> tuple[dict[str, Any], str]:
+    profile = draw(valid_lab_profiles())
+    profile.setdefault("lab_name", "Example Lab")
+    spots = [(loc, value) for loc, value in places(profile) if loc]
+    loc, value = draw(st.sampled_from(spots))
+    holder = parent_of(profile, loc)
+    how = draw(st.sampled_from(("rename", "wrong type", "out of range", "drop", "any value")))
+    if how == "rename" and isinstance(loc[-1], str):
+        new = draw(typos(loc[-1]))
+        assume(new not in holder)
+        holder[new] = holder.pop(loc[-1])
+    elif how == "wrong type":
+        holder[loc[-1]] = draw(WRONG_TYPES.get(kind_of(value), SCALARS))
+    elif how == "out of range":
+        holder[loc[-1]] = draw(OUT_OF_RANGE)
+    elif how == "drop":
+        del holder[loc[-1]]
+    else:
+        holder[loc[-1]] = draw(TREES)
+    return profile, f"{how} at {loc}"
+
+
+@settings(max_examples=cases(2))
+@given(mutation=mutated_lab_profiles(), style=STYLES)
+def test_an_almost_valid_lab_profile_draws_or_is_refused(
+    mutation: tuple[dict[str, Any], str], style: int
+) -> None:
+    profile, what = mutation
+    note(what)
+    lab_runs(crit_dump(profile, style))
+
+
+@settings(max_examples=cases(2))
+@given(
+    source=st.one_of(
+        YAML_SOUP,
+        TREES.map(lambda t: yaml.safe_dump(t) if _dumpable(t) else "x: 1\n"),
+        st.binary(max_size=1000),
+    )
+)
+@example(source="bands: {lt50: {tint: #ECCB6A}}\n")  # a bare # starts a comment
+@example(source="a: " + "[" * 30 + "]" * 30 + "\n")
+def test_a_garbage_lab_profile_is_refused_never_a_traceback(source: str | bytes) -> None:
+    lab_runs(source)
+
+
 # --- defects found by fuzzing, fixed ---------------------------------------------------------------------------------
 
 
@@ -855,7 +989,7 @@ class Reproducer:
 
     defect: tuple[str, str]
     name: str
-    kind: str  # "study" or "criteria"
+    kind: str  # "study", "criteria" or "lab"
     text: str
     raises: type[BaseException]
 
@@ -935,3 +1069,45 @@ def test_fixed_defect_stays_fixed(case: Reproducer, _: None) -> None:
         study_runs(case.text, ".yaml", set_aside=False)
     else:
         criteria_runs(case.text, set_aside=False)
+
+
+# --- defects found by fuzzing, open -------------------------------------------------------------
+
+OPEN_REPRODUCERS = [
+    Reproducer(
+        ("RuntimeError", "diagram/labprofile.py"),
+        "lab-template-unknown-user",
+        "lab",
+        'template: "~nosuchuser/map.svg"\n',
+        RuntimeError,
+    ),
+    Reproducer(
+        ("OverflowError", "diagram/labprofile.py"),
+        "lab-huge-number",
+        "lab",
+        "bands: {lt50: {spacing_pt: 1" + "0" * 400 + "}}\n",
+        OverflowError,
+    ),
+]
+
+
+@pytest.mark.parametrize(
+    "case",
+    [
+        pytest.param(
+            r,
+            id=r.name,
+            marks=pytest.mark.xfail(raises=r.raises, strict=True, reason=OPEN_DEFECTS[r.defect]),
+        )
+        for r in OPEN_REPRODUCERS
+    ],
+)
+@settings(max_examples=1, database=None)
+@given(st.just(None))
+def test_open_defect_reproducer(case: Reproducer, _: None) -> None:
+    # the contract: a drawing or one-line problems; while the defect is open this raises
+    lab_runs(case.text, set_aside=False)
+
+
+def test_every_open_defect_has_a_reproducer() -> None:
+    assert {r.defect for r in OPEN_REPRODUCERS} == set(OPEN_DEFECTS)
