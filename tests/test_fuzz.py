@@ -56,6 +56,9 @@ NATIVE_CRITERIA = (ROOT / "diagram" / "criteria" / "native.yaml").read_text("utf
 OPEN_DEFECTS: dict[tuple[str, str], str] = {
     ("RuntimeError", "diagram/labprofile.py"): "a template path ~user/... for an unknown user",
     ("OverflowError", "diagram/labprofile.py"): "a whole number too large for a float",
+    # a ratio over the smallest float overflows to inf, which no Decimal context can quantize
+    ("InvalidOperation", "diagram/assess/grading.py"): "Vr = 800 / 5e-324 is inf",
+    ("InvalidOperation", "diagram/assess/indices.py"): "ABI = 100 / 5e-324 is inf",
 }
 
 
@@ -1075,6 +1078,20 @@ def test_fixed_defect_stays_fixed(case: Reproducer, _: None) -> None:
 
 OPEN_REPRODUCERS = [
     Reproducer(
+        ("InvalidOperation", GRADING),
+        "vr-infinite",
+        "study",
+        LEFT_SEGMENTS + "      CFA: {psv: 100}\n      SFA-P: {psv: 800, proximal_psv: 5.0e-324}\n",
+        decimal.InvalidOperation,
+    ),
+    Reproducer(
+        ("InvalidOperation", "diagram/assess/indices.py"),
+        "abi-infinite",
+        "study",
+        "format: 1\npressures:\n  brachial: {left: 5.0e-324}\n  left: {pt: 100}\n",
+        decimal.InvalidOperation,
+    ),
+    Reproducer(
         ("RuntimeError", "diagram/labprofile.py"),
         "lab-template-unknown-user",
         "lab",
@@ -1106,7 +1123,10 @@ OPEN_REPRODUCERS = [
 @given(st.just(None))
 def test_open_defect_reproducer(case: Reproducer, _: None) -> None:
     # the contract: a drawing or one-line problems; while the defect is open this raises
-    lab_runs(case.text, set_aside=False)
+    if case.kind == "study":
+        study_runs(case.text, ".yaml", set_aside=False)
+    else:
+        lab_runs(case.text, set_aside=False)
 
 
 def test_every_open_defect_has_a_reproducer() -> None:
