@@ -193,6 +193,9 @@ def held_signals() -> Iterator[None]:
 
 
 PART_SUFFIX = ".part"
+_CREATE_NEW = (
+    os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_CLOEXEC", 0) | getattr(os, "O_BINARY", 0)
+)
 
 
 def write_atomic(path: Path, data: bytes) -> None:
@@ -204,11 +207,13 @@ def write_atomic(path: Path, data: bytes) -> None:
     """
     folder = path.parent  # Path("m.svg").parent is Path(".")
     _check_target(path, folder)
-    tmp = folder / f".{path.name}.{secrets.token_hex(8)}{PART_SUFFIX}"
+    # at most 64 + 23 bytes, so that any name the folder takes has a temporary name too
+    stem = os.fsencode(path.name)[:64].decode("utf-8", "ignore")
+    tmp = folder / f".{stem}.{secrets.token_hex(8)}{PART_SUFFIX}"
     owned: Path | None = tmp  # what the cleanup removes; set before the file exists
     try:
         try:
-            fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL | os.O_CLOEXEC, 0o666)
+            fd = os.open(tmp, _CREATE_NEW, 0o666)
         except FileExistsError:
             owned = None  # another writer's file: never ours to remove
             raise
@@ -222,10 +227,8 @@ def write_atomic(path: Path, data: bytes) -> None:
         os.replace(tmp, path)
     except OSError as exc:
         raise ExportError(_cannot_write(path, folder, exc)) from None
-    except ValueError:  # a NUL byte in the name
-        raise ExportError(
-            f"{path}: is not a usable file name (it holds a NUL character)."
-        ) from None
+    except ValueError:  # a NUL character, or text no file name can hold
+        raise ExportError(f"{path}: is not a usable file name.") from None
     finally:
         if owned is not None:
             with contextlib.suppress(OSError):  # gone already once renamed into place

@@ -47,6 +47,7 @@ from diagram.summary import CAUTION
 ROOT = Path(__file__).resolve().parents[1]
 CASE_SECONDS = 60  # a case still running after this is a hang (hypothesis's deadline is 10 s)
 NATIVE_CRITERIA = (ROOT / "diagram" / "criteria" / "native.yaml").read_text("utf-8")
+EXAMPLE = ROOT / "examples" / "normal.yaml"
 
 
 # Open defects in other modules, found by these tests. Each has a strict-xfail reproducer in
@@ -59,6 +60,7 @@ OPEN_DEFECTS: dict[tuple[str, str], str] = {
     # a ratio over the smallest float overflows to inf, which no Decimal context can quantize
     ("InvalidOperation", "diagram/assess/grading.py"): "Vr = 800 / 5e-324 is inf",
     ("InvalidOperation", "diagram/assess/indices.py"): "ABI = 100 / 5e-324 is inf",
+    ("OSError", "diagram/cli.py"): "draw: Path(output).is_dir() raises for a name too long",
 }
 
 
@@ -162,11 +164,12 @@ def assert_problems(run: Run, must_name: str | None = None) -> list[str]:
 def assert_complete(path: Path) -> None:
     """Check that an output file is whole: it ends as its format ends and reads back."""
     data = path.read_bytes()
-    if path.suffix == ".svg":
+    kind = path.suffix.lower()
+    if kind == ".svg":
         assert data.rstrip().endswith(b"</svg>"), data[-80:]
         root = ET.fromstring(data)  # our own output: well-formed XML, no entities
         assert root.tag.endswith("svg")
-    elif path.suffix == ".json":
+    elif kind == ".json":
         assert isinstance(json.loads(data), dict)
     else:
         from pypdf import PdfReader
@@ -852,9 +855,44 @@ def _dumpable(tree: Any) -> bool:
     return True
 
 
+# --- output names -------------------------------------------------------------------------------
+
+OUTPUT_NAMES = st.text(
+    st.characters(exclude_characters="/\x00", exclude_categories=["Cs"]), min_size=1, max_size=300
+)
+
+
+def output_runs(name: str, *, set_aside: bool = True) -> Run:
+    """Draw the example into ``name`` in an empty folder; check the run against the contract."""
+    with case_folder() as folder, open_defects_set_aside(set_aside):
+        target = folder / name
+        drawn = run_cli(["draw", str(EXAMPLE), "-o", str(target)])
+        note(f"draw: {drawn}")
+        left = os.listdir(folder)
+        if drawn.code == 0:
+            assert left == [name], left
+            assert_complete(target)
+        else:
+            assert left == [], f"a failed draw left {left}"
+            assert_problems(drawn)
+        return drawn
+
+
+@settings(max_examples=cases(1.5))
+@given(
+    name=OUTPUT_NAMES,
+    suffix=st.sampled_from(("", ".svg", ".json", ".SVG", ".svg.json", ".txt", ".")),
+)
+@example(name="x" * 251, suffix=".svg")  # 255 bytes: the longest name a folder takes
+@example(name="é" * 126, suffix=".svg")  # 256 bytes: one too many
+@example(name="a\nb\x1b[2J", suffix=".svg")
+def test_any_output_name_is_written_or_refused_in_one_line(name: str, suffix: str) -> None:
+    assume(name + suffix not in (".", ".."))  # a folder: the batch form of draw, by design
+    output_runs(name + suffix)
+
+
 # --- lab profiles -----------------------------------------------------------------------------
 
-EXAMPLE = ROOT / "examples" / "normal.yaml"
 TEXTURED = ("dots", "lines", "cross", "rings")
 ONE_LINE = st.text(st.characters(exclude_categories=["Cs", "Cc"]), min_size=1, max_size=80).filter(
     lambda t: t.strip()
@@ -992,7 +1030,7 @@ class Reproducer:
 
     defect: tuple[str, str]
     name: str
-    kind: str  # "study", "criteria" or "lab"
+    kind: str  # "study", "criteria", "lab" or "output" (an output file name)
     text: str
     raises: type[BaseException]
 
@@ -1078,6 +1116,13 @@ def test_fixed_defect_stays_fixed(case: Reproducer, _: None) -> None:
 
 OPEN_REPRODUCERS = [
     Reproducer(
+        ("OSError", "diagram/cli.py"),
+        "output-name-too-long",
+        "output",
+        "x" * 300 + ".svg",
+        OSError,
+    ),
+    Reproducer(
         ("InvalidOperation", GRADING),
         "vr-infinite",
         "study",
@@ -1125,6 +1170,8 @@ def test_open_defect_reproducer(case: Reproducer, _: None) -> None:
     # the contract: a drawing or one-line problems; while the defect is open this raises
     if case.kind == "study":
         study_runs(case.text, ".yaml", set_aside=False)
+    elif case.kind == "output":
+        output_runs(case.text, set_aside=False)
     else:
         lab_runs(case.text, set_aside=False)
 
