@@ -516,6 +516,9 @@ class _Checker:
         elif kind == "minimum":
             limit = error.validator_value
             rule = "must not be negative." if limit == 0 else f"must be at least {_num(limit)}."
+        elif kind == "exclusiveMinimum" and loc[-1:] in (("psv",), ("proximal_psv",)):
+            rule = "must be greater than 0."
+            hint = "record no flow with occluded: true or flow: absent"
         elif kind == "exclusiveMinimum":
             rule = f"must be greater than {_num(error.validator_value)}."
         elif kind == "maximum" and loc[:1] == ("pressures",):

@@ -7,10 +7,10 @@ with the ratio printed beside it (117/90 is shown as 1.30 and graded as 1.30).
 from __future__ import annotations
 
 from dataclasses import replace
-from decimal import ROUND_HALF_UP, Decimal
 
 from diagram import anatomy
 from diagram.anatomy import SEGMENTS, Side
+from diagram.assess.indices import round_half_up
 from diagram.assess.results import (
     Finding,
     GraftResult,
@@ -45,8 +45,8 @@ _EPS = 1e-9
 
 
 def round_vr(value: float) -> float:
-    """Round a velocity ratio to two decimals, halves up."""
-    return float(Decimal(repr(value)).quantize(Decimal("0.01"), rounding=ROUND_HALF_UP))
+    """Round a velocity ratio to two decimals, halves up (any finite float, however large)."""
+    return round_half_up(value)
 
 
 def lesion_chain(lesion: Lesion) -> tuple[str, ...]:
@@ -171,8 +171,8 @@ class _LimbGrader:
         for up in anatomy.ancestors(segment):
             finding = self.limb.segments.get(up)
             band = self.bands.get(up, NOT_ASSESSED)
-            if finding is None or finding.psv is None or finding.occluded:
-                continue
+            if finding is None or finding.psv is None or finding.psv <= 0 or finding.occluded:
+                continue  # no usable reference (a study built in code may hold a PSV of 0)
             if self.sets.severity(band) >= SIGNIFICANT_SEVERITY:
                 continue
             diseased = self.sets.severity(band) > 0
@@ -203,7 +203,7 @@ class _LimbGrader:
         if sample.psv is None:
             return None, "none", None
         ref: Reference | None
-        if sample.proximal_psv is not None:
+        if sample.proximal_psv is not None and sample.proximal_psv > 0:
             ref = Reference(sample.proximal_psv, "proximal_psv", None)
         else:
             ref = self.reference(segment)
@@ -333,7 +333,7 @@ class _LimbGrader:
         what = f"limbs.{self.side.value}.grafts[{index}]"
         inflow = self.limb.segments.get(graft.from_)
         upstream: Reference | None = None
-        if inflow is not None and inflow.psv is not None and not inflow.occluded:
+        if inflow is not None and inflow.psv and inflow.psv > 0 and not inflow.occluded:
             upstream = Reference(inflow.psv, "segment", graft.from_)
         else:
             upstream = self.reference(graft.from_)
@@ -344,7 +344,11 @@ class _LimbGrader:
                 continue
             if sample.vr is not None:
                 vr, ref = round_vr(sample.vr), None
-            elif sample.psv is not None and sample.proximal_psv is not None:
+            elif (
+                sample.psv is not None
+                and sample.proximal_psv is not None
+                and sample.proximal_psv > 0
+            ):
                 ref = Reference(sample.proximal_psv, "proximal_psv", None)
                 vr = round_vr(sample.psv / ref.psv)
             elif sample.psv is not None and upstream is not None:
@@ -362,7 +366,7 @@ class _LimbGrader:
                 else:
                     band, basis = NOT_ASSESSED, "no velocity ratio and no band given"
             sites.append(GraftSite(site, band, sample.psv, vr, ref, basis))
-            if sample.psv is not None and self.sets.severity(band) < SIGNIFICANT_SEVERITY:
+            if sample.psv and sample.psv > 0 and self.sets.severity(band) < SIGNIFICANT_SEVERITY:
                 upstream = Reference(sample.psv, "graft", f"graft {site.replace('_', ' ')}")
         body = [
             graft.samples[s].psv

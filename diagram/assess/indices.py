@@ -5,7 +5,7 @@ Every threshold below is a table row with its published source (clinical-values.
 
 from __future__ import annotations
 
-from decimal import ROUND_HALF_UP, Decimal
+from decimal import ROUND_HALF_UP, Context, Decimal, localcontext
 
 from diagram.anatomy import Side
 from diagram.assess.results import Finding, LimbIndices
@@ -39,9 +39,19 @@ ARM_DIFF_NOTE = 10.0
 ARM_DIFF_FLAG = 15.0
 
 
+def round_half_up(value: float) -> float:
+    """Round to two decimals, halves up, exactly on the decimal value written (any finite float).
+
+    ``repr`` gives the shortest decimal that reads back as the float, so 0.855 rounds to 0.86
+    (binary 0.855 is a hair below it); the context is wide enough for the largest float.
+    """
+    with localcontext(Context(prec=400)):
+        return float(Decimal(repr(value)).quantize(Decimal("0.01"), rounding=ROUND_HALF_UP))
+
+
 def round2(value: float) -> float:
-    """Round to two decimals, halves up (an index is reported to two decimals)."""
-    return float(Decimal(repr(value)).quantize(Decimal("0.01"), rounding=ROUND_HALF_UP))
+    """Round an index to two decimals, halves up (an index is reported to two decimals)."""
+    return round_half_up(value)
 
 
 def abi_category(abi: float) -> str:

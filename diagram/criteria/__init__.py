@@ -20,6 +20,7 @@ from diagram.errors import CriteriaError, Problem
 
 NOT_ASSESSED = "not-assessed"
 _MAX_BYTES = 256 * 1024
+_MAX_DEPTH = 20
 _BAND_KEYS = ("id", "label", "look", "when", "occlusion", "source")
 LOOKS = ("normal", "lt50", "50-74", "75-99", "occluded")
 _WHEN_KEYS = ("vr_min", "psv_min", "match")
@@ -256,6 +257,22 @@ def _cached_parse(text: str, file: str, origin: str) -> Criteria:
     return parse_criteria(text, file, origin)
 
 
+def _refuse_complex_keys(root: Any, refuse: Any) -> None:
+    """Refuse a mapping key that is itself a list or a mapping (YAML allows it; we do not)."""
+    import yaml
+
+    stack = [root]
+    while stack:
+        node = stack.pop()
+        if isinstance(node, yaml.MappingNode):
+            for key, value in node.value:
+                if not isinstance(key, yaml.ScalarNode):
+                    raise refuse(key.start_mark, "must use plain words as keys.")
+                stack.append(value)
+        elif isinstance(node, yaml.SequenceNode):
+            stack.extend(node.value)
+
+
 def _is_number(v: Any) -> bool:
     return isinstance(v, int | float) and not isinstance(v, bool) and math.isfinite(v)
 
@@ -270,23 +287,37 @@ def parse_criteria(text: str, file: str, origin: str) -> Criteria:
         shown = None if value is None else repr(value)
         problems.append(Problem(file, line, field, shown, rule, hint))
 
+    def refuse(at: Any, rule: str) -> CriteriaError:
+        return CriteriaError([Problem(file, at.line + 1 if at else None, "", None, rule)])
+
     try:
-        # Refuse anchors and aliases before anything is built: they are how a YAML bomb expands.
+        # Screen the event stream before anything is built: anchors and aliases (how a YAML
+        # bomb expands), explicit tags (object construction) and deep nesting are refused.
+        depth = 0
         for event in yaml.parse(text, Loader=yaml.SafeLoader):
             if isinstance(event, yaml.AliasEvent) or getattr(event, "anchor", None):
-                at: Any = event.start_mark
-                raise CriteriaError(
-                    [Problem(file, at.line + 1, "", None, "must not use YAML anchors or aliases.")]
-                )
+                raise refuse(event.start_mark, "must not use YAML anchors or aliases.")
+            implicit = getattr(event, "implicit", True)
+            explicit = not any(implicit) if isinstance(implicit, tuple) else not implicit
+            if getattr(event, "tag", None) is not None and explicit:
+                raise refuse(event.start_mark, "must not use explicit YAML tags.")
+            if isinstance(event, yaml.CollectionStartEvent):
+                depth += 1
+                if depth > _MAX_DEPTH:
+                    raise refuse(event.start_mark, f"is nested deeper than {_MAX_DEPTH} levels.")
+            elif isinstance(event, yaml.CollectionEndEvent):
+                depth -= 1
         node = yaml.compose(text, Loader=yaml.SafeLoader)
+        if node is not None:
+            _refuse_complex_keys(node, refuse)
+        raw = yaml.safe_load(text)
     except yaml.YAMLError as exc:
         mark: Any = getattr(exc, "problem_mark", None)
         line = mark.line + 1 if mark is not None else None
         raise CriteriaError([Problem(file, line, "", None, "is not valid YAML.")]) from None
-    if node is None or not isinstance(node, yaml.MappingNode):
+    if node is None or not isinstance(node, yaml.MappingNode) or not isinstance(raw, dict):
         raise CriteriaError([Problem(file, 1, "", None, "must be a mapping of criteria fields.")])
     lines = {k.value: k.start_mark.line + 1 for k, _ in node.value}
-    raw = yaml.safe_load(text)
 
     for key in raw:
         if key not in _TOP_KEYS:
@@ -413,7 +444,7 @@ def parse_criteria(text: str, file: str, origin: str) -> Criteria:
     if bands and bands[-1:] and not bands[-1].occlusion and any(b.occlusion for b in bands):
         bad(lines.get("bands"), "bands", None, "must list the occlusion band last (the worst).")
     floor = raw.get("lesion_floor")
-    if floor is not None and floor not in seen:
+    if floor is not None and (not isinstance(floor, str) or floor not in seen):
         near = difflib.get_close_matches(str(floor), sorted(seen), n=1)
         bad(
             lines.get("lesion_floor"),
