@@ -17,6 +17,16 @@ from typing import TYPE_CHECKING, Any
 import click
 
 from diagram._version import __version__
+from diagram.cli_options import (
+    criteria_option,
+    dpi_option,
+    jobs_option,
+    page_option,
+    prior_option,
+    quiet_option,
+    target_option,
+    template_option,
+)
 from diagram.errors import DiagramError
 from diagram.summary import CAUTION
 
@@ -56,46 +66,19 @@ def cli() -> None:
     type=click.Choice(FORMATS),
     help="Output format, whatever the suffix; repeat it for several formats in a batch.",
 )
-@click.option(
-    "--page",
-    type=click.Choice(["a4", "letter", "map"]),
-    help="Page size, or 'map' for the map and legend alone [default: the lab's, else a4].",
-)
-@click.option(
-    "--template",
-    type=click.Path(dir_okay=False, path_type=Path),
-    help="A lab's own map template (SVG) or a shipped one by name "
-    "[default: the lab's, else bilateral].",
-)
+@page_option
+@template_option
 @click.option(
     "--lab",
     type=click.Path(dir_okay=False, path_type=Path),
     help="A lab profile (YAML): lab name, template, page and band style.",
 )
-@click.option(
-    "--criteria",
-    metavar="NAME|PATH",
-    help="Criteria set to grade with, instead of the one the study names.",
-)
-@click.option(
-    "--dpi",
-    type=click.FloatRange(36, 1200),
-    default=150,
-    show_default=True,
-    help="Resolution of PNG output.",
-)
-@click.option(
-    "--target",
-    type=click.Choice(["ATA", "PTA", "PER"]),
-    help="Tibial artery of the planning path (default: the least diseased).",
-)
-@click.option(
-    "--prior",
-    type=click.Path(dir_okay=False, path_type=Path),
-    help="An earlier exam to compare with (instead of the study's own prior:).",
-)
-@click.option("--jobs", type=click.IntRange(1, 256), help="Worker processes (default: CPU count).")
-@click.option("--quiet", is_flag=True, help="No progress bar and no per-study lines.")
+@criteria_option
+@dpi_option
+@target_option
+@prior_option
+@jobs_option
+@quiet_option
 @click.option("--overwrite", is_flag=True, help="Replace existing files in the output folder.")
 @click.option(
     "--name",
@@ -231,21 +214,9 @@ def _draw_batch(
 @cli.command()
 @click.argument("study", type=click.Path(dir_okay=False, path_type=Path))
 @click.option("--json", "as_json", is_flag=True, help="Print the results document as JSON.")
-@click.option(
-    "--criteria",
-    metavar="NAME|PATH",
-    help="Criteria set to grade with, instead of the one the study names.",
-)
-@click.option(
-    "--target",
-    type=click.Choice(["ATA", "PTA", "PER"]),
-    help="Tibial artery of the planning path (default: the least diseased).",
-)
-@click.option(
-    "--prior",
-    type=click.Path(dir_okay=False, path_type=Path),
-    help="An earlier exam to compare with (instead of the study's own prior:).",
-)
+@criteria_option
+@target_option
+@prior_option
 def check(
     study: Path, as_json: bool, criteria: str | None, target: str | None, prior: Path | None
 ) -> None:

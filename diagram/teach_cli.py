@@ -12,6 +12,8 @@ from pathlib import Path
 
 import click
 
+from diagram.cli_options import dpi_option, jobs_option
+
 # the same as diagram.teach.TEACH_FORMATS (a test keeps them equal)
 FORMAT_CHOICES = ("pdf", "svg", "png", "dcm", "yaml")
 DEFAULT_FORMATS = ("pdf", "yaml")
@@ -52,14 +54,8 @@ DEFAULT_FORMATS = ("pdf", "yaml")
     type=click.Path(dir_okay=False, path_type=Path),
     help="A lab's own map template (SVG); the shipped bilateral map by default.",
 )
-@click.option(
-    "--dpi",
-    type=click.FloatRange(36, 1200),
-    default=150,
-    show_default=True,
-    help="Resolution of PNG output.",
-)
-@click.option("--jobs", type=click.IntRange(1, 256), help="Worker processes (default: CPU count).")
+@dpi_option
+@jobs_option
 @click.option("--quiet", is_flag=True, help="No progress bar.")
 def teach(
     inputs: tuple[Path, ...],

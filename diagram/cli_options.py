@@ -1,0 +1,47 @@
+"""Options shared by several commands, defined once so their names and help stay the same."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import click
+
+PAGES = ("a4", "letter", "map")
+
+page_option = click.option(
+    "--page",
+    type=click.Choice(PAGES),
+    help="Page size, or 'map' for the map and legend alone [default: the lab's, else a4].",
+)
+template_option = click.option(
+    "--template",
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="A lab's own map template (SVG) or a shipped one by name "
+    "[default: the lab's, else bilateral].",
+)
+criteria_option = click.option(
+    "--criteria",
+    metavar="NAME|PATH",
+    help="Criteria set to grade with, instead of the one the study names.",
+)
+target_option = click.option(
+    "--target",
+    type=click.Choice(["ATA", "PTA", "PER"]),
+    help="Tibial artery of the planning path (default: the least diseased).",
+)
+prior_option = click.option(
+    "--prior",
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="An earlier exam to compare with (instead of the study's own prior:).",
+)
+dpi_option = click.option(
+    "--dpi",
+    type=click.FloatRange(36, 1200),
+    default=150,
+    show_default=True,
+    help="Resolution of PNG output.",
+)
+jobs_option = click.option(
+    "--jobs", type=click.IntRange(1, 256), help="Worker processes (default: CPU count)."
+)
+quiet_option = click.option("--quiet", is_flag=True, help="No progress bar and no per-study lines.")
