@@ -465,6 +465,68 @@ def test_drawing_a_study_needs_no_write_access_beside_the_study(tmp_path: Path) 
     assert os.listdir(study.parent) == ["s.yaml"] and os.listdir(out) == ["m.svg"]
 
 
+@pytest.mark.parametrize(
+    ("length", "accepted"),
+    [(250, True), (255, True), (256, False)],  # bytes; 255 is the usual file system limit
+)
+def test_the_longest_name_a_folder_takes_is_written(
+    tmp_path: Path, length: int, accepted: bool
+) -> None:
+    target = tmp_path / ("m" * (length - 4) + ".svg")
+    if accepted:
+        write_atomic(target, b"<svg/>")
+        assert os.listdir(tmp_path) == [target.name]
+        return
+    with pytest.raises(ExportError) as caught:
+        write_atomic(target, b"<svg/>")
+    assert caught.value.lines() == [f"{target}: cannot be written: the file name is too long."]
+    assert os.listdir(tmp_path) == []
+
+
+@pytest.mark.parametrize(
+    ("done", "failed", "stopped_by", "line", "status"),
+    [
+        (40, 0, None, "40 of 40 studies drawn, 0 failed.", 0),
+        (39, 1, None, "39 of 40 studies drawn, 1 failed.", 2),
+        (
+            3,
+            1,
+            signal.SIGINT,
+            "3 of 40 studies drawn, 1 failed, 36 not drawn (interrupted by SIGINT).",
+            130,
+        ),
+        (
+            3,
+            0,
+            signal.SIGTERM,
+            "3 of 40 studies drawn, 0 failed, 37 not drawn (interrupted by SIGTERM).",
+            143,
+        ),
+    ],
+)
+def test_the_batch_summary_line_and_exit_status(
+    done: int, failed: int, stopped_by: int | None, line: str, status: int
+) -> None:
+    from diagram.batch import BatchSummary
+
+    summary = BatchSummary(
+        done=done, failed=failed, interrupted=stopped_by is not None, signal=stopped_by
+    )
+    assert summary.line(40) == line
+    assert summary.exit_status == status
+
+
+def test_a_message_is_one_line_whatever_the_file_holds(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # a key with a line break and a terminal escape: printed escaped, on one line
+    study = tmp_path / "s.json"
+    study.write_text('{"format": 1, "a\\nb\\u001b[2J": 1}')
+    code, _, err = run(["check", str(study)], capsys)
+    assert code == 2
+    assert err == f"{study}:1: a\\nb\\x1b[2J: is not a known key.\n"
+
+
 # --- no traceback from bad input --------------------------------------------------------------------
 
 BAD_TEXT = {
