@@ -19,32 +19,14 @@ import itertools
 import math
 from dataclasses import dataclass, field
 
-from diagram.pathdata import (
-    IDENTITY,
-    Affine,
-    Bezier,
-    Point,
-    format_number,
-    format_point,
-    parse_transform,
-    read_path,
-    transform_path_d,
-)
-
-__all__ = [  # what other modules import from here, path data reading included
-    "IDENTITY",
-    "Affine",
-    "Cubic",
-    "Line",
-    "PathGeometry",
-    "Piece",
-    "Point",
-    "Subpath",
-    "format_number",
-    "parse_path",
-    "parse_transform",
-    "transform_path_d",
-]
+# Path data reading lives in diagram.pathdata; these names stay importable from here.
+from diagram.pathdata import IDENTITY as IDENTITY
+from diagram.pathdata import Affine as Affine
+from diagram.pathdata import Bezier, format_point, read_path
+from diagram.pathdata import Point as Point
+from diagram.pathdata import format_number as format_number
+from diagram.pathdata import parse_transform as parse_transform
+from diagram.pathdata import transform_path_d as transform_path_d
 
 _GL_ORDER = 10
 _TABLE_TOL = 1e-9  # units: how closely each table interval's length must agree on refinement
