@@ -31,14 +31,9 @@ downstream of it, e.g. ``"right:POP-BK"``) or ``AO`` (the whole tree).
 Geometry is in the root viewBox's user units with every ``transform`` attribute of the element and
 its ancestors applied.
 
-Refused, without anything being read or fetched beyond the file itself: files over
-``MAX_TEMPLATE_BYTES``, more than ``MAX_ELEMENTS`` elements or ``MAX_DEPTH`` levels of nesting,
-path data over ``MAX_PATH_CHARS``, a root ``width``/``height`` that is not a sane length, DTDs and
-entity declarations, ``href``/``xlink:href`` not starting with ``#``, ``url(...)`` not pointing at
-``#...``, ``@import``, ``<?xml-stylesheet?>``, ``<script>``, ``<foreignObject>`` and other
-embedding elements, animation elements (they rewrite attributes), ``on*`` event attributes, nested
-``<svg>``, and CSS ``transform`` in a ``style`` attribute (it would move geometry without the
-reader seeing it).
+The file is read by :mod:`diagram.svgread`, which refuses hostile content (DTDs and entities,
+external references, scripts, event attributes, embedded and animation elements, absurd sizes);
+files over ``MAX_TEMPLATE_BYTES`` are refused unread.
 """
 
 from __future__ import annotations
@@ -56,20 +51,24 @@ from typing import TYPE_CHECKING, Any
 
 from diagram import anatomy
 from diagram.errors import Problem, TemplateError
-from diagram.geometry import IDENTITY, Affine, PathGeometry, parse_transform, transform_path_d
+from diagram.geometry import PathGeometry
+from diagram.pathdata import Affine, transform_path_d
+
+# Safe reading lives in diagram.svgread; its limits stay importable from here.
+from diagram.svgread import MAX_DEPTH as MAX_DEPTH
+from diagram.svgread import MAX_ELEMENTS as MAX_ELEMENTS
+from diagram.svgread import MAX_PATH_CHARS as MAX_PATH_CHARS
+from diagram.svgread import MAX_VIEWBOX as MAX_VIEWBOX
+from diagram.svgread import SVG_NS as SVG_NS
+from diagram.svgread import Element, SvgReader, clip
 
 if TYPE_CHECKING:
-    from xml.sax.xmlreader import AttributesNSImpl, Locator
+    from xml.sax.xmlreader import AttributesNSImpl
 
-SVG_NS = "http://www.w3.org/2000/svg"
 INKSCAPE_NS = "http://www.inkscape.org/namespaces/inkscape"
 SHIPPED_TEMPLATE = "bilateral.svg"
 MAX_TEMPLATE_BYTES = 5_000_000
-MAX_ELEMENTS = 100_000  # far above any hand-drawn map; a file past it is refused unread to its end
-MAX_DEPTH = 100  # levels of element nesting
-MAX_PATH_CHARS = 200_000  # path data of one element
 JOIN_TOLERANCE = 1.5  # units: a child may start this far from its parent's distal end
-MAX_VIEWBOX = 100_000.0
 # A declared length or diameter within this factor of the segment's nominal value is plausible
 # (own margin): it allows any adult variant yet catches millimetres written for centimetres.
 PLAUSIBLE_FACTOR = 3.0
@@ -113,12 +112,7 @@ LATERAL_PAIRS: tuple[tuple[str, str], ...] = (
     ("PER-M", "PTA-M"),
 )
 
-_REFUSED_ELEMENTS = frozenset(
-    {"script", "foreignobject", "iframe", "embed", "object", "handler"}
-    | {"animate", "animatemotion", "animatetransform", "set", "discard"}  # they rewrite attributes
-)
 _LAYERS = ("silhouette", "landmarks", "vessels")
-_HIDDEN_CONTAINERS = frozenset({"defs", "symbol", "clippath", "mask", "pattern", "marker"})
 _CENTRE_LINES = frozenset({"path", "line", "polyline"})
 _OUTLINE_SHAPES = frozenset({"path", "line", "polyline", "polygon", "rect", "circle", "ellipse"})
 _SIDE_WORDS = MappingProxyType(
@@ -136,8 +130,6 @@ _NAMED = re.compile(
     r"(?:[\s_.:-]+(?P<post>right|left|rt|lt|r|l))?$",
     re.IGNORECASE,
 )
-_LENGTH = re.compile(r"^\s*(\d+(?:\.\d*)?|\.\d+)\s*(?:px|pt|pc|mm|cm|in|%)?\s*$")
-_URL = re.compile(r"url\(\s*(['\"]?)(.*?)\1\s*\)", re.IGNORECASE | re.DOTALL)
 
 
 @dataclass(frozen=True)
@@ -299,16 +291,7 @@ def _parse_cached(
     return _build(reader, display, Path(resolved).stem)
 
 
-# --------------------------------------------------------------------------- reading the XML
-
-
-@dataclass(frozen=True)
-class _Frame:
-    tag: str
-    transform: Affine
-    group: str  # "silhouette", "landmarks", "vessels" or ""
-    hidden: bool  # inside defs/symbol/clipPath/...: never drawn
-    side: str | None  # inherited data-side
+# --------------------------------------------------------------------------- collecting the map
 
 
 @dataclass(frozen=True)
@@ -323,247 +306,36 @@ class _RawVessel:
     diameter: str | None
 
 
-class _TooLarge(Exception):
-    """Stop reading: the file is past a size limit."""
-
-    def __init__(self, where: str, value: str | None, rule: str) -> None:
-        super().__init__(rule)
-        self.where, self.value, self.rule = where, value, rule
-
-
 @dataclass
-class _Reader:
-    """SAX content handler collecting vessels, outlines and every problem met on the way."""
+class _Reader(SvgReader):
+    """The safe reader, collecting vessels, outlines and the declared coverage on the way."""
 
-    file: str
-    problems: list[Problem] = field(default_factory=list)
     vessels: list[_RawVessel] = field(default_factory=list)
     silhouette: list[str] = field(default_factory=list)
     landmarks: list[str] = field(default_factory=list)
-    viewbox: tuple[float, float, float, float] | None = None
-    _stack: list[_Frame] = field(default_factory=list)
-    _locator: Locator | None = None
-    fatal: bool = False  # the XML could not be read to its end: contract checks are moot
     coverage: tuple[str, int | None] | None = None  # data-coverage of the root, with its line
-    root_line: int | None = None
-    title: list[str] = field(default_factory=list)
-    elements: int = 0
-    _style_text: list[str] = field(default_factory=list)
+    # Per open element: its layer ("silhouette", "landmarks", "vessels" or "") and data-side.
+    _scopes: list[tuple[str, str | None]] = field(default_factory=list)
 
-    def feed(self, data: bytes) -> None:
-        from xml.sax import SAXException, SAXParseException
-        from xml.sax.handler import ContentHandler
-
-        from defusedxml import DefusedXmlException
-        from defusedxml.expatreader import DefusedExpatParser
-
-        reader = self
-
-        class Handler(ContentHandler):
-            def setDocumentLocator(self, locator: Locator) -> None:
-                reader._locator = locator
-
-            def startElementNS(
-                self, name: tuple[str | None, str], qname: str | None, attrs: AttributesNSImpl
-            ) -> None:
-                reader.start(name, attrs)
-
-            def endElementNS(self, name: tuple[str | None, str], qname: str | None) -> None:
-                if reader._stack.pop().tag == "style":
-                    # Checked whole: the parser may split text anywhere, even inside "url(".
-                    reader.check_css("".join(reader._style_text), "style")
-                    reader._style_text.clear()
-
-            def characters(self, content: str) -> None:
-                if reader._stack and reader._stack[-1].tag == "style":
-                    reader._style_text.append(content)
-                elif len(reader._stack) == 2 and reader._stack[-1].tag == "title":
-                    reader.title.append(content)
-
-            def processingInstruction(self, target: str, data: str) -> None:
-                if target.lower() == "xml-stylesheet":
-                    reader.problem(
-                        "<?xml-stylesheet?>",
-                        data,
-                        "external stylesheets are refused",
-                        "remove the processing instruction",
-                    )
-
-        parser = DefusedExpatParser(
-            namespaceHandling=1, forbid_dtd=True, forbid_entities=True, forbid_external=True
-        )
-        parser.setContentHandler(Handler())
-        from io import BytesIO
-        from xml.sax.xmlreader import InputSource
-
-        source = InputSource()
-        source.setByteStream(BytesIO(data))
-        try:
-            parser.parse(source)
-        except _TooLarge as exc:
-            self.fatal = True
-            self.problem(exc.where, exc.value, exc.rule, "simplify the artwork")
-        except DefusedXmlException:
-            self.fatal = True
-            self.problem(
-                "<!DOCTYPE>",
-                None,
-                "DTDs, entity declarations and external entities are refused",
-                "remove the <!DOCTYPE ...> declaration and any entities",
-            )
-        except SAXParseException as exc:
-            self.fatal = True
-            rule = f"is not well-formed XML: {exc.getMessage()}"
-            self.problems.append(Problem(self.file, exc.getLineNumber(), "xml", None, rule))
-        except SAXException as exc:
-            self.fatal = True
-            self.problem("xml", None, f"cannot be read as XML: {exc.getMessage()}")
-
-    def line(self) -> int | None:
-        return self._locator.getLineNumber() if self._locator is not None else None
-
-    def problem(
-        self,
-        where: str,
-        value: str | None,
-        rule: str,
-        hint: str | None = None,
-        line: int | None = None,
-    ) -> None:
-        at = line if line is not None else self.line()
-        self.problems.append(Problem(self.file, at, where, _quote(value), rule, hint))
-
-    def start(self, name: tuple[str | None, str], attrs: AttributesNSImpl) -> None:
-        uri, local = name
-        tag = local.lower()
-        plain = {k[1]: v for k, v in attrs.items() if k[0] is None}
-        where = _describe(local, plain)
-        self.elements += 1
-        if self.elements > MAX_ELEMENTS:
-            raise _TooLarge(where, None, f"more than {MAX_ELEMENTS} elements are refused")
-        if len(self._stack) >= MAX_DEPTH:
-            raise _TooLarge(where, None, f"nesting deeper than {MAX_DEPTH} levels is refused")
-        self.check_attributes(where, attrs)
-        parent = self._stack[-1] if self._stack else None
-        if parent is None:
-            self.root(uri, local, plain)
-        elif tag == "svg":
-            self.problem(
-                where,
-                None,
-                "nested <svg> elements are not read",
-                "turn it into a <g> with a transform",
-            )
-        if tag in _REFUSED_ELEMENTS:
-            self.problem(
-                where,
-                None,
-                f"<{local}> is refused in a map template",
-                "remove it: the template is read as data only",
-            )
-        transform = parent.transform if parent else IDENTITY
-        if "transform" in plain:
-            try:
-                transform = transform @ parse_transform(plain["transform"])
-            except ValueError as exc:
-                self.problem(f"{where}.transform", plain["transform"], str(exc))
-        group = parent.group if parent else ""
-        label = attrs.get((INKSCAPE_NS, "label"), "") if tag == "g" else ""
+    def element(self, el: Element) -> None:
+        parent = self._scopes[-1] if self._scopes else None
+        if parent is None and "data-coverage" in el.plain:
+            self.coverage = (el.plain["data-coverage"], self.root_line)
+        tag, plain = el.tag, el.plain
+        group = parent[0] if parent else ""
+        label = el.attrs.get((INKSCAPE_NS, "label"), "") if tag == "g" else ""
         for layer_name in (plain.get("id", ""), label):
             if tag == "g" and layer_name.strip().lower() in _LAYERS:
                 group = layer_name.strip().lower()
-        hidden = (parent.hidden if parent else False) or tag in _HIDDEN_CONTAINERS
-        side = parent.side if parent else None
+        side = parent[1] if parent else None
         if "data-side" in plain and tag not in _CENTRE_LINES:
             side = _side_word(plain["data-side"]) or side
-        self._stack.append(_Frame(tag, transform, group, hidden, side))
-        if uri == SVG_NS and tag in _OUTLINE_SHAPES | _CENTRE_LINES:
-            self.shape(tag, where, plain, attrs, transform, group, hidden, side)
+        self._scopes.append((group, side))
+        if el.uri == SVG_NS and tag in _OUTLINE_SHAPES | _CENTRE_LINES:
+            self.shape(tag, el.where, plain, el.attrs, el.transform, group, el.hidden, side)
 
-    def root(self, uri: str | None, local: str, plain: dict[str, str]) -> None:
-        if uri != SVG_NS or local != "svg":
-            self.problem(
-                f"<{local}>",
-                uri,
-                "the root element must be <svg> in the SVG namespace",
-                f'use <svg xmlns="{SVG_NS}" viewBox="...">',
-            )
-        self.root_line = self.line()
-        if "data-coverage" in plain:
-            self.coverage = (plain["data-coverage"], self.root_line)
-        for key in ("width", "height"):
-            m = _LENGTH.match(plain.get(key, "1"))
-            if m is None or not 0 < float(m.group(1)) <= MAX_VIEWBOX:
-                self.problem(
-                    f"svg.{key}",
-                    plain[key],
-                    f"must be a length above 0 and at most {MAX_VIEWBOX:.0f} (number and unit)",
-                    f'e.g. {key}="210mm", or leave it out',
-                )
-        raw = plain.get("viewBox")
-        if raw is None:
-            self.problem("svg.viewBox", None, "is missing", 'add viewBox="0 0 400 1000"')
-            return
-        try:
-            box = [float(v) for v in re.split(r"[\s,]+", raw.strip())]
-        except ValueError:
-            box = []
-        if (
-            len(box) != 4
-            or not all(math.isfinite(v) and abs(v) <= MAX_VIEWBOX for v in box)
-            or not all(1 <= v <= MAX_VIEWBOX for v in box[2:])
-        ):
-            self.problem(
-                "svg.viewBox",
-                raw,
-                "must be four numbers: min-x min-y width height, with width and height "
-                f"between 1 and {MAX_VIEWBOX:.0f}",
-                'e.g. viewBox="0 0 400 1000"',
-            )
-            return
-        self.viewbox = (box[0], box[1], box[2], box[3])
-
-    def check_attributes(self, where: str, attrs: AttributesNSImpl) -> None:
-        for (_ns, local), value in attrs.items():
-            if local.lower().startswith("on"):
-                self.problem(
-                    f"{where}.{local}",
-                    value,
-                    "event attributes are refused",
-                    "remove it: the template is read as data only",
-                )
-            elif local == "href" and not value.strip().startswith("#"):
-                self.problem(
-                    f"{where}.href",
-                    value,
-                    "external references are refused",
-                    "embed the artwork as paths; only '#id' references are allowed",
-                )
-            elif local == "style":
-                self.check_css(value, f"{where}.style")
-                if re.search(r"(^|[;\s])transform\s*:", value):
-                    self.problem(
-                        f"{where}.style",
-                        value,
-                        "CSS transform is not read",
-                        "use the transform attribute instead",
-                    )
-            else:
-                self.check_css(value, f"{where}.{local}", imports=False)
-
-    def check_css(self, text: str, where: str, imports: bool = True) -> None:
-        for m in _URL.finditer(text):
-            if not m.group(2).strip().startswith("#"):
-                self.problem(
-                    where,
-                    m.group(0),
-                    "external references are refused",
-                    "only url(#id) references are allowed",
-                )
-        if imports and "@import" in text.lower():
-            self.problem(
-                where, "@import", "external stylesheets are refused", "put the rules in the file"
-            )
+    def end_element(self) -> None:
+        self._scopes.pop()
 
     def shape(
         self,
@@ -602,7 +374,7 @@ class _Reader:
             self.problem(
                 where,
                 None,
-                f"is inside <{self._hidden_tag()}> and never drawn",
+                f"is inside <{self.hidden_tag()}> and never drawn",
                 "move it into the vessels layer",
             )
             return
@@ -621,48 +393,13 @@ class _Reader:
                 )
             )
 
-    def _hidden_tag(self) -> str:
-        return next(f.tag for f in self._stack if f.tag in _HIDDEN_CONTAINERS)
-
-    def shape_d(self, tag: str, where: str, plain: dict[str, str]) -> str | None:
-        try:
-            d = _shape_to_d(tag, plain)
-        except ValueError as exc:
-            self.problem(where, None, str(exc))
-            return None
-        if len(d) > MAX_PATH_CHARS:
-            self.problem(
-                where,
-                f"{len(d)} characters",
-                f"path data longer than {MAX_PATH_CHARS} characters is refused",
-                "simplify the path",
-            )
-            return None
-        return d
-
     def outline(self, group: str, where: str, d: str, transform: Affine) -> None:
         try:
             absolute = transform_path_d(d, transform)
         except ValueError as exc:
-            self.problem(f"{where}.d", _clip(d), str(exc))
+            self.problem(f"{where}.d", clip(d), str(exc))
             return
         (self.silhouette if group == "silhouette" else self.landmarks).append(absolute)
-
-
-def _quote(value: str | None) -> str | None:
-    return None if value is None else repr(_clip(value))
-
-
-def _clip(text: str, limit: int = 60) -> str:
-    return text if len(text) <= limit else text[: limit - 3] + "..."
-
-
-def _describe(local: str, plain: dict[str, str]) -> str:
-    for key in ("data-segment", "id"):
-        if key in plain:
-            extra = f"[data-side={plain['data-side']}]" if "data-side" in plain else ""
-            return f"{local}[{key}={_clip(plain[key], 30)}]{extra}"
-    return local
 
 
 def _side_word(text: str) -> str | None:
@@ -723,45 +460,6 @@ def _check_side(
             (f"{segment} needs a side", None, 'add data-side="right" or data-side="left"')
         )
     return side
-
-
-def _shape_to_d(tag: str, a: dict[str, str]) -> str:
-    """Return path data for a basic shape; ValueError when an attribute is missing or bad."""
-
-    def num(key: str, default: float | None = None) -> float:
-        raw = a.get(key)
-        if raw is None:
-            if default is None:
-                raise ValueError(f"<{tag}> needs a {key} attribute")
-            return default
-        try:
-            value = float(raw.strip().removesuffix("px"))
-        except ValueError:
-            raise ValueError(f"<{tag}> {key}={raw!r} is not a number") from None
-        if not math.isfinite(value):
-            raise ValueError(f"<{tag}> {key}={raw!r} is not a finite number")
-        return value
-
-    if tag == "path":
-        if "d" not in a:
-            raise ValueError("<path> needs a d attribute")
-        return a["d"]
-    if tag == "line":
-        return f"M {num('x1', 0)} {num('y1', 0)} L {num('x2', 0)} {num('y2', 0)}"
-    if tag in ("polyline", "polygon"):
-        pts = a.get("points", "").strip()
-        if not pts:
-            raise ValueError(f"<{tag}> needs a points attribute")
-        return f"M {pts}" + (" Z" if tag == "polygon" else "")
-    if tag == "rect":
-        x, y, w, h = num("x", 0), num("y", 0), num("width"), num("height")
-        return f"M {x} {y} H {x + w} V {y + h} H {x} Z"
-    if tag == "circle":
-        rx = ry = num("r")
-    else:
-        rx, ry = num("rx"), num("ry")
-    cx, cy = num("cx", 0), num("cy", 0)
-    return f"M {cx - rx} {cy} A {rx} {ry} 0 1 0 {cx + rx} {cy} A {rx} {ry} 0 1 0 {cx - rx} {cy} Z"
 
 
 # --------------------------------------------------------------------------- the contract
@@ -944,7 +642,7 @@ def _coverage(reader: _Reader, add: Add) -> tuple[str, frozenset[str] | None]:
         add(
             line,
             "svg.data-coverage",
-            repr(_clip(raw)),
+            repr(clip(raw)),
             f"must be {', '.join(COVERAGES)} or a list of SIDE:SEGMENT subtrees ({exc})",
             f"did you mean {near[0]}?" if near else 'e.g. data-coverage="right:POP-BK"',
         )
@@ -958,7 +656,7 @@ def _vessel(
     try:
         geometry = PathGeometry.from_d(raw.d, raw.transform)
     except ValueError as exc:
-        add(raw.line, f"{raw.where}.d", repr(_clip(raw.d)), str(exc))
+        add(raw.line, f"{raw.where}.d", repr(clip(raw.d)), str(exc))
         return None
     nominal_cm = anatomy.SEGMENTS[raw.segment].length_cm
     nominal_mm = NOMINAL_DIAMETER_MM[raw.segment]
