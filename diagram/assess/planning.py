@@ -26,26 +26,23 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
-from enum import StrEnum
 
-from diagram.anatomy import SEGMENT_IDS, SEGMENTS, UNPAIRED, Side
+from diagram.anatomy import SEGMENT_IDS, SEGMENTS, UNPAIRED
 from diagram.assess.grading import FOCAL_LENGTH_CM
+
+# The summary's dataclasses live in diagram.assess.plan_results; they stay importable from here.
+from diagram.assess.plan_results import LevelSummary as LevelSummary
+from diagram.assess.plan_results import Occlusion as Occlusion
+from diagram.assess.plan_results import PlanLevel as PlanLevel
+from diagram.assess.plan_results import Planning as Planning
+from diagram.assess.plan_results import RunoffVessel as RunoffVessel
+from diagram.assess.plan_results import VesselGrade as VesselGrade
 from diagram.assess.results import LimbResult, Span
 from diagram.criteria import LOOK_SEVERITY, SIGNIFICANT_SEVERITY, CriteriaSets
 from diagram.study import Plaque, Study
 
 OCCLUDED = LOOK_SEVERITY["occluded"]
 _EPS = 1e-6
-
-
-class PlanLevel(StrEnum):
-    """Levels of the planning summary; the CFA counts with inflow (GVG 2019)."""
-
-    INFLOW = "inflow"
-    FEMOROPOPLITEAL = "femoropopliteal"
-    INFRAPOPLITEAL = "infrapopliteal"
-    PEDAL = "pedal"
-
 
 INFLOW_PATH = ("AO", "CIA", "EIA", "CFA")  # in line to the leg; the internal iliac is not
 SFA = ("SFA-P", "SFA-M", "SFA-D")
@@ -88,79 +85,6 @@ TASC_D_OCCLUSION_CM = 20.0  # occlusion of the SFA > 20 involving the popliteal
 RUNOFF_SCALE_BY_SEVERITY = {0: 0.0, 1: 1.0, 2: 2.0, 3: 2.0}
 RUNOFF_OCCLUDED_HALF, RUNOFF_OCCLUDED_MORE = 2.5, 3.0
 CALCIFICATION_ASSUMPTION = "plaque 'calcified' on a lesion >= 50% is taken as severe calcification"
-
-
-@dataclass(frozen=True)
-class LevelSummary:
-    """Disease at one level: worst band, lengths >= 50% and occluded, significant lesions."""
-
-    level: PlanLevel
-    worst_band: str
-    diseased_cm: float
-    occluded_cm: float
-    lesion_count: int  # lesions (and segment samples) >= 50% touching the level
-    not_assessed: tuple[str, ...]
-
-
-@dataclass(frozen=True)
-class Occlusion:
-    """An occlusion: where it starts, its length and where flow returns (None when unknown)."""
-
-    segment: str
-    start_cm: float
-    length_cm: float
-    reconstitutes: str | None
-    source: str
-
-
-@dataclass(frozen=True)
-class RunoffVessel:
-    """One tibial artery's runoff: patent / occluded / not-assessed and its SVS vessel scale."""
-
-    vessel: str
-    state: str
-    scale: float | None
-    basis: str
-
-
-@dataclass(frozen=True)
-class VesselGrade:
-    """The IP grade a tibial artery would have as the target."""
-
-    vessel: str
-    grade: int | None
-    diseased_cm: float
-    occluded_cm: float
-    drivers: tuple[str, ...]
-
-
-@dataclass(frozen=True)
-class Planning:
-    """The surgeon's summary of one leg; every grade carries the text of what set it."""
-
-    side: Side
-    levels: tuple[LevelSummary, ...]
-    occlusions: tuple[Occlusion, ...]
-    runoff: tuple[RunoffVessel, ...]
-    runoff_vessels: int  # assessed tibial arteries patent to the ankle
-    runoff_unassessed: tuple[str, ...]
-    runoff_score: float | None
-    runoff_basis: str
-    inflow_band: str
-    inflow_significant: bool | None
-    inflow_drivers: tuple[str, ...]
-    fp_grade: int | None
-    fp_drivers: tuple[str, ...]
-    target: str | None
-    target_basis: str
-    ip_grade: int | None
-    ip_drivers: tuple[str, ...]
-    ip_by_vessel: tuple[VesselGrade, ...]
-    stage: str | None
-    stage_basis: str
-    tasc_fp: str | None
-    tasc_drivers: tuple[str, ...]
-    assumptions: tuple[str, ...]
 
 
 def planning_note() -> str:
