@@ -259,6 +259,12 @@ _BROKEN = (
 )
 
 
+_STOPPED = (
+    "(file): outcome unknown: its worker process was stopped by the interrupt before it "
+    "reported; any output it left is complete; draw it again with --overwrite to be sure."
+)
+
+
 def _worker_init() -> None:
     """Set a worker's signals: Ctrl-C is the parent's to handle; SIGTERM ends it quietly."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)
@@ -331,8 +337,10 @@ def _drain(
     The pool holds at most two studies per worker. They are not cancelled: on Python 3.11 a
     cancel can race the pool's own clean-up when its workers were signalled too, which then
     fails in the pool's thread. Studies still running after ``DRAIN_SECONDS`` get SIGTERM (each
-    worker finishes or drops its study whole, then exits; that result is not counted); a worker
-    still alive after as long again is killed.
+    worker finishes or drops its study whole, then exits without reporting); a worker still
+    alive after as long again is killed. Every study the pool held is recorded: drawn or failed
+    from its result, or failed with an unknown outcome when its worker did not report, so
+    that the summary never counts as not drawn a study whose files are there.
     """
     done, late = wait(pending, timeout=DRAIN_SECONDS)
     # Python 3.11 has no public way to stop a pool's workers; these are its worker processes.
@@ -345,9 +353,11 @@ def _drain(
                 process.kill() if hard else process.terminate()
         finished, late = wait(late, timeout=DRAIN_SECONDS)
         done |= finished
-    for future in pending:
+    for future, task in pending.items():
         if future in done and future.exception() is None:
             record(future.result())  # a study that failed normally is reported too
+        else:  # its worker was stopped, or died with the signal, before it reported
+            record(BatchResult(task.n, str(task.study), errors=(f"{task.study}: {_STOPPED}",)))
 
 
 def default_jobs() -> int:

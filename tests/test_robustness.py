@@ -127,18 +127,18 @@ def test_an_interrupted_batch_leaves_complete_files_and_a_summary(
     assert summary, err.splitlines()[-1]
     drawn, total, failed, not_drawn = (int(summary[i]) for i in range(1, 5))
     assert summary[5] == signal.Signals(signum).name
-    assert (total, failed) == (STUDIES, 0)
-    assert drawn + not_drawn == STUDIES and not_drawn > 0, "the batch ended before the signal"
+    assert total == STUDIES and drawn + failed + not_drawn == STUDIES
+    assert not_drawn > 0, "the batch ended before the signal"
     assert err.count(" -> ") == drawn  # one line per study drawn
+    # a study whose worker was stopped (or died with the signal) before it reported
+    unknown = [line for line in err.splitlines() if ": (file): outcome unknown: " in line]
+    assert len(unknown) == failed <= 2 * 2  # the studies the pool held: two per worker
     names = sorted(p.name for p in out.iterdir())
     assert all(re.fullmatch(r"map-\d{4}\.pdf", name) for name in names), names  # no .part
     for name in names:
         assert_pdf_complete(out / name)
-    if whole_group and signum == signal.SIGTERM:
-        # workers stopped by the signal finish their study but their result is not counted
-        assert drawn <= len(names) <= drawn + 2
-    else:
-        assert len(names) == drawn
+    # never a study drawn but left out of the count; the unknown ones may or may not be there
+    assert drawn <= len(names) <= drawn + failed
     assert group_gone(proc.pid), "a worker process outlived the batch"
 
 
