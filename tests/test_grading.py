@@ -210,3 +210,26 @@ def test_shipped_native_set_matches_the_reference_thresholds() -> None:
         ("75-99", 4.0),
     ]
     assert c.band_ids[-1] == "not-assessed"
+
+
+@pytest.mark.parametrize(
+    ("segments", "lesion", "base"),
+    [
+        # own sample: the lumen outside the lesion keeps the sample's band
+        ({"SFA-D": 90}, Lesion(at="SFA-D", from_cm=7, occluded=True, length_cm=2), "normal"),
+        # no sample and the lesion covers part of the segment: the rest is not assessed
+        ({}, Lesion(at="SFA-D", from_cm=7, occluded=True, length_cm=2), "not-assessed"),
+        # no sample and the lesion covers all of it: the lesion's band
+        ({}, Lesion(at="SFA-D", occluded=True), "occluded"),
+    ],
+)
+def test_base_band_outside_the_lesions(
+    segments: dict[str, float], lesion: Lesion, base: str
+) -> None:
+    limb = Limb(
+        side=Side.LEFT,
+        segments=dict([seg("CFA", psv=100), *(seg(s, psv=v) for s, v in segments.items())]),
+        lesions=(lesion,),
+    )
+    r = assess(make_study(left=limb)).limbs[Side.LEFT].segments["SFA-D"]
+    assert r.band == "occluded" and r.base_band == base

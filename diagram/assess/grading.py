@@ -6,6 +6,7 @@ with the ratio printed beside it (117/90 is shown as 1.30 and graded as 1.30).
 
 from __future__ import annotations
 
+from collections.abc import Iterable
 from dataclasses import replace
 
 from diagram import anatomy
@@ -134,6 +135,16 @@ def _span(segment: str, start_cm: float, end_cm: float) -> Span:
         round(start_cm / length, 6),
         round(end_cm / length, 6),
     )
+
+
+def _union_cm(stretches: Iterable[tuple[float, float]]) -> float:
+    """Return the length covered by possibly overlapping stretches."""
+    total, end = 0.0, float("-inf")
+    for a, b in sorted(stretches):
+        if b > end:
+            total += b - max(a, end)
+            end = b
+    return total
 
 
 def _has_data(s: Sample) -> bool:
@@ -403,6 +414,13 @@ class _LimbGrader:
             assessed = band != NOT_ASSESSED or bool(touching)
         else:
             band, basis, vr, ref, assessed = NOT_ASSESSED, "nothing recorded", None, None, False
+        own_band = band
+        covered = _union_cm(
+            (sp.start_cm, sp.end_cm)
+            for i in touching
+            for sp in self.lesion_geometry[i][0]
+            if sp.segment == seg
+        )
         for i in touching:
             les = self.lesion_results.get(i)
             if les is None:  # a lesion that starts upstream is always graded before
@@ -423,6 +441,9 @@ class _LimbGrader:
             lesions=touching,
             basis=basis,
             assessed=assessed,
+            base_band=band
+            if finding is None and covered >= SEGMENTS[seg].length_cm - _EPS
+            else own_band,
         )
 
 

@@ -78,6 +78,9 @@ class SegmentResult:
     lesions: tuple[int, ...]  # indices of the lesions that touch it
     basis: str
     assessed: bool  # False when nothing was recorded or it was marked not assessed
+    # the band of the stretch outside its lesions: its own sample's band, not-assessed when it
+    # has no sample and its lesions do not cover it, else the worst lesion's (the map's lumen)
+    base_band: str = ""
 
 
 @dataclass(frozen=True)
