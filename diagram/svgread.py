@@ -93,6 +93,7 @@ class SvgReader:
         """Close the element last passed to :meth:`element`."""
 
     def feed(self, data: bytes) -> None:
+        """Read the whole document; bad or hostile input becomes problems, never an exception."""
         from xml.sax import SAXException, SAXParseException
         from xml.sax.handler import ContentHandler
 
@@ -163,6 +164,7 @@ class SvgReader:
             self.problem("xml", None, f"cannot be read as XML: {exc.getMessage()}")
 
     def line(self) -> int | None:
+        """Return the line the parser is on (None before the document starts)."""
         return self._locator.getLineNumber() if self._locator is not None else None
 
     def problem(
@@ -173,10 +175,12 @@ class SvgReader:
         hint: str | None = None,
         line: int | None = None,
     ) -> None:
+        """Record a problem at the current line (or ``line``), quoting ``value`` clipped."""
         at = line if line is not None else self.line()
         self.problems.append(Problem(self.file, at, where, _quote(value), rule, hint))
 
     def start(self, name: tuple[str | None, str], attrs: AttributesNSImpl) -> None:
+        """Check one opening tag, resolve its transform and pass it to :meth:`element`."""
         uri, local = name
         tag = local.lower()
         plain = {k[1]: v for k, v in attrs.items() if k[0] is None}
@@ -215,6 +219,7 @@ class SvgReader:
         self.element(Element(uri, local, tag, where, plain, attrs, transform, hidden))
 
     def root(self, uri: str | None, local: str, plain: dict[str, str]) -> None:
+        """Check the root element: ``<svg>`` in the SVG namespace, sane size and viewBox."""
         if uri != SVG_NS or local != "svg":
             self.problem(
                 f"<{local}>",
@@ -256,6 +261,7 @@ class SvgReader:
         self.viewbox = (box[0], box[1], box[2], box[3])
 
     def check_attributes(self, where: str, attrs: AttributesNSImpl) -> None:
+        """Refuse event attributes, external references and CSS that moves or fetches."""
         for (_ns, local), value in attrs.items():
             if local.lower().startswith("on"):
                 self.problem(
@@ -284,6 +290,7 @@ class SvgReader:
                 self.check_css(value, f"{where}.{local}", imports=False)
 
     def check_css(self, text: str, where: str, imports: bool = True) -> None:
+        """Refuse ``url(...)`` not pointing at ``#id`` and, in style text, ``@import``."""
         for m in _URL.finditer(text):
             if not m.group(2).strip().startswith("#"):
                 self.problem(
