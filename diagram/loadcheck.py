@@ -96,7 +96,11 @@ def _number(value: object) -> float | None:
     """Return a finite number, or None for anything else (bools are not numbers)."""
     if isinstance(value, bool) or not isinstance(value, int | float):
         return None
-    return float(value) if math.isfinite(value) else None
+    try:
+        number = float(value)
+    except OverflowError:  # an integer too long for a float: out of every range anyway
+        return None
+    return number if math.isfinite(number) else None
 
 
 def _private(loc: Loc) -> bool:
