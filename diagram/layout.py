@@ -159,7 +159,8 @@ def _draw_map(
     for key in sorted(template.vessels, key=vessel_order):
         vessel = template.vessels[key]
         res = results.get(key)
-        band = _band(bands, st, res.band if res else NOT_ASSESSED)
+        # the lumen shows the segment's own sample; its lesions are drawn over it to scale
+        band = _band(bands, st, (res.base_band or res.band) if res else NOT_ASSESSED)
         hw = _half_width(vessel, st)
         out.half_widths[key] = hw
         pts = _outline(vessel, fit, 0.0, vessel.geometry.length(), hw)
