@@ -114,7 +114,7 @@ def draw(
         profile = load_lab_profile(lab)
     page = page or (profile.page if profile and profile.page else "a4")
 
-    as_folder = output.endswith(("/", os.sep)) or Path(output).is_dir()
+    as_folder = output.endswith(("/", os.sep)) or _is_folder(output)
     single = (
         len(studies) == 1
         and studies[0].suffix.lower() in (".yaml", ".yml", ".json")
@@ -159,6 +159,14 @@ def draw(
         overwrite=overwrite,
     )
     _draw_batch(studies, settings, jobs, quiet)
+
+
+def _is_folder(name: str) -> bool:
+    """Return True for an existing folder; False for anything the file system cannot name."""
+    try:
+        return Path(name).is_dir()
+    except OSError:  # a name too long for the file system: export reports it in one line
+        return False
 
 
 def _draw_batch(

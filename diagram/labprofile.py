@@ -236,7 +236,11 @@ def _unknown(
 def _number(value: Any) -> float | None:
     if isinstance(value, bool) or not isinstance(value, int | float):
         return None
-    return float(value) if math.isfinite(value) else None
+    try:
+        number = float(value)
+    except OverflowError:  # a whole number too long for a float: out of every range anyway
+        return None
+    return number if math.isfinite(number) else None
 
 
 def _text(value: Any, key: str, bad: Bad) -> str | None:
@@ -262,9 +266,13 @@ def _template(value: Any, base: Path, bad: Bad) -> str | Path | None:
         return None
     if value in shipped:
         return value
-    path = Path(value).expanduser()
+    path = Path(value)  # "~" is not expanded: a profile names files relative to itself
     path = path if path.is_absolute() else base / path
-    if not path.is_file():
+    try:
+        found = path.is_file()
+    except OSError:  # a name the file system cannot hold (too long, say)
+        found = False
+    if not found:
         hint = _near(value, shipped) or "give a path relative to the profile"
         bad(
             "template",

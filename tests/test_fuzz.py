@@ -54,14 +54,7 @@ EXAMPLE = ROOT / "examples" / "normal.yaml"
 # test_open_defect_reproducer (bottom of this file; fixed ones move to test_fixed_defect_...). While one is open, a fuzz case that ends in
 # it is set aside (hypothesis.reject) instead of failing, so the harness keeps guarding against
 # every other failure. When a fix lands the reproducer XPASSes, which fails: delete both entries.
-OPEN_DEFECTS: dict[tuple[str, str], str] = {
-    ("RuntimeError", "diagram/labprofile.py"): "a template path ~user/... for an unknown user",
-    ("OverflowError", "diagram/labprofile.py"): "a whole number too large for a float",
-    # a ratio over the smallest float overflows to inf, which no Decimal context can quantize
-    ("InvalidOperation", "diagram/assess/grading.py"): "Vr = 800 / 5e-324 is inf",
-    ("InvalidOperation", "diagram/assess/indices.py"): "ABI = 100 / 5e-324 is inf",
-    ("OSError", "diagram/cli.py"): "draw: Path(output).is_dir() raises for a name too long",
-}
+OPEN_DEFECTS: dict[tuple[str, str], str] = {}  # none open: see the fixed reproducers
 
 
 def defect(exc: BaseException) -> tuple[str, str]:
@@ -1115,7 +1108,7 @@ def test_fixed_defect_stays_fixed(case: Reproducer, _: None) -> None:
         criteria_runs(case.text, set_aside=False)
 
 
-# --- defects found by fuzzing, open -------------------------------------------------------------
+# --- defects found by fuzzing later, fixed -------------------------------------------------------------
 
 OPEN_REPRODUCERS = [
     Reproducer(
@@ -1156,28 +1149,15 @@ OPEN_REPRODUCERS = [
 ]
 
 
-@pytest.mark.parametrize(
-    "case",
-    [
-        pytest.param(
-            r,
-            id=r.name,
-            marks=pytest.mark.xfail(raises=r.raises, strict=True, reason=OPEN_DEFECTS[r.defect]),
-        )
-        for r in OPEN_REPRODUCERS
-    ],
-)
+@pytest.mark.parametrize("case", OPEN_REPRODUCERS, ids=lambda r: r.name)
 @settings(max_examples=1, database=None)
 @given(st.just(None))
-def test_open_defect_reproducer(case: Reproducer, _: None) -> None:
-    # the contract: a drawing or one-line problems; while the defect is open this raises
+def test_later_fixed_defect_stays_fixed(case: Reproducer, _: None) -> None:
+    # a name too long for the file system, ratios that overflow to inf, a "~user" template path
+    # and a whole number too long for a float: now one-line problems or a drawing
     if case.kind == "study":
         study_runs(case.text, ".yaml", set_aside=False)
     elif case.kind == "output":
         output_runs(case.text, set_aside=False)
     else:
         lab_runs(case.text, set_aside=False)
-
-
-def test_every_open_defect_has_a_reproducer() -> None:
-    assert {r.defect for r in OPEN_REPRODUCERS} == set(OPEN_DEFECTS)

@@ -138,8 +138,8 @@ def test_clti_thresholds(left: tuple[float | None, ...], flagged: bool) -> None:
         (Pressures(), "no ankle pressure", "no toe pressure"),
         (
             Pressures(left=LimbPressures(pt=90, toe=50)),
-            "no brachial pressure",
-            "no brachial pressure",
+            "no usable brachial pressure",
+            "no usable brachial pressure",
         ),
         (
             Pressures(brachial_left=120, left=LimbPressures(dp=90)),

@@ -6,6 +6,7 @@ with the ratio printed beside it (117/90 is shown as 1.30 and graded as 1.30).
 
 from __future__ import annotations
 
+import math
 from collections.abc import Iterable
 from dataclasses import replace
 
@@ -137,6 +138,12 @@ def _span(segment: str, start_cm: float, end_cm: float) -> Span:
     )
 
 
+def _finite_ratio(psv: float, reference: float) -> float | None:
+    """Return the rounded ratio, or None when the reference is too small to divide by."""
+    ratio = psv / reference
+    return round_vr(ratio) if math.isfinite(ratio) else None
+
+
 def _union_cm(stretches: Iterable[tuple[float, float]]) -> float:
     """Return the length covered by possibly overlapping stretches."""
     total, end = 0.0, float("-inf")
@@ -218,8 +225,8 @@ class _LimbGrader:
             ref = Reference(sample.proximal_psv, "proximal_psv", None)
         else:
             ref = self.reference(segment)
-        if ref is None:
-            return None, "none", None
+        if ref is None or not math.isfinite(sample.psv / ref.psv):
+            return None, "none", None  # a reference too small to divide by is no reference
         return round_vr(sample.psv / ref.psv), "computed", ref
 
     def grade_sample(
@@ -353,6 +360,8 @@ class _LimbGrader:
             sample = graft.samples.get(site)
             if sample is None:
                 continue
+            vr: float | None
+            ref: Reference | None
             if sample.vr is not None:
                 vr, ref = round_vr(sample.vr), None
             elif (
@@ -361,11 +370,13 @@ class _LimbGrader:
                 and sample.proximal_psv > 0
             ):
                 ref = Reference(sample.proximal_psv, "proximal_psv", None)
-                vr = round_vr(sample.psv / ref.psv)
+                vr = _finite_ratio(sample.psv, ref.psv)
             elif sample.psv is not None and upstream is not None:
-                ref, vr = upstream, round_vr(sample.psv / upstream.psv)
+                ref, vr = upstream, _finite_ratio(sample.psv, upstream.psv)
             else:
                 vr, ref = None, None
+            if vr is None and sample.vr is None:
+                ref = None
             if sample.occluded:
                 band, basis = crit.occlusion_band.id, "occlusion recorded"
             else:

@@ -5,6 +5,7 @@ Every threshold below is a table row with its published source (clinical-values.
 
 from __future__ import annotations
 
+import math
 from decimal import ROUND_HALF_UP, Context, Decimal, localcontext
 
 from diagram.anatomy import Side
@@ -66,6 +67,14 @@ def _grade(value: float, table: tuple[tuple[float, int], ...], *, strict_first: 
     return 3
 
 
+def _index(pressure: float | None, brachial: float | None) -> float | None:
+    """Return pressure / brachial to two decimals, or None when it cannot be computed."""
+    if pressure is None or brachial is None or brachial <= 0:
+        return None
+    ratio = pressure / brachial
+    return round2(ratio) if math.isfinite(ratio) else None  # a brachial of 5e-324 overflows
+
+
 def limb_indices(pressures: Pressures, side: Side) -> LimbIndices:
     """Compute ABI, TBI and the ischaemia grade of one leg from what was measured."""
     limb = pressures.limb(side)
@@ -75,9 +84,9 @@ def limb_indices(pressures: Pressures, side: Side) -> LimbIndices:
     ankle = max(ankles) if ankles else None
     arm_note = "" if len(arms) == 2 else " (one arm measured)"
 
-    abi = category = severity = None
-    if ankle is not None and brachial is not None and brachial > 0:
-        abi = round2(ankle / brachial)
+    abi = _index(ankle, brachial)
+    category = severity = None
+    if abi is not None and ankle is not None and brachial is not None:
         category = abi_category(abi)
         if category == "abnormal":
             severity = "severe" if abi <= ABI_SEVERE_MAX else "mild-moderate"
@@ -86,15 +95,15 @@ def limb_indices(pressures: Pressures, side: Side) -> LimbIndices:
     elif ankle is None:
         abi_basis = "no ankle pressure"
     else:
-        abi_basis = "no brachial pressure"
+        abi_basis = "no usable brachial pressure"
 
-    tbi = tbi_category = None
-    if limb.toe is not None and brachial is not None and brachial > 0:
-        tbi = round2(limb.toe / brachial)
+    tbi = _index(limb.toe, brachial)
+    tbi_category = None
+    if tbi is not None and limb.toe is not None and brachial is not None:
         tbi_category = "abnormal" if tbi <= TBI_ABNORMAL_MAX else "normal"
         tbi_basis = f"toe {limb.toe:g} / brachial {brachial:g} mmHg{arm_note}"
     else:
-        tbi_basis = "no toe pressure" if limb.toe is None else "no brachial pressure"
+        tbi_basis = "no toe pressure" if limb.toe is None else "no usable brachial pressure"
 
     reliable_ankle = category != "noncompressible"
     grades: list[tuple[int, str]] = []
