@@ -162,3 +162,10 @@ def test_stent_set_boundaries(vr: float | None, psv: float, band: str | None) ->
 def test_graft_set_boundaries(vr: float, psv: float, band: str) -> None:
     rule = load_criteria("graft").grade(vr, psv, lesion=False)
     assert rule is not None and rule.id == band
+
+
+def test_a_key_given_twice_is_refused_not_overwritten() -> None:
+    text = GOOD.replace("title: Example lab set\n", "title: Example lab set\ntitle: Other\n")
+    with pytest.raises(CriteriaError) as err:
+        parse_criteria(text, "lab.yaml", "lab.yaml")
+    assert str(err.value) == "lab.yaml:4: (file): gives the key 'title' twice."

@@ -258,16 +258,20 @@ def _cached_parse(text: str, file: str, origin: str) -> Criteria:
 
 
 def _refuse_complex_keys(root: Any, refuse: Any) -> None:
-    """Refuse a mapping key that is itself a list or a mapping (YAML allows it; we do not)."""
+    """Refuse a key that is a list or a mapping (YAML allows it; we do not), or given twice."""
     import yaml
 
     stack = [root]
     while stack:
         node = stack.pop()
         if isinstance(node, yaml.MappingNode):
+            seen: set[str] = set()
             for key, value in node.value:
                 if not isinstance(key, yaml.ScalarNode):
                     raise refuse(key.start_mark, "must use plain words as keys.")
+                if key.value in seen:  # PyYAML would silently keep the last one
+                    raise refuse(key.start_mark, f"gives the key {key.value!r} twice.")
+                seen.add(key.value)
                 stack.append(value)
         elif isinstance(node, yaml.SequenceNode):
             stack.extend(node.value)
