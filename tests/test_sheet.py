@@ -359,7 +359,7 @@ def test_teaching_sheet_shows_only_the_case() -> None:
 # ----------------------------------------------------------------------------- pages and blocks
 
 
-@pytest.mark.parametrize(("stem", "page"), itertools.product(EXAMPLES, ("a4", "letter")))
+@pytest.mark.parametrize(("stem", "page"), list(itertools.product(EXAMPLES, ("a4", "letter"))))
 def test_no_two_blocks_overlap_and_all_fit_the_page(stem: str, page: str) -> None:
     scene = sheet(stem, page)
     content = scene.height_pt - 2 * MARGIN_PT
