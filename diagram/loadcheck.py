@@ -118,6 +118,9 @@ def _close(word: str, choices: list[str]) -> str | None:
     return f"did you mean {folded[match[0]]}?" if match else None
 
 
+_SURROGATE = re.compile("[\ud800-\udfff]")
+
+
 class Checker:
     """Collect every problem of a parsed study: schema, number literals, the arterial tree."""
 
@@ -278,6 +281,9 @@ class Checker:
                 self.literals(item, (*loc, i))
         elif isinstance(value, float) and not math.isfinite(value):
             self.report(loc, "must be a finite number.", value)
+        elif isinstance(value, str) and _SURROGATE.search(value):
+            # a lone \ud800-style escape in JSON is not a character: refused, never dropped
+            self.report(loc, "holds an unpaired surrogate escape, which is not text.")
         elif self.parsed.kind == "yaml" and isinstance(value, int | float):
             raw = self.parsed.raw.get(loc, "")
             if raw and not isinstance(value, bool) and not _PLAIN_DECIMAL.fullmatch(raw):
