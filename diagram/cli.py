@@ -198,7 +198,7 @@ def _draw_batch(
     def report(result: BatchResult) -> None:
         if not result.ok:
             for line in result.errors:
-                click.echo(line, err=True)
+                click.echo(_printable(line), err=True)
         elif not quiet and not bar_wanted:
             click.echo(f"{result.study} -> {', '.join(result.written)}", err=True)
 
@@ -213,10 +213,8 @@ def _draw_batch(
     else:
         summary = run_batch(tasks, jobs=jobs or default_jobs(), on_result=report)
     click.echo(summary.line(len(tasks)), err=True)
-    if summary.interrupted:
-        sys.exit(130)
-    if summary.failed:
-        sys.exit(2)
+    if summary.exit_status:
+        sys.exit(summary.exit_status)
 
 
 @cli.command()

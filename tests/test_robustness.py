@@ -11,7 +11,6 @@ from __future__ import annotations
 
 import errno
 import io
-import json
 import multiprocessing
 import os
 import re
@@ -572,13 +571,16 @@ def test_bad_inputs_never_print_a_traceback(tmp_path: Path) -> None:
     assert os.listdir(out) == []
 
 
-def test_a_lone_surrogate_escape_is_written_back_as_it_came(tmp_path: Path) -> None:
-    # JSON allows "\ud800", which is no character: no UTF-8 output can hold it as text
+def test_a_lone_surrogate_escape_is_refused_in_one_line(tmp_path: Path) -> None:
+    # JSON allows "\ud800", which is no character: refused at load rather than dropped later
     study = tmp_path / "s.json"
     study.write_text('{"format": 1, "exam": {"indication": "a\\udfffb"}}')
     for fmt in ("json", "svg"):
         proc = limbchart("draw", str(study), "-o", str(tmp_path / f"m.{fmt}"))
         _, err = proc.communicate(timeout=WAIT_SECONDS)
-        assert proc.returncode == 0, err
-    results = json.loads((tmp_path / "m.json").read_bytes())
-    assert results["study"]["exam"]["indication"] == "a\udfffb"
+        assert proc.returncode == 2
+        assert err.strip().endswith(
+            "exam.indication: holds an unpaired surrogate escape, which is not text."
+        )
+        assert "Traceback" not in err
+    assert os.listdir(tmp_path) == ["s.json"]
