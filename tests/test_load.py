@@ -239,8 +239,14 @@ def one_segment(sample: str, segment: str = "CFA") -> str:
         ("psv: 800, edv: 801", "801 is refused: EDV above 800 cm/s is not physiological."),
         # a peak velocity of 0 is no flow: recorded as occluded or flow: absent, not as a PSV
         ("psv: 0.1", None),
-        ("psv: 0", "0 must be greater than 0. (record no flow with occluded: true or flow: absent)"),
-        ("psv: -0.1", "-0.1 must be greater than 0. (record no flow with occluded: true or flow: absent)"),
+        (
+            "psv: 0",
+            "0 must be greater than 0. (record no flow with occluded: true or flow: absent)",
+        ),
+        (
+            "psv: -0.1",
+            "-0.1 must be greater than 0. (record no flow with occluded: true or flow: absent)",
+        ),
         # an EDV above the PSV cannot happen in one cardiac cycle (common practice)
         ("psv: 120, edv: 120", None),
         ("psv: 120, edv: 120.5", "120.5 is above the PSV (120): EDV cannot exceed PSV."),
