@@ -796,12 +796,11 @@ def test_a_valid_criteria_file_is_shown_and_grades(crit: dict[str, Any], style: 
     criteria_runs(crit_dump(crit, style), must_show=True)
 
 
-@st.composite
-def mutated_criteria(draw: st.DrawFn) -> tuple[dict[str, Any], str]:
-    crit = draw(valid_criteria())
-    spots = [(loc, value) for loc, value in places(crit) if loc]
+def mutate(draw: st.DrawFn, tree: dict[str, Any]) -> str:
+    """Change one place of a valid file's tree in place; return what was done, for the report."""
+    spots = [(loc, value) for loc, value in places(tree) if loc]
     loc, value = draw(st.sampled_from(spots))
-    holder = parent_of(crit, loc)
+    holder = parent_of(tree, loc)
     how = draw(st.sampled_from(("rename", "wrong type", "out of range", "drop", "any value")))
     if how == "rename" and isinstance(loc[-1], str):
         new = draw(typos(loc[-1]))
@@ -815,7 +814,13 @@ def mutated_criteria(draw: st.DrawFn) -> tuple[dict[str, Any], str]:
         del holder[loc[-1]]
     else:
         holder[loc[-1]] = draw(TREES)
-    return crit, f"{how} at {loc}"
+    return f"{how} at {loc}"
+
+
+@st.composite
+def mutated_criteria(draw: st.DrawFn) -> tuple[dict[str, Any], str]:
+    crit = draw(valid_criteria())
+    return crit, mutate(draw, crit)
 
 
 @settings(max_examples=cases(3))
@@ -974,23 +979,7 @@ def test_a_valid_lab_profile_draws(profile: dict[str, Any], style: int) -> None:
 def mutated_lab_profiles(draw: st.DrawFn) -> tuple[dict[str, Any], str]:
     profile = draw(valid_lab_profiles())
     profile.setdefault("lab_name", "Example Lab")
-    spots = [(loc, value) for loc, value in places(profile) if loc]
-    loc, value = draw(st.sampled_from(spots))
-    holder = parent_of(profile, loc)
-    how = draw(st.sampled_from(("rename", "wrong type", "out of range", "drop", "any value")))
-    if how == "rename" and isinstance(loc[-1], str):
-        new = draw(typos(loc[-1]))
-        assume(new not in holder)
-        holder[new] = holder.pop(loc[-1])
-    elif how == "wrong type":
-        holder[loc[-1]] = draw(WRONG_TYPES.get(kind_of(value), SCALARS))
-    elif how == "out of range":
-        holder[loc[-1]] = draw(OUT_OF_RANGE)
-    elif how == "drop":
-        del holder[loc[-1]]
-    else:
-        holder[loc[-1]] = draw(TREES)
-    return profile, f"{how} at {loc}"
+    return profile, mutate(draw, profile)
 
 
 @settings(max_examples=cases(2))
