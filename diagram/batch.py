@@ -20,7 +20,7 @@ from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass, field
 from pathlib import Path
 from types import FrameType
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 from diagram.errors import DiagramError, Problem, StudyError
 
@@ -292,25 +292,65 @@ def _work(task: BatchTask) -> BatchResult:
         signal.pthread_sigmask(signal.SIG_UNBLOCK, {signal.SIGTERM})
 
 
+class _StopFlag:
+    """While the pool is fed, turn SIGINT/SIGTERM into a flag checked at safe points.
+
+    A signal handler that raises could land between handing a study to the pool and noting it
+    (or between a study's result and its count), and the summary would then miss a study whose
+    files are there. The flag is read where the bookkeeping is whole; the previous handlers are
+    restored afterwards. Outside the main thread, where handlers cannot be set, it does nothing.
+    """
+
+    def __init__(self) -> None:
+        self.signum: int | None = None
+        self._previous: dict[int, Any] = {}
+
+    def __enter__(self) -> _StopFlag:
+        with contextlib.suppress(ValueError):  # not the main thread
+            for signum in (signal.SIGINT, signal.SIGTERM):
+                self._previous[signum] = signal.signal(signum, self._note)
+        return self
+
+    def _note(self, signum: int, frame: FrameType | None) -> None:
+        self.signum = self.signum or signum
+
+    def __exit__(self, *exc: object) -> None:
+        for signum, handler in self._previous.items():
+            signal.signal(signum, handler)
+
+    def interrupt(self) -> KeyboardInterrupt:
+        """Return the interrupt to raise, carrying the signal number as ``signum``."""
+        stop = KeyboardInterrupt()
+        stop.signum = self.signum  # type: ignore[attr-defined]
+        return stop
+
+
+_POLL_SECONDS = 0.2  # how often a waiting batch looks at the stop flag
+
+
 def _pool_round(todo: deque[BatchTask], jobs: int, record: Callable[[BatchResult], None]) -> None:
     """Draw tasks from ``todo`` in one pool, keeping a few per worker in flight.
 
     Returns when ``todo`` is empty, or early when the pool broke: its studies in flight are
     recorded as failed with an unknown outcome (a worker may have written a study's files just
-    before another died), and the caller starts a new pool for the rest.
+    before another died), and the caller starts a new pool for the rest. A stop signal is
+    noted and acted on between steps, so every study handed to the pool is accounted for.
     """
     pending: dict[Future[BatchResult], BatchTask] = {}
-    with ProcessPoolExecutor(max_workers=jobs, initializer=_worker_init) as pool:
+    with (
+        ProcessPoolExecutor(max_workers=jobs, initializer=_worker_init) as pool,
+        _StopFlag() as stop,
+    ):
         try:
             broken = False
-            while (todo and not broken) or pending:
+            while ((todo and not broken) or pending) and stop.signum is None:
                 while todo and not broken and len(pending) < jobs * 2:
                     try:
                         pending[pool.submit(_work, todo[0])] = todo[0]
                         todo.popleft()
                     except BrokenProcessPool:
                         broken = True
-                finished, _ = wait(pending, return_when=FIRST_COMPLETED)
+                finished, _ = wait(pending, timeout=_POLL_SECONDS, return_when=FIRST_COMPLETED)
                 for future in finished:
                     task = pending.pop(future)
                     if isinstance(future.exception(), BrokenProcessPool):
@@ -318,6 +358,8 @@ def _pool_round(todo: deque[BatchTask], jobs: int, record: Callable[[BatchResult
                         record(BatchResult(task.n, str(task.study), errors=(_broken(task),)))
                     else:
                         record(future.result())
+            if stop.signum is not None:
+                raise stop.interrupt()
         except KeyboardInterrupt:
             _drain(pool, pending, record)
             raise
