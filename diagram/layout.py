@@ -57,13 +57,13 @@ from diagram.scene import (
 )
 from diagram.sheet import (
     BLOCK_GAP_PT,
-    CAUTION,
     MARGIN_PT,
     PAGES,
     VELOCITY_NOTE,
     PageSpec,
 )
 from diagram.style import NOT_ASSESSED, BandStyle, Style, default_style
+from diagram.summary import CAUTION
 from diagram.tables import PRESSURE_SOURCES, Table, change_mark, change_table, planning_table
 from diagram.template import Template, Vessel
 

@@ -32,6 +32,7 @@ from diagram.scene import (
 )
 from diagram.study import Study
 from diagram.style import NOT_ASSESSED, BandStyle, Style
+from diagram.summary import CAUTION
 from diagram.tables import (
     CHANGE_WORDS,
     Table,
@@ -51,11 +52,6 @@ MARGIN_PT = 10 * PT_PER_MM
 BLOCK_GAP_PT = 7.0
 PRESSURE_BOX_MAX_PT = 250.0
 
-CAUTION = (
-    "Schematic aid for the report — not a substitute for the images or the interpreting "
-    "physician's judgement. Criteria must be validated locally; follow local protocols and "
-    "licensed practice."
-)
 VELOCITY_NOTE = (
     "PSV, EDV in cm/s. Vr = PSV at the lesion ÷ PSV of the reference segment upstream "
     "(basis in the results file)."
