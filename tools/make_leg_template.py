@@ -25,6 +25,9 @@ from pathlib import Path
 
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
+sys.path.insert(0, str(ROOT / "tools"))
+
+from make_bilateral_template import _catmull_rom as catmull_rom  # noqa: E402
 
 from diagram import anatomy  # noqa: E402
 from diagram.geometry import Cubic, PathGeometry, Point, format_number  # noqa: E402
@@ -127,16 +130,11 @@ class Drawn:
 
 
 def _catmull_rom(points: Sequence[Point]) -> PathGeometry:
-    """Return a smooth open curve through ``points`` (uniform Catmull-Rom as cubics)."""
-    pieces = []
-    n = len(points)
-    for i in range(n - 1):
-        p0 = points[i - 1] if i > 0 else points[i]
-        p1, p2 = points[i], points[i + 1]
-        p3 = points[i + 2] if i + 2 < n else points[i + 1]
-        c1 = (p1[0] + (p2[0] - p0[0]) / 6, p1[1] + (p2[1] - p0[1]) / 6)
-        c2 = (p2[0] - (p3[0] - p1[0]) / 6, p2[1] - (p3[1] - p1[1]) / 6)
-        pieces.append(Cubic(p1, c1, c2, p2))
+    """Return a smooth open curve through ``points`` (the bilateral map's Catmull-Rom cubics)."""
+    pieces, start = [], points[0]
+    for c1, c2, end in catmull_rom(tuple(points)):
+        pieces.append(Cubic(start, c1, c2, end))
+        start = end
     return PathGeometry(tuple(pieces))
 
 
