@@ -19,10 +19,10 @@ from diagram.errors import (
     StudyError,
     TemplateError,
 )
-from diagram.export import Drawing, ExportOptions, export
-from diagram.load import load_study, load_study_text, study_schema
+from diagram.output.export import Drawing, ExportOptions, export
 from diagram.pipeline import draw
-from diagram.study import Study
+from diagram.reading.load import load_study, load_study_text, study_schema
+from diagram.reading.study import Study
 
 __all__ = [
     "Assessment",

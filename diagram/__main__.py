@@ -1,5 +1,5 @@
 """``python -m diagram`` runs the same command line as ``limbchart``."""
 
-from diagram.cli import main
+from diagram.cli.main import main
 
 main(prog_name="limbchart")

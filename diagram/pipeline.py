@@ -9,11 +9,11 @@ from typing import TYPE_CHECKING
 from diagram._version import __version__
 from diagram.assess import assess, resolve_criteria
 from diagram.assess.results import Assessment
-from diagram.export import Drawing
-from diagram.study import Study
+from diagram.output.export import Drawing
+from diagram.reading.study import Study
 
 if TYPE_CHECKING:
-    from diagram.labprofile import LabProfile
+    from diagram.drawing.labprofile import LabProfile
 
 PAGES: tuple[str, ...] = ("a4", "letter", "map")
 
@@ -33,10 +33,10 @@ def draw(
     A lab profile gives the style, the lab name for the header, and defaults for the template
     and the page; ``template`` and a page other than the default win over it.
     """
-    from diagram.layout import layout
-    from diagram.render import render_pages
-    from diagram.summary import results_document
-    from diagram.template import load_template
+    from diagram.drawing.layout import layout
+    from diagram.drawing.template.mapfile import load_template
+    from diagram.output.results import results_document
+    from diagram.output.svg import render_pages
 
     assessment = assess_study(study, criteria=criteria, target=target, prior=prior)
     style = None

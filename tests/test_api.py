@@ -42,7 +42,7 @@ def test_importing_the_package_and_help_stay_light() -> None:
     heavy = ("cairosvg", "cairocffi", "svgwrite", "fontTools", "jsonschema", "pydicom", "yaml")
     code = (
         "import sys\n"
-        "from diagram.cli import cli\n"
+        "from diagram.cli.main import cli\n"
         "try:\n"
         "    cli.main(['--help'], standalone_mode=False)\n"
         "except SystemExit:\n"

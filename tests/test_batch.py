@@ -8,7 +8,7 @@ from pathlib import Path
 
 import pytest
 
-from diagram.cli import main
+from diagram.cli.main import main
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLES = ROOT / "examples"

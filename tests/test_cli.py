@@ -9,7 +9,7 @@ from pathlib import Path
 
 import pytest
 
-from diagram.cli import main
+from diagram.cli.main import main
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLES = sorted((ROOT / "examples").glob("*.yaml"))

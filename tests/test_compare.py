@@ -16,7 +16,7 @@ from diagram.assess.compare import (
     classify,
     compare,
 )
-from diagram.study import (
+from diagram.reading.study import (
     Exam,
     Lesion,
     Limb,

@@ -104,7 +104,7 @@ def test_unknown_shipped_name_gets_a_hint() -> None:
 
 
 def test_criteria_commands(capsys: pytest.CaptureFixture[str], tmp_path: Path) -> None:
-    from diagram.cli import main
+    from diagram.cli.main import main
 
     with pytest.raises(SystemExit) as done:
         main(["criteria", "list"])

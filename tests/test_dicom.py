@@ -9,8 +9,8 @@ from pathlib import Path
 
 import pytest
 
-from diagram.export import Drawing, export
-from diagram.load import load_study
+from diagram.output.export import Drawing, export
+from diagram.reading.load import load_study
 
 ROOT = Path(__file__).resolve().parents[1]
 SVG = (
@@ -23,7 +23,7 @@ SVG = (
 def dcm(tmp_path: Path) -> tuple[Path, bytes]:
     study = load_study(ROOT / "examples" / "claudicant-sfa.yaml")
     out = export(Drawing(svg=SVG, results={}, study=study), tmp_path / "sheet.dcm")
-    from diagram.export import render_bytes
+    from diagram.output.export import render_bytes
 
     pdf = render_bytes(Drawing(svg=SVG, results={}), "pdf")
     return out, pdf
@@ -52,7 +52,7 @@ def test_reads_back_with_the_pdf_inside(dcm: tuple[Path, bytes]) -> None:
 def test_pdf_bytes_round_trip_exactly(tmp_path: Path) -> None:
     import pydicom
 
-    from diagram.dicom import DicomIdentity, encapsulated_pdf
+    from diagram.output.dicom import DicomIdentity, encapsulated_pdf
 
     for pdf in (b"%PDF-1.5 odd length\n%%EOF", b"%PDF-1.5 even length\n%%EOF\n"):
         ds = pydicom.dcmread(io.BytesIO(encapsulated_pdf(pdf, DicomIdentity())))
@@ -62,7 +62,7 @@ def test_pdf_bytes_round_trip_exactly(tmp_path: Path) -> None:
 def test_study_uid_is_reused_and_new_uids_made(tmp_path: Path) -> None:
     import pydicom
 
-    from diagram.dicom import DicomIdentity, encapsulated_pdf
+    from diagram.output.dicom import DicomIdentity, encapsulated_pdf
 
     uid = "1.2.826.0.1.3680043.8.498.12345"
     a = pydicom.dcmread(io.BytesIO(encapsulated_pdf(b"%PDF-", DicomIdentity(study_uid=uid))))

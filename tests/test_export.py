@@ -11,7 +11,14 @@ from pathlib import Path
 import pytest
 
 from diagram.errors import ExportError
-from diagram.export import Drawing, ExportOptions, export, format_for, render_bytes, write_atomic
+from diagram.output.export import (
+    Drawing,
+    ExportOptions,
+    export,
+    format_for,
+    render_bytes,
+    write_atomic,
+)
 
 SVG = (
     '<svg xmlns="http://www.w3.org/2000/svg" width="100mm" height="40mm" viewBox="0 0 283 113">'
@@ -94,7 +101,7 @@ def test_existing_file_replaced_only_by_a_complete_one(
     def failing_writer(drawing: Drawing, options: ExportOptions) -> bytes:
         raise Boom
 
-    export_mod = importlib.import_module("diagram.export")  # the package re-exports export()
+    export_mod = importlib.import_module("diagram.output.export")  # the package re-exports export()
 
     monkeypatch.setitem(export_mod.WRITERS, "pdf", failing_writer)
     with pytest.raises(Boom):

@@ -1,6 +1,6 @@
 """Fuzzing the command line: any study or criteria file ends in a drawing or in one-line problems.
 
-Every case runs through ``diagram.cli.main`` exactly as ``limbchart check FILE``,
+Every case runs through ``diagram.cli.main.main`` exactly as ``limbchart check FILE``,
 ``limbchart draw FILE -o OUT/out.svg`` or ``limbchart criteria show FILE`` would. It must end
 with exit status 0 and a complete output, or with exit status 2, one or more single-line
 messages and no output at all: never another exception, never a hang (an alarm stops a case
@@ -38,11 +38,11 @@ from hypothesis import assume, example, given, note, reject, settings
 from hypothesis import strategies as st
 
 from diagram import anatomy
-from diagram.cli import main
+from diagram.cli.main import main
 from diagram.criteria import parse_criteria
 from diagram.errors import CriteriaError
-from diagram.load import study_schema
-from diagram.summary import CAUTION
+from diagram.output.results import CAUTION
+from diagram.reading.load import study_schema
 
 ROOT = Path(__file__).resolve().parents[1]
 CASE_SECONDS = 60  # a case still running after this is a hang (hypothesis's deadline is 10 s)
@@ -905,8 +905,8 @@ HATCHES = ("none", "dots", "lines", "cross", "solid")
 @st.composite
 def valid_lab_profiles(draw: st.DrawFn) -> dict[str, Any]:
     """A lab profile that breaks none of the loader's rules (the study must draw with it)."""
-    from diagram.style import default_style
-    from diagram.template import shipped_templates
+    from diagram.drawing.style import default_style
+    from diagram.drawing.template.mapfile import shipped_templates
 
     profile: dict[str, Any] = {}
     optional(draw, profile, "format", st.just(1))
@@ -941,7 +941,7 @@ def valid_lab_profiles(draw: st.DrawFn) -> dict[str, Any]:
 
 def lab_runs(text: str | bytes, *, must_draw: bool = False, set_aside: bool = True) -> Run:
     """Draw a study with a lab profile and parse the profile; check both against the contract."""
-    from diagram.labprofile import LabProfileError, parse_lab_profile
+    from diagram.drawing.labprofile import LabProfileError, parse_lab_profile
 
     with case_folder() as folder, open_defects_set_aside(set_aside):
         path = folder / "lab.yaml"

@@ -9,10 +9,9 @@ from pathlib import Path
 import pytest
 
 from diagram.anatomy import Side
-from diagram.cli import cli, main
-from diagram.design_cli import COMMANDS
-from diagram.errors import ExportError
-from diagram.gallery import (
+from diagram.cli.design import COMMANDS
+from diagram.cli.main import cli, main
+from diagram.design.gallery import (
     PAGE_PT,
     SPECIMEN_NOTE,
     gallery_svg,
@@ -20,11 +19,12 @@ from diagram.gallery import (
     specimen_yaml,
     write_gallery,
 )
-from diagram.labprofile import load_lab_profile
-from diagram.load import load_study_text
+from diagram.drawing.labprofile import load_lab_profile
+from diagram.drawing.style import default_style
+from diagram.drawing.template.mapfile import load_template
+from diagram.errors import ExportError
 from diagram.pipeline import assess_study
-from diagram.style import default_style
-from diagram.template import load_template
+from diagram.reading.load import load_study_text
 
 LAB = Path(__file__).parent / "data" / "lab"
 

@@ -10,7 +10,7 @@ import pytest
 from hypothesis import example, given, settings
 from hypothesis import strategies as st
 
-from diagram.geometry import (
+from diagram.drawing.template.geometry import (
     IDENTITY,
     Affine,
     Cubic,

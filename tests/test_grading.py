@@ -8,7 +8,7 @@ from diagram.anatomy import Side
 from diagram.assess import assess
 from diagram.assess.grading import lesion_spans, round_vr
 from diagram.criteria import load_criteria
-from diagram.study import Exam, Lesion, Limb, Patient, Pressures, SegmentFinding, Study
+from diagram.reading.study import Exam, Lesion, Limb, Patient, Pressures, SegmentFinding, Study
 
 
 def make_study(right: Limb | None = None, left: Limb | None = None) -> Study:

@@ -6,7 +6,7 @@ import pytest
 
 from diagram.anatomy import Side
 from diagram.assess.indices import abi_category, limb_indices, pressure_findings, round2
-from diagram.study import LimbPressures, Pressures
+from diagram.reading.study import LimbPressures, Pressures
 
 
 def pressures(

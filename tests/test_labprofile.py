@@ -8,8 +8,7 @@ from pathlib import Path
 
 import pytest
 
-from diagram.errors import DiagramError
-from diagram.labprofile import (
+from diagram.drawing.labprofile import (
     MAX_PROFILE_BYTES,
     PAGES,
     LabProfile,
@@ -17,7 +16,8 @@ from diagram.labprofile import (
     load_lab_profile,
     parse_lab_profile,
 )
-from diagram.style import Hatch, default_style
+from diagram.drawing.style import Hatch, default_style
+from diagram.errors import DiagramError
 
 LAB = Path(__file__).parent / "data" / "lab"
 EXAMPLES = Path(__file__).parent.parent / "examples"
@@ -196,7 +196,7 @@ def test_hostile_profiles(tmp_path: Path) -> None:
 
 
 def test_pages_match_the_layout() -> None:
-    from diagram.layout import PAGES as LAYOUT_PAGES
+    from diagram.drawing.layout import PAGES as LAYOUT_PAGES
 
     assert set(PAGES) == set(LAYOUT_PAGES)
 
@@ -209,11 +209,11 @@ def test_parse_in_memory_uses_the_base_folder() -> None:
 def test_a_lab_style_reaches_the_rendered_map() -> None:
     # The 50-74 band's tint, angle, spacing and weight appear in the SVG the pipeline renders.
     from diagram._version import __version__
-    from diagram.layout import layout
-    from diagram.load import load_study
+    from diagram.drawing.layout import layout
+    from diagram.drawing.template.mapfile import load_template
+    from diagram.output.svg import render_svg
     from diagram.pipeline import assess_study
-    from diagram.render import render_svg
-    from diagram.template import load_template
+    from diagram.reading.load import load_study
 
     profile = load_lab_profile(LAB / "lab.yaml")
     assessment = assess_study(load_study(EXAMPLES / "multilevel-occlusion.yaml"))

@@ -22,11 +22,11 @@ from diagram.assess.results import (
     SegmentResult,
     Span,
 )
-from diagram.geometry import PathGeometry
-from diagram.layout import CAUTION, PAGES, layout, lesion_label, pack_1d, segment_label
-from diagram.scene import Group, Line, Polygon, Rect, Scene, Text
-from diagram.study import Exam, Graft, Limb, LimbPressures, Patient, Pressures, Stent, Study
-from diagram.template import Template, Vessel
+from diagram.drawing.layout import CAUTION, PAGES, layout, lesion_label, pack_1d, segment_label
+from diagram.drawing.scene import Group, Line, Polygon, Rect, Scene, Text
+from diagram.drawing.template.geometry import PathGeometry
+from diagram.drawing.template.mapfile import Template, Vessel
+from diagram.reading.study import Exam, Graft, Limb, LimbPressures, Patient, Pressures, Stent, Study
 
 # ----------------------------------------------------------------------------- a small template
 

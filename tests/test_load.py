@@ -15,8 +15,8 @@ from hypothesis import strategies as st
 from diagram import anatomy
 from diagram.anatomy import Side
 from diagram.errors import StudyError
-from diagram.load import MAX_BYTES, load_study, load_study_text, study_schema
-from diagram.study import (
+from diagram.reading.load import MAX_BYTES, load_study, load_study_text, study_schema
+from diagram.reading.study import (
     GRAFT_SITES,
     Exam,
     Flow,
@@ -618,7 +618,7 @@ def test_exam_criteria_names_are_carried() -> None:
 
 def test_import_stays_light() -> None:
     # rule of the product: jsonschema is imported only inside the function that validates
-    code = "import sys, diagram.load; print('jsonschema' in sys.modules)"
+    code = "import sys, diagram.reading.load; print('jsonschema' in sys.modules)"
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.split() == ["False"]
 

@@ -13,9 +13,9 @@ from pathlib import Path
 
 import pytest
 
-from diagram.export import render_bytes
-from diagram.load import load_prior, load_study
+from diagram.output.export import render_bytes
 from diagram.pipeline import draw
+from diagram.reading.load import load_prior, load_study
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLES = sorted((ROOT / "examples").glob("*.yaml"))

@@ -14,7 +14,7 @@ from diagram.assess.planning import (
     planning_note,
     stage_of,
 )
-from diagram.study import (
+from diagram.reading.study import (
     Exam,
     Graft,
     Lesion,

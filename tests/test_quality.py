@@ -7,7 +7,7 @@ import pytest
 from diagram.anatomy import Side
 from diagram.assess import assess
 from diagram.assess.quality import doppler_velocity, nyquist_velocity
-from diagram.study import (
+from diagram.reading.study import (
     Exam,
     Flow,
     Lesion,

@@ -14,12 +14,12 @@ import pytest
 from PIL import Image
 from test_layout import crowded, make_template
 
-from diagram.layout import layout
-from diagram.render import clean_text, pattern_id, render_svg
-from diagram.scene import Anchor, Box, Rect, Scene, Text, fmt
-from diagram.style import SEVERITY_ORDER, default_style
-from diagram.template import Template
-from diagram.textmetrics import text_width
+from diagram.drawing.layout import layout
+from diagram.drawing.scene import Anchor, Box, Rect, Scene, Text, fmt
+from diagram.drawing.style import SEVERITY_ORDER, default_style
+from diagram.drawing.template.mapfile import Template
+from diagram.drawing.textmetrics import text_width
+from diagram.output.svg import clean_text, pattern_id, render_svg
 
 SVG = "{http://www.w3.org/2000/svg}"
 
@@ -313,7 +313,7 @@ def _ink_rows(image: Image.Image) -> tuple[int, int, int, int]:
 
 def test_busy_sheet_with_the_shipped_map_renders_quickly(tmp_path: Path) -> None:
     """The crowded study on the shipped template: layout + render well inside interactive use."""
-    from diagram.template import load_template
+    from diagram.drawing.template.mapfile import load_template
 
     shipped = load_template()
     a = crowded()

@@ -9,8 +9,8 @@ import pytest
 
 from diagram._version import __version__
 from diagram.assess import assess
-from diagram.load import load_study
-from diagram.summary import results_document, results_schema
+from diagram.output.results import results_document, results_schema
+from diagram.reading.load import load_study
 
 ROOT = Path(__file__).resolve().parents[1]
 STUDIES = sorted((ROOT / "examples").glob("*.yaml")) + sorted(
@@ -28,7 +28,7 @@ def validator():  # type: ignore[no-untyped-def]
 
 @pytest.mark.parametrize("path", STUDIES, ids=lambda p: p.name)
 def test_results_of_every_study_validate(path: Path) -> None:
-    from diagram.load import load_prior
+    from diagram.reading.load import load_prior
 
     study = load_study(path)
     prior = load_prior(study) if path.parent.name == "examples" else None
@@ -56,7 +56,7 @@ def test_unidentified_results_carry_no_study_echo() -> None:
 
 
 def test_planning_and_comparison_are_in_the_results() -> None:
-    from diagram.load import load_prior
+    from diagram.reading.load import load_prior
 
     study = load_study(ROOT / "examples" / "followup-current.yaml")
     doc = results_document(assess(study, prior=load_prior(study)), version=__version__)

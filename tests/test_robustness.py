@@ -23,9 +23,9 @@ from pathlib import Path
 
 import pytest
 
-from diagram.cli import main
+from diagram.cli.main import main
 from diagram.errors import ExportError
-from diagram.export import write_atomic
+from diagram.output.export import write_atomic
 from tests.benchmarks.generate import write_studies
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -189,7 +189,7 @@ def test_a_batch_in_one_process_finishes_the_study_in_hand_and_stops(
     monkeypatch: pytest.MonkeyPatch,
     capsys: pytest.CaptureFixture[str],
 ) -> None:
-    import diagram.batch as batch
+    import diagram.batch.run as batch
 
     real = batch.draw_one
     done: list[int] = []
@@ -220,7 +220,7 @@ def test_a_worker_that_dies_fails_its_studies_and_the_batch_goes_on(
     monkeypatch: pytest.MonkeyPatch,
     capsys: pytest.CaptureFixture[str],
 ) -> None:
-    import diagram.batch as batch
+    import diagram.batch.run as batch
 
     real = batch.draw_one
 
@@ -506,7 +506,7 @@ def test_the_longest_name_a_folder_takes_is_written(
 def test_the_batch_summary_line_and_exit_status(
     done: int, failed: int, stopped_by: int | None, line: str, status: int
 ) -> None:
-    from diagram.batch import BatchSummary
+    from diagram.batch.run import BatchSummary
 
     summary = BatchSummary(
         done=done, failed=failed, interrupted=stopped_by is not None, signal=stopped_by

@@ -23,15 +23,10 @@ from diagram.assess.compare import Change, Comparison, abi_change
 from diagram.assess.indices import limb_indices
 from diagram.assess.planning import planning_note
 from diagram.assess.results import Assessment, Finding
-from diagram.layout import MIN_MAP_SHARE, layout
-from diagram.load import load_prior, load_study
-from diagram.pipeline import assess_study
-from diagram.render import pdf_from_svgs, render_pages, render_svg
-from diagram.scene import Box, CaseHeader, Group, Item, Polygon, Scene, Text, bounds
-from diagram.sheet import MARGIN_PT, flow_tables
-from diagram.study import LimbPressures, Pressures
-from diagram.style import default_style
-from diagram.tables import (
+from diagram.drawing.layout import MIN_MAP_SHARE, layout
+from diagram.drawing.scene import Box, CaseHeader, Group, Item, Polygon, Scene, Text, bounds
+from diagram.drawing.sheet.parts import MARGIN_PT, flow_tables
+from diagram.drawing.sheet.tables import (
     Entry,
     Row,
     Run,
@@ -42,7 +37,12 @@ from diagram.tables import (
     pressure_entries,
     row_heights,
 )
-from diagram.template import Template, load_template
+from diagram.drawing.style import default_style
+from diagram.drawing.template.mapfile import Template, load_template
+from diagram.output.svg import pdf_from_svgs, render_pages, render_svg
+from diagram.pipeline import assess_study
+from diagram.reading.load import load_prior, load_study
+from diagram.reading.study import LimbPressures, Pressures
 
 ROOT = Path(__file__).resolve().parent.parent
 EXAMPLES = sorted(p.stem for p in (ROOT / "examples").glob("*.yaml"))
@@ -437,7 +437,7 @@ def test_tables_flow_over_pages_row_by_row() -> None:
 def test_pdf_from_svgs_makes_one_page_per_svg() -> None:
     from pypdf import PdfReader
 
-    from diagram.export import _use_shipped_fonts
+    from diagram.output.export import _use_shipped_fonts
 
     _use_shipped_fonts()
     svgs = render_pages(sheet("clti-multilevel"))
@@ -527,8 +527,8 @@ def template() -> Template:
 
 
 def test_bounds_of_text_follow_its_anchor() -> None:
-    from diagram.scene import Anchor
-    from diagram.textmetrics import text_width
+    from diagram.drawing.scene import Anchor
+    from diagram.drawing.textmetrics import text_width
 
     w = text_width("SFA-M", 10)
     for anchor, left in (

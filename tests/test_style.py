@@ -8,7 +8,7 @@ import re
 
 import pytest
 
-from diagram.style import NOT_ASSESSED, SEVERITY_ORDER, Hatch, Style, default_style
+from diagram.drawing.style import NOT_ASSESSED, SEVERITY_ORDER, Hatch, Style, default_style
 
 
 def relative_luminance(colour: str) -> float:

@@ -10,11 +10,9 @@ from typing import Any
 
 import pytest
 
-from diagram.cli import cli, main
-from diagram.design_cli import COMMANDS
-from diagram.labprofile import load_lab_profile
-from diagram.style import SEVERITY_ORDER, Hatch, Style, default_style
-from diagram.stylecheck import (
+from diagram.cli.design import COMMANDS
+from diagram.cli.main import cli, main
+from diagram.design.stylecheck import (
     CVD_MATRICES,
     MIN_DELTA_E,
     MIN_EDGE_STEP,
@@ -31,6 +29,8 @@ from diagram.stylecheck import (
     swatch_svg,
     too_alike,
 )
+from diagram.drawing.labprofile import load_lab_profile
+from diagram.drawing.style import SEVERITY_ORDER, Hatch, Style, default_style
 
 LAB = Path(__file__).parent / "data" / "lab"
 

@@ -26,13 +26,13 @@ import click
 import pytest
 from teach_generator import fold, full_width, study, write_studies
 
+from diagram.cli.teach import FORMAT_CHOICES, teach
 from diagram.errors import DiagramError
-from diagram.load import load_study
+from diagram.output.results import results_document
 from diagram.pipeline import assess_study
-from diagram.summary import results_document
-from diagram.teach import TEACH_FORMATS, age_text, deidentify, new_case_id, render_case
-from diagram.teach_cli import FORMAT_CHOICES, teach
-from diagram.teach_scrub import MARKER, Identifiers, age_at_exam, identifiers_of, scrub
+from diagram.reading.load import load_study
+from diagram.teaching.case import TEACH_FORMATS, age_text, deidentify, new_case_id, render_case
+from diagram.teaching.scrub import MARKER, Identifiers, age_at_exam, identifiers_of, scrub
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLE = ROOT / "examples" / "claudicant-sfa.yaml"
@@ -251,7 +251,7 @@ def test_a_lab_criteria_file_is_refused() -> None:
 
 
 def test_svg_is_rebuilt_from_the_allow_list() -> None:
-    from diagram.teach_clean import CleanError, clean_svg
+    from diagram.teaching.clean import CleanError, clean_svg
 
     dirty = (
         '<?xml version="1.0"?><!-- Demo, Ada --><svg xmlns="http://www.w3.org/2000/svg" '
@@ -275,8 +275,8 @@ def test_svg_is_rebuilt_from_the_allow_list() -> None:
 
 @needs_poppler
 def test_pdf_info_is_emptied_in_place(tmp_path: Path) -> None:
-    from diagram.export import Drawing, render_bytes
-    from diagram.teach_clean import CleanError, strip_pdf_info
+    from diagram.output.export import Drawing, render_bytes
+    from diagram.teaching.clean import CleanError, strip_pdf_info
 
     svg = render_case(load_study(EXAMPLE), new_case_id(), ("svg",)).files
     raw = render_bytes(Drawing(svg=next(iter(svg.values())).decode(), results={}), "pdf")
@@ -300,7 +300,7 @@ def test_pdf_info_is_emptied_in_place(tmp_path: Path) -> None:
 def test_png_keeps_image_chunks_only() -> None:
     from PIL import Image, PngImagePlugin
 
-    from diagram.teach_clean import clean_png
+    from diagram.teaching.clean import clean_png
 
     buf = io.BytesIO()
     info = PngImagePlugin.PngInfo()
@@ -413,17 +413,17 @@ def test_an_identifier_the_scrubber_misses_stops_that_case(
 def test_a_label_layout_leaks_is_caught_in_svg_and_pdf(
     tmp_path: Path, monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]
 ) -> None:
-    import diagram.layout
-    from diagram.scene import Group, Text
+    import diagram.drawing.layout
+    from diagram.drawing.scene import Group, Text
 
-    real = diagram.layout.layout
+    real = diagram.drawing.layout.layout
 
     def leaky_layout(*args: object, **kwargs: object) -> object:
         scene = real(*args, **kwargs)  # type: ignore[arg-type]
         label = Text("planted", 40, 40, "Testcase Morgan", 8)
         return replace(scene, items=(*scene.items, Group("planted-group", (label,))))
 
-    monkeypatch.setattr(diagram.layout, "layout", leaky_layout)
+    monkeypatch.setattr(diagram.drawing.layout, "layout", leaky_layout)
     named = tmp_path / "Testcase_Morgan_2026-11-20.yaml"  # a file named after the patient
     shutil.copy(EXAMPLE, named)
     out = tmp_path / "out"
@@ -445,9 +445,9 @@ def test_sources_inside_the_output_folder_are_refused(
 
 
 def test_metadata_left_in_a_pdf_is_caught(monkeypatch: pytest.MonkeyPatch) -> None:
-    import diagram.teach_clean
+    import diagram.teaching.clean
 
-    monkeypatch.setattr(diagram.teach_clean, "strip_pdf_info", lambda pdf: pdf)
+    monkeypatch.setattr(diagram.teaching.clean, "strip_pdf_info", lambda pdf: pdf)
     out = render_case(load_study(EXAMPLE), new_case_id(), ("pdf",))
     assert {(str(h.category), h.output) for h in out.hits} >= {("document-metadata", "pdf")}
 

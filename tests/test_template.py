@@ -20,9 +20,8 @@ from typing import Any
 import pytest
 
 from diagram import anatomy
-from diagram.errors import TemplateError
-from diagram.geometry import PathGeometry, Point, format_number
-from diagram.template import (
+from diagram.drawing.template.geometry import PathGeometry, Point, format_number
+from diagram.drawing.template.mapfile import (
     JOIN_TOLERANCE,
     MAX_DEPTH,
     MAX_ELEMENTS,
@@ -39,6 +38,7 @@ from diagram.template import (
     shipped_templates,
     summary_line,
 )
+from diagram.errors import TemplateError
 
 SHIPPED = Path(str(resources.files("diagram.templates_svg") / "bilateral.svg"))
 FIXTURES = Path(__file__).parent / "data" / "templates"
@@ -265,7 +265,7 @@ def test_template_is_read_only(shipped: Template) -> None:
 
 
 def test_import_stays_light() -> None:
-    code = "import sys, diagram.template; print('defusedxml' in sys.modules)"
+    code = "import sys, diagram.drawing.template.mapfile; print('defusedxml' in sys.modules)"
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "False"
 
@@ -1240,8 +1240,8 @@ def test_a_vessel_outside_the_viewbox_is_reported(tmp_path: Path) -> None:
 
 
 def run(args: list[str], capsys: pytest.CaptureFixture[str]) -> tuple[int, str, str]:
-    from diagram.cli import cli, main
-    from diagram.design_cli import COMMANDS
+    from diagram.cli.design import COMMANDS
+    from diagram.cli.main import cli, main
 
     for command in COMMANDS:
         cli.add_command(command)
@@ -1304,7 +1304,7 @@ def test_template_list(capsys: pytest.CaptureFixture[str]) -> None:
 
 def test_design_commands_keep_the_command_line_light() -> None:
     code = (
-        "import sys, diagram.design_cli; "
+        "import sys, diagram.cli.design; "
         "print(sorted(m for m in ('defusedxml', 'cairosvg', 'PIL', 'svgwrite', 'yaml') "
         "if m in sys.modules))"
     )

@@ -23,7 +23,7 @@ ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 
 from diagram import anatomy  # noqa: E402
-from diagram.geometry import (  # noqa: E402
+from diagram.drawing.template.geometry import (  # noqa: E402
     Affine,
     Cubic,
     PathGeometry,

@@ -14,7 +14,7 @@ from diagram.assess.quality import quality_findings, with_shift_velocities
 from diagram.assess.results import Assessment, BandDef
 from diagram.criteria import NOT_ASSESSED, Criteria, CriteriaSets, load_criteria
 from diagram.errors import CriteriaError, Problem, StudyError
-from diagram.study import Study
+from diagram.reading.study import Study
 
 
 def band_defs(sets: CriteriaSets, used: tuple[Criteria, ...]) -> tuple[BandDef, ...]:

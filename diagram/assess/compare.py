@@ -19,7 +19,7 @@ from diagram.anatomy import SEGMENT_IDS, UNPAIRED, Side
 from diagram.assess.results import Assessment, LesionResult, LimbIndices
 from diagram.criteria import LOOK_SEVERITY
 from diagram.errors import Problem
-from diagram.study import Study
+from diagram.reading.study import Study
 
 OCCLUDED = LOOK_SEVERITY["occluded"]
 # A fall of the ABI by more than 0.15 is significant: SVS practice guideline on follow-up after

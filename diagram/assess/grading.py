@@ -26,7 +26,7 @@ from diagram.assess.results import (
 )
 from diagram.criteria import NOT_ASSESSED, SIGNIFICANT_SEVERITY, Criteria, CriteriaSets
 from diagram.errors import Problem, StudyError
-from diagram.study import (
+from diagram.reading.study import (
     GRAFT_BODY_SITES,
     GRAFT_SITES,
     Flow,

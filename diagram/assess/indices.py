@@ -10,7 +10,7 @@ from decimal import ROUND_HALF_UP, Context, Decimal, localcontext
 
 from diagram.anatomy import Side
 from diagram.assess.results import Finding, LimbIndices
-from diagram.study import Pressures
+from diagram.reading.study import Pressures
 
 # ABI categories, 2016 AHA/ACC PAD guideline (Gerhard-Herman MD et al., Circulation
 # 2017;135:e726): <= 0.90 abnormal, 0.91-0.99 borderline, 1.00-1.40 normal, > 1.40

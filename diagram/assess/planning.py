@@ -39,7 +39,7 @@ from diagram.assess.plan_results import RunoffVessel as RunoffVessel
 from diagram.assess.plan_results import VesselGrade as VesselGrade
 from diagram.assess.results import LimbResult, Span
 from diagram.criteria import LOOK_SEVERITY, SIGNIFICANT_SEVERITY, CriteriaSets
-from diagram.study import Plaque, Study
+from diagram.reading.study import Plaque, Study
 
 OCCLUDED = LOOK_SEVERITY["occluded"]
 _EPS = 1e-6

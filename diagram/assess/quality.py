@@ -26,7 +26,7 @@ from diagram import anatomy
 from diagram.anatomy import SEGMENTS, Level, Side
 from diagram.assess.results import Finding, LimbResult
 from diagram.criteria import SIGNIFICANT_SEVERITY, CriteriaSets
-from diagram.study import Flow, Limb, Sample, Study, Waveform
+from diagram.reading.study import Flow, Limb, Sample, Study, Waveform
 
 S = TypeVar("S", bound=Sample)
 

@@ -7,7 +7,7 @@ from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
 from diagram.anatomy import Side
-from diagram.study import Study
+from diagram.reading.study import Study
 
 if TYPE_CHECKING:  # defined downstream of this module; annotations only
     from diagram.assess.compare import Comparison

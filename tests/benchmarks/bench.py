@@ -52,11 +52,11 @@ def stages() -> None:
 
     from diagram._version import __version__
     from diagram.assess import assess
-    from diagram.export import Drawing, render_bytes
-    from diagram.layout import layout
-    from diagram.load import load_study
-    from diagram.render import render_svg
-    from diagram.template import load_template
+    from diagram.drawing.layout import layout
+    from diagram.drawing.template.mapfile import load_template
+    from diagram.output.export import Drawing, render_bytes
+    from diagram.output.svg import render_svg
+    from diagram.reading.load import load_study
 
     tmp = Path(tempfile.mkdtemp())
     worst = tmp / "worst.yaml"
@@ -101,8 +101,8 @@ def labels() -> None:
     """Label layout core: measure each label's text with the font metrics, then pack them."""
     import random
 
-    from diagram.labels import pack_1d
-    from diagram.textmetrics import text_width
+    from diagram.drawing.labels import pack_1d
+    from diagram.drawing.textmetrics import text_width
 
     print("label layout: text measured with font metrics + packed in columns (median of 7)")
     print(f"{'labels':>7} {'ms':>8} {'ms / (n log2 n)':>16}")
@@ -149,7 +149,7 @@ def _batch_once(folder: Path, jobs: int) -> tuple[float, float]:
     out = Path(tempfile.mkdtemp())
     code = (
         "import resource, sys\n"
-        "from diagram.cli import main\n"
+        "from diagram.cli.main import main\n"
         "try:\n"
         f"    main(['draw', {str(folder)!r}, '-o', {str(out) + '/'!r}, '--format', 'pdf',"
         f" '--jobs', '{jobs}', '--quiet'])\n"

@@ -1,0 +1,415 @@
+"""Many studies at once: expand the inputs, draw each in a worker process, report a summary.
+
+Studies are streamed: at most a few tasks per worker are in flight and a worker returns only a
+small status, so the parent's memory does not grow with the number of studies. Each study's
+outputs are rendered in memory first and written only when all of them succeeded, each through
+a temporary file and a rename, so a failed study leaves nothing in the output folder.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import os
+import signal
+import string
+import sys
+from collections import deque
+from collections.abc import Callable, Iterable
+from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
+from concurrent.futures.process import BrokenProcessPool
+from dataclasses import dataclass, field
+from pathlib import Path
+from types import FrameType
+from typing import TYPE_CHECKING, Any
+
+from diagram.errors import DiagramError, Problem, StudyError
+
+if TYPE_CHECKING:
+    from diagram.drawing.labprofile import LabProfile
+
+STUDY_SUFFIXES = (".yaml", ".yml", ".json")
+MANIFEST_SUFFIXES = (".txt", ".list", ".manifest")
+DEFAULT_NAME = "map-{n:04d}"
+NAME_FIELDS = ("n", "stem", "accession", "patient_id", "exam_date")
+
+
+@dataclass(frozen=True)
+class BatchSettings:
+    """What every study of a batch is drawn with (picklable)."""
+
+    out_dir: Path
+    formats: tuple[str, ...] = ("pdf",)
+    name_pattern: str = DEFAULT_NAME
+    page: str = "a4"
+    template: Path | None = None
+    criteria: str | None = None
+    target: str | None = None
+    lab: LabProfile | None = None
+    png_dpi: float = 150.0
+    overwrite: bool = False
+
+
+@dataclass(frozen=True)
+class BatchTask:
+    """One study to draw: its place in the batch and its file."""
+
+    n: int
+    study: Path
+    settings: BatchSettings
+
+
+@dataclass(frozen=True)
+class BatchResult:
+    """What became of one study."""
+
+    n: int
+    study: str
+    written: tuple[str, ...] = ()
+    errors: tuple[str, ...] = ()
+
+    @property
+    def ok(self) -> bool:
+        """Return True when every output of the study was written."""
+        return not self.errors
+
+
+@dataclass
+class BatchSummary:
+    """Counts of a finished (or interrupted) batch."""
+
+    done: int = 0
+    failed: int = 0
+    interrupted: bool = False
+    failures: list[BatchResult] = field(default_factory=list)
+    signal: int | None = None  # the signal that stopped the batch (SIGINT for Ctrl-C)
+
+    def line(self, total: int) -> str:
+        """Return the closing line of the batch."""
+        head = f"{self.done} of {total} studies drawn, {self.failed} failed"
+        if self.interrupted:
+            name = signal.Signals(self.signal or signal.SIGINT).name
+            head += f", {total - self.done - self.failed} not drawn (interrupted by {name})"
+        return head + "."
+
+    @property
+    def exit_status(self) -> int:
+        """Return the command's exit status: 128 + the signal when stopped, 2 after a failure."""
+        if self.interrupted:
+            return 128 + (self.signal or signal.SIGINT)
+        return 2 if self.failed else 0
+
+
+def expand_inputs(inputs: Iterable[Path]) -> list[Path]:
+    """Return the study files named by ``inputs``: files, folders, and manifests of paths."""
+    out: list[Path] = []
+    problems: list[Problem] = []
+    for item in inputs:
+        if item.is_dir():
+            found = sorted(p for p in item.iterdir() if p.suffix.lower() in STUDY_SUFFIXES)
+            if not found:
+                problems.append(
+                    Problem(str(item), None, "", None, "is a folder with no study files in it.")
+                )
+            out.extend(found)
+        elif item.suffix.lower() in MANIFEST_SUFFIXES and item.is_file():
+            for raw in item.read_text("utf-8").splitlines():
+                text = raw.strip()
+                if not text or text.startswith("#"):
+                    continue
+                path = Path(text)
+                # a missing file is reported with the rest of the batch, not here
+                out.append(path if path.is_absolute() else item.parent / path)
+        else:
+            out.append(item)
+    if problems:
+        raise StudyError(problems)
+    return out
+
+
+def check_pattern(pattern: str) -> None:
+    """Refuse a naming pattern with an unknown field or a folder separator."""
+    fields = [f for _, f, _, _ in string.Formatter().parse(pattern) if f is not None]
+    unknown = [f for f in fields if f not in NAME_FIELDS]
+    if unknown or "/" in pattern or "\\" in pattern or not pattern.strip():
+        raise StudyError(
+            [
+                Problem(
+                    "--name",
+                    None,
+                    "",
+                    repr(pattern),
+                    f"must be a file name using only the fields {', '.join(NAME_FIELDS)}.",
+                )
+            ]
+        )
+
+
+def output_stem(task: BatchTask, study: object) -> str:
+    """Return the output file name (without suffix) of one study from the naming pattern."""
+    from diagram.reading.study import Study
+
+    assert isinstance(study, Study)
+    values = {
+        "n": task.n,
+        "stem": task.study.stem,
+        "accession": study.exam.accession or "no-accession",
+        "patient_id": study.patient.id or "no-id",
+        "exam_date": study.exam.date.isoformat() if study.exam.date else "no-date",
+    }
+    stem = task.settings.name_pattern.format(**values)
+    return "".join(c if c.isalnum() or c in "-_.+" else "_" for c in stem)
+
+
+def draw_one(task: BatchTask) -> BatchResult:
+    """Draw one study into the output folder; never raises for a tool error.
+
+    Every output is rendered in memory before the first is written. If writing one of them fails
+    or is interrupted, the ones this call already wrote are removed again, so a study leaves all
+    its files or none (a file it replaced under ``--overwrite`` cannot be brought back).
+    """
+    from diagram.output.export import Drawing, ExportOptions, render_bytes, write_atomic
+    from diagram.pipeline import draw
+    from diagram.reading.load import load_prior, load_study
+
+    cfg = task.settings
+    try:
+        study = load_study(task.study)
+        stem = output_stem(task, study)
+        targets = [cfg.out_dir / f"{stem}.{fmt}" for fmt in cfg.formats]
+        existing = [t for t in targets if t.exists()]
+        if existing and not cfg.overwrite:
+            return BatchResult(
+                task.n,
+                str(task.study),
+                errors=tuple(f"{t}: exists; use --overwrite to replace it." for t in existing),
+            )
+        drawing: Drawing = draw(
+            study,
+            page=cfg.page,
+            template=cfg.template,
+            criteria=cfg.criteria,
+            target=cfg.target,
+            prior=load_prior(study),
+            lab=cfg.lab,
+        )
+        options = ExportOptions(png_dpi=cfg.png_dpi)
+        blobs = [render_bytes(drawing, fmt, options) for fmt in cfg.formats]
+        made: list[Path] = []
+        try:
+            for target, blob in zip(targets, blobs, strict=True):
+                write_atomic(target, blob)
+                if target not in existing:
+                    made.append(target)
+        except BaseException:
+            for path in made:
+                with contextlib.suppress(OSError):
+                    path.unlink()
+            raise
+        return BatchResult(task.n, str(task.study), written=tuple(str(t) for t in targets))
+    except DiagramError as exc:
+        return BatchResult(task.n, str(task.study), errors=tuple(exc.lines()))
+
+
+def run_batch(
+    tasks: list[BatchTask],
+    *,
+    jobs: int,
+    on_result: Callable[[BatchResult], None],
+) -> BatchSummary:
+    """Draw every task with ``jobs`` worker processes (in this process when 1).
+
+    A KeyboardInterrupt (Ctrl-C, or a stop signal the command line turns into one, carrying the
+    signal number as ``signum``) ends the batch cleanly: no study is started after it but those
+    already handed to workers (two per worker at most, for up to ``DRAIN_SECONDS`` before the
+    workers are stopped), a study in progress is finished or leaves no file, and the summary
+    says what was done.
+    """
+    summary = BatchSummary()
+
+    def record(result: BatchResult) -> None:
+        if result.ok:
+            summary.done += 1
+        else:
+            summary.failed += 1
+            summary.failures.append(result)
+        on_result(result)
+
+    try:
+        if jobs <= 1:
+            from diagram.output.export import held_signals
+
+            for task in tasks:  # like a worker: a study is drawn whole, or not started
+                with held_signals():
+                    record(draw_one(task))
+        else:
+            todo = deque(tasks)
+            while todo:  # a new pool after one broke (a worker killed, say for memory)
+                _pool_round(todo, jobs, record)
+    except KeyboardInterrupt as exc:
+        summary.interrupted = True
+        summary.signal = getattr(exc, "signum", signal.SIGINT)
+    return summary
+
+
+DRAIN_SECONDS = 5.0  # after an interrupt, how long studies in progress may take to finish
+_BROKEN = (
+    "(file): outcome unknown: a worker process stopped unexpectedly (killed, or out of memory?) "
+    "while this study was in its hands; any output it left is complete; draw it again with "
+    "--overwrite to be sure."
+)
+
+
+_STOPPED = (
+    "(file): outcome unknown: its worker process was stopped by the interrupt before it "
+    "reported; any output it left is complete; draw it again with --overwrite to be sure."
+)
+
+
+def _worker_init() -> None:
+    """Set a worker's signals: Ctrl-C is the parent's to handle; SIGTERM ends it quietly."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    signal.signal(signal.SIGTERM, _worker_exit)
+
+
+def _worker_exit(signum: int, frame: FrameType | None) -> None:
+    """End the worker at once: it holds no partial file here (see ``_work``), and no traceback."""
+    os._exit(128 + signum)
+
+
+def _work(task: BatchTask) -> BatchResult:
+    """Draw one study in a worker process, deferring SIGTERM until the study is done.
+
+    An exception raised by a signal handler in the middle of a drawing could land inside a
+    C callback (cairo's writer), which would print it and carry on; blocking SIGTERM instead
+    lets the study finish or fail whole, and the worker exits as the signal is unblocked.
+    """
+    if not hasattr(signal, "pthread_sigmask"):  # no POSIX signal masks (Windows)
+        return draw_one(task)
+    signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGTERM})
+    try:
+        return draw_one(task)
+    finally:
+        signal.pthread_sigmask(signal.SIG_UNBLOCK, {signal.SIGTERM})
+
+
+class _StopFlag:
+    """While the pool is fed, turn SIGINT/SIGTERM into a flag checked at safe points.
+
+    A signal handler that raises could land between handing a study to the pool and noting it
+    (or between a study's result and its count), and the summary would then miss a study whose
+    files are there. The flag is read where the bookkeeping is whole; the previous handlers are
+    restored afterwards. Outside the main thread, where handlers cannot be set, it does nothing.
+    """
+
+    def __init__(self) -> None:
+        self.signum: int | None = None
+        self._previous: dict[int, Any] = {}
+
+    def __enter__(self) -> _StopFlag:
+        with contextlib.suppress(ValueError):  # not the main thread
+            for signum in (signal.SIGINT, signal.SIGTERM):
+                self._previous[signum] = signal.signal(signum, self._note)
+        return self
+
+    def _note(self, signum: int, frame: FrameType | None) -> None:
+        self.signum = self.signum or signum
+
+    def __exit__(self, *exc: object) -> None:
+        for signum, handler in self._previous.items():
+            signal.signal(signum, handler)
+
+    def interrupt(self) -> KeyboardInterrupt:
+        """Return the interrupt to raise, carrying the signal number as ``signum``."""
+        stop = KeyboardInterrupt()
+        stop.signum = self.signum  # type: ignore[attr-defined]
+        return stop
+
+
+_POLL_SECONDS = 0.2  # how often a waiting batch looks at the stop flag
+
+
+def _pool_round(todo: deque[BatchTask], jobs: int, record: Callable[[BatchResult], None]) -> None:
+    """Draw tasks from ``todo`` in one pool, keeping a few per worker in flight.
+
+    Returns when ``todo`` is empty, or early when the pool broke: its studies in flight are
+    recorded as failed with an unknown outcome (a worker may have written a study's files just
+    before another died), and the caller starts a new pool for the rest. A stop signal is
+    noted and acted on between steps, so every study handed to the pool is accounted for.
+    """
+    pending: dict[Future[BatchResult], BatchTask] = {}
+    with (
+        ProcessPoolExecutor(max_workers=jobs, initializer=_worker_init) as pool,
+        _StopFlag() as stop,
+    ):
+        try:
+            broken = False
+            while ((todo and not broken) or pending) and stop.signum is None:
+                while todo and not broken and len(pending) < jobs * 2:
+                    try:
+                        pending[pool.submit(_work, todo[0])] = todo[0]
+                        todo.popleft()
+                    except BrokenProcessPool:
+                        broken = True
+                finished, _ = wait(pending, timeout=_POLL_SECONDS, return_when=FIRST_COMPLETED)
+                for future in finished:
+                    task = pending.pop(future)
+                    if isinstance(future.exception(), BrokenProcessPool):
+                        broken = True
+                        record(BatchResult(task.n, str(task.study), errors=(_broken(task),)))
+                    else:
+                        record(future.result())
+            if stop.signum is not None:
+                raise stop.interrupt()
+        except KeyboardInterrupt:
+            _drain(pool, pending, record)
+            raise
+
+
+def _broken(task: BatchTask) -> str:
+    return f"{task.study}: {_BROKEN}"
+
+
+def _drain(
+    pool: ProcessPoolExecutor,
+    pending: dict[Future[BatchResult], BatchTask],
+    record: Callable[[BatchResult], None],
+) -> None:
+    """After an interrupt: submit nothing more and let the pool finish what it holds, in time.
+
+    The pool holds at most two studies per worker. They are not cancelled: on Python 3.11 a
+    cancel can race the pool's own clean-up when its workers were signalled too, which then
+    fails in the pool's thread. Studies still running after ``DRAIN_SECONDS`` get SIGTERM (each
+    worker finishes or drops its study whole, then exits without reporting); a worker still
+    alive after as long again is killed. Every study the pool held is recorded: drawn or failed
+    from its result, or failed with an unknown outcome when its worker did not report, so
+    that the summary never counts as not drawn a study whose files are there.
+    """
+    done, late = wait(pending, timeout=DRAIN_SECONDS)
+    # Python 3.11 has no public way to stop a pool's workers; these are its worker processes.
+    workers = list((pool._processes or {}).values()) if late else []
+    for hard in (False, True):  # SIGTERM first, then SIGKILL
+        if not late:
+            break
+        for process in workers:
+            with contextlib.suppress(OSError):
+                process.kill() if hard else process.terminate()
+        finished, late = wait(late, timeout=DRAIN_SECONDS)
+        done |= finished
+    for future, task in pending.items():
+        if future in done and future.exception() is None:
+            record(future.result())  # a study that failed normally is reported too
+        else:  # its worker was stopped, or died with the signal, before it reported
+            record(BatchResult(task.n, str(task.study), errors=(f"{task.study}: {_STOPPED}",)))
+
+
+def default_jobs() -> int:
+    """Return the number of worker processes to use by default: the usable CPU count."""
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except AttributeError:  # not on every platform
+        return max(1, os.cpu_count() or 1)
+
+
+def show_progress(quiet: bool) -> bool:
+    """Return True when a progress bar should be drawn (a terminal, and not --quiet)."""
+    return not quiet and sys.stderr.isatty()

@@ -1,0 +1,379 @@
+"""The ``limbchart`` command line: parse options, call the API, turn tool errors into exit status 2.
+
+No domain logic lives here. Heavy libraries are imported by the commands that need them, so that
+``limbchart --help`` stays fast.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import signal
+import sys
+import threading
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+import click
+
+from diagram._version import __version__
+from diagram.caution import CAUTION
+from diagram.cli.options import (
+    criteria_option,
+    dpi_option,
+    jobs_option,
+    page_option,
+    prior_option,
+    quiet_option,
+    target_option,
+    template_option,
+)
+from diagram.errors import DiagramError
+
+if TYPE_CHECKING:
+    from diagram.batch.run import BatchSettings
+
+FORMATS = ("svg", "pdf", "png", "dcm", "json")
+
+
+@click.group(
+    context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100},
+    epilog=CAUTION,
+)
+@click.version_option(__version__, prog_name="limbchart")
+def cli() -> None:
+    """Draw graded leg-artery maps from arterial duplex findings.
+
+    Reads a study file (YAML or JSON), computes velocity ratios and stenosis bands with a
+    published criteria set, and draws the bilateral map as SVG, PDF or PNG.
+    """
+
+
+@cli.command()
+@click.argument("studies", nargs=-1, required=True, type=click.Path(path_type=Path))
+@click.option(
+    "-o",
+    "--output",
+    required=True,
+    type=click.Path(),
+    help="Output file (format from its suffix: .svg .pdf .png .dcm .json), or a folder "
+    "(ending in /) for many studies.",
+)
+@click.option(
+    "--format",
+    "formats",
+    multiple=True,
+    type=click.Choice(FORMATS),
+    help="Output format, whatever the suffix; repeat it for several formats in a batch.",
+)
+@page_option
+@template_option
+@click.option(
+    "--lab",
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="A lab profile (YAML): lab name, template, page and band style.",
+)
+@criteria_option
+@dpi_option
+@target_option
+@prior_option
+@jobs_option
+@quiet_option
+@click.option("--overwrite", is_flag=True, help="Replace existing files in the output folder.")
+@click.option(
+    "--name",
+    "name_pattern",
+    default="map-{n:04d}",
+    show_default=True,
+    help="Output name pattern in a batch; fields {n} {stem} {accession} {patient_id} "
+    "{exam_date} (the last three put identifiers in file names).",
+)
+def draw(
+    studies: tuple[Path, ...],
+    output: str,
+    formats: tuple[str, ...],
+    page: str | None,
+    template: Path | None,
+    lab: Path | None,
+    criteria: str | None,
+    dpi: float,
+    target: str | None,
+    prior: Path | None,
+    jobs: int | None,
+    quiet: bool,
+    overwrite: bool,
+    name_pattern: str,
+) -> None:
+    """Draw the map of each STUDY (a file, a folder of files, or a .txt list of paths)."""
+    from diagram.output.export import ExportOptions, export, format_for
+
+    profile = None
+    if lab is not None:
+        from diagram.drawing.labprofile import load_lab_profile
+
+        profile = load_lab_profile(lab)
+    page = page or (profile.page if profile and profile.page else "a4")
+
+    as_folder = output.endswith(("/", os.sep)) or _is_folder(output)
+    single = (
+        len(studies) == 1
+        and studies[0].suffix.lower() in (".yaml", ".yml", ".json")
+        and not as_folder
+    )
+    if prior is not None and not single:
+        raise click.UsageError("--prior goes with one study; in a batch each study names its own.")
+    if single:
+        from diagram.pipeline import draw as draw_study
+        from diagram.reading.load import load_prior, load_study
+
+        if len(formats) > 1:
+            raise click.UsageError("one output file takes one --format; give a folder for more.")
+        chosen = format_for(Path(output), formats[0] if formats else None)  # refuse before any work
+        study = load_study(studies[0])
+        earlier = load_prior(study, prior)
+        drawing = draw_study(
+            study,
+            page=page,
+            template=template,
+            criteria=criteria,
+            target=target,
+            prior=earlier,
+            lab=profile,
+        )
+        written = export(drawing, Path(output), chosen, ExportOptions(png_dpi=dpi))
+        if not quiet:
+            click.echo(f"wrote {written}", err=True)
+        return
+    from diagram.batch.run import BatchSettings
+
+    settings = BatchSettings(
+        out_dir=Path(output),
+        formats=tuple(dict.fromkeys(formats or ("pdf",))),
+        name_pattern=name_pattern,
+        page=page,
+        template=template,
+        criteria=criteria,
+        target=target,
+        lab=profile,
+        png_dpi=dpi,
+        overwrite=overwrite,
+    )
+    _draw_batch(studies, settings, jobs, quiet)
+
+
+def _is_folder(name: str) -> bool:
+    """Return True for an existing folder; False for anything the file system cannot name."""
+    try:
+        return Path(name).is_dir()
+    except OSError:  # a name too long for the file system: export reports it in one line
+        return False
+
+
+def _draw_batch(
+    studies: tuple[Path, ...], settings: BatchSettings, jobs: int | None, quiet: bool
+) -> None:
+    from diagram.batch.run import (
+        BatchResult,
+        BatchTask,
+        check_pattern,
+        default_jobs,
+        expand_inputs,
+        run_batch,
+        show_progress,
+    )
+    from diagram.errors import ExportError
+
+    check_pattern(settings.name_pattern)
+    paths = expand_inputs(studies)
+    out_dir = settings.out_dir
+    try:
+        out_dir.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise ExportError(f"{out_dir}: cannot be made a folder: {exc.strerror}.") from None
+    if not out_dir.is_dir():
+        raise ExportError(f"{out_dir}: is not a folder.")
+    tasks = [BatchTask(n, p, settings) for n, p in enumerate(paths, start=1)]
+    bar_wanted = show_progress(quiet)
+
+    def report(result: BatchResult) -> None:
+        if not result.ok:
+            for line in result.errors:
+                click.echo(_printable(line), err=True)
+        elif not quiet and not bar_wanted:
+            click.echo(f"{result.study} -> {', '.join(result.written)}", err=True)
+
+    if bar_wanted:
+        with click.progressbar(length=len(tasks), label="drawing", file=sys.stderr) as bar:
+
+            def tick(result: BatchResult) -> None:
+                report(result)
+                bar.update(1)
+
+            summary = run_batch(tasks, jobs=jobs or default_jobs(), on_result=tick)
+    else:
+        summary = run_batch(tasks, jobs=jobs or default_jobs(), on_result=report)
+    click.echo(summary.line(len(tasks)), err=True)
+    if summary.exit_status:
+        sys.exit(summary.exit_status)
+
+
+@cli.command()
+@click.argument("study", type=click.Path(dir_okay=False, path_type=Path))
+@click.option("--json", "as_json", is_flag=True, help="Print the results document as JSON.")
+@criteria_option
+@target_option
+@prior_option
+def check(
+    study: Path, as_json: bool, criteria: str | None, target: str | None, prior: Path | None
+) -> None:
+    """Validate a STUDY file and print its computed grading."""
+    from diagram.output.results import results_document, results_table
+    from diagram.pipeline import assess_study
+    from diagram.reading.load import load_prior, load_study
+
+    current = load_study(study)
+    assessment = assess_study(
+        current, criteria=criteria, target=target, prior=load_prior(current, prior)
+    )
+    if as_json:
+        click.echo(json.dumps(results_document(assessment, version=__version__), indent=2))
+    else:
+        click.echo(results_table(assessment))
+        click.echo(f"\n{CAUTION}")
+
+
+@cli.group()
+def criteria() -> None:
+    """List and show criteria sets (shipped, or a lab's own file)."""
+
+
+@criteria.command("list")
+def criteria_list() -> None:
+    """List the shipped criteria sets."""
+    from diagram.criteria import load_criteria, shipped_names
+
+    for name in shipped_names():
+        crit = load_criteria(name)
+        click.echo(f"{name:8}  {crit.kind:7}  {crit.title}")
+
+
+@criteria.command("show")
+@click.argument("name_or_path")
+def criteria_show(name_or_path: str) -> None:
+    """Print a criteria set (a shipped NAME or a lab file PATH) as a table, with its sources."""
+    from diagram.criteria import criteria_table, load_criteria
+
+    click.echo(criteria_table(load_criteria(name_or_path)))
+
+
+@cli.command()
+@click.option("--results", is_flag=True, help="Print the schema of the results document instead.")
+def schema(results: bool) -> None:
+    """Print the JSON Schema of the study file (or of the results document)."""
+    if results:
+        from diagram.output.results import results_schema
+
+        click.echo(json.dumps(results_schema(), indent=2))
+        return
+    from diagram.reading.load import study_schema
+
+    click.echo(json.dumps(study_schema(), indent=2))
+
+
+def _register() -> None:
+    """Add the commands defined beside their stages (their heavy imports stay inside them)."""
+    from diagram.cli.design import COMMANDS
+    from diagram.cli.teach import teach
+
+    cli.add_command(teach)
+    for command in COMMANDS:
+        cli.add_command(command)
+
+
+_register()
+
+
+class Interrupted(KeyboardInterrupt):
+    """A stop signal (SIGINT or SIGTERM) taking the Ctrl-C path; ``signum`` says which."""
+
+    def __init__(self, signum: int) -> None:
+        super().__init__(signal.Signals(signum).name)
+        self.signum = signum
+
+
+class _StopSignals:
+    """While active, turn the first SIGINT or SIGTERM into :class:`Interrupted`.
+
+    A later signal is only noted, so that the cleanup the first one started (a batch finishing
+    its studies in progress, temporary files removed) is not cut short. Handlers are installed
+    only in the main thread and restored on exit.
+    """
+
+    SIGNALS = (signal.SIGINT, signal.SIGTERM)
+
+    def __init__(self) -> None:
+        self.signum: int | None = None
+        self._pid = os.getpid()
+        self._previous: dict[int, Any] = {}
+
+    def __enter__(self) -> _StopSignals:
+        if threading.current_thread() is threading.main_thread():
+            for signum in self.SIGNALS:
+                self._previous[signum] = signal.signal(signum, self._handle)
+        return self
+
+    def __exit__(self, kind: type[BaseException] | None, *rest: object) -> bool:
+        for signum, handler in self._previous.items():
+            signal.signal(signum, handler if handler is not None else signal.SIG_DFL)
+        # an interrupt that arrived after the command's own status was settled
+        return kind is not None and issubclass(kind, KeyboardInterrupt)
+
+    def _handle(self, signum: int, frame: object) -> None:
+        if os.getpid() != self._pid:  # a forked worker that has not set its own handlers yet
+            os._exit(128 + signum)
+        if self.signum is None:
+            self.signum = signum
+            raise Interrupted(signum)
+
+    def status(self, code: int | str | None) -> int | str | None:
+        """Return the exit status: 128 + the signal number after a stop signal."""
+        return 128 + self.signum if self.signum is not None else code
+
+
+def _printable(line: str) -> str:
+    """Escape control characters, so that a message stays one line and cannot drive a terminal."""
+    if line.isprintable():
+        return line
+    return "".join(ch if ch.isprintable() else ascii(ch)[1:-1] for ch in line)
+
+
+def main(args: list[str] | None = None, prog_name: str | None = None) -> None:
+    """Run the command line; a tool error prints one line per problem and exits with status 2.
+
+    SIGTERM takes the same path as Ctrl-C: nothing partial is left, a batch prints its summary,
+    and the exit status is 128 + the signal number (130 for SIGINT, 143 for SIGTERM).
+    """
+    code: int | str | None = 130  # if a stop signal cuts in before a status is settled
+    with _StopSignals() as stop:
+        try:
+            try:
+                result: Any = cli.main(
+                    args=args, prog_name=prog_name or "limbchart", standalone_mode=False
+                )
+                code = result if isinstance(result, int) else 0
+            except DiagramError as exc:
+                for line in exc.lines():
+                    click.echo(_printable(line), err=True)
+                code = exc.exit_code
+            except click.exceptions.Abort:  # Ctrl-C or SIGTERM inside a command
+                click.echo("interrupted", err=True)
+                code = 130
+            except click.ClickException as exc:
+                exc.show()
+                code = exc.exit_code
+            except SystemExit as exc:  # a command's own status, e.g. a batch's summary
+                code = exc.code
+        except KeyboardInterrupt:  # a stop signal while a message above was printed
+            click.echo("interrupted", err=True)
+            code = 130
+    sys.exit(stop.status(code))

@@ -1,0 +1,147 @@
+"""The ``limbchart teach`` command: export studies as de-identified teaching cases.
+
+Registered on the command group with ``cli.add_command(teach)``. Only click is imported here;
+the work is in :mod:`diagram.teaching.batch` and :mod:`diagram.teaching.case`, imported when the
+command runs, so that ``limbchart --help`` stays light.
+"""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+import click
+
+from diagram.cli.options import dpi_option, jobs_option
+
+# the same as diagram.teaching.case.TEACH_FORMATS (a test keeps them equal)
+FORMAT_CHOICES = ("pdf", "svg", "png", "dcm", "yaml")
+DEFAULT_FORMATS = ("pdf", "yaml")
+
+
+@click.command()
+@click.argument("inputs", nargs=-1, required=True, type=click.Path(path_type=Path))
+@click.option(
+    "-o",
+    "--output",
+    required=True,
+    type=click.Path(file_okay=False, path_type=Path),
+    help="Folder for the teaching cases (made if missing); files are named by case id only.",
+)
+@click.option(
+    "--format",
+    "formats",
+    multiple=True,
+    type=click.Choice(FORMAT_CHOICES),
+    help="Output format; repeat for several (default: pdf and yaml, the de-identified study).",
+)
+@click.option(
+    "--link",
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="Also write a file mapping each case id to its source study (kept out of the "
+    "output folder; without it no link is kept anywhere).",
+)
+@click.option("--no-year", is_flag=True, help="Leave the exam year off too (age is kept).")
+@click.option(
+    "--page",
+    type=click.Choice(["a4", "letter", "map"]),
+    default="a4",
+    show_default=True,
+    help="Page size, or 'map' for the map and legend alone.",
+)
+@click.option(
+    "--template",
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="A lab's own map template (SVG); the shipped bilateral map by default.",
+)
+@dpi_option
+@jobs_option
+@click.option("--quiet", is_flag=True, help="No progress bar.")
+def teach(
+    inputs: tuple[Path, ...],
+    output: Path,
+    formats: tuple[str, ...],
+    link: Path | None,
+    no_year: bool,
+    page: str,
+    template: Path | None,
+    dpi: float,
+    jobs: int | None,
+    quiet: bool,
+) -> None:
+    """Export each STUDY (a file, a folder of files, or a .txt list of paths) as a teaching case.
+
+    Names, ids, dates but the year, ages over 89, site and staff are removed, free text is
+    scrubbed, document metadata is stripped, and every output is scanned for the source's
+    identifiers before anything is written: a case with a hit is not written at all. An
+    audit.json in the output folder lists what kinds of identifier were removed per case.
+    """
+    from diagram.batch.run import default_jobs, expand_inputs, show_progress
+    from diagram.errors import ExportError
+    from diagram.teaching.batch import (
+        TeachResult,
+        TeachSettings,
+        TeachTask,
+        check_link_target,
+        read_audit,
+        run_teach,
+        write_audit,
+        write_link,
+    )
+    from diagram.teaching.case import new_case_id
+
+    paths = expand_inputs(inputs)
+    inside = [p for p in paths if p.resolve().is_relative_to(output.resolve())]
+    if inside:  # identified studies must not sit among the teaching files
+        raise ExportError(
+            f"{output}: holds {len(inside)} of the source studies; give an output folder apart "
+            "from the identified studies."
+        )
+    try:
+        output.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise ExportError(f"{output}: cannot be made a folder: {exc.strerror}.") from None
+    if link is not None:
+        check_link_target(link, output)
+    earlier = read_audit(output)
+    settings = TeachSettings(
+        out_dir=output,
+        formats=tuple(dict.fromkeys(formats or DEFAULT_FORMATS)),
+        keep_year=not no_year,
+        page=page,
+        template=template,
+        png_dpi=dpi,
+    )
+    taken = {str(c.get("case_id")) for c in earlier}
+    taken.update(p.name.split(".")[0] for p in output.iterdir())
+    tasks = []
+    for n, path in enumerate(paths, start=1):
+        case_id = new_case_id()
+        while case_id in taken:
+            case_id = new_case_id()
+        taken.add(case_id)
+        tasks.append(TeachTask(n, path, case_id, settings))
+
+    def report(result: TeachResult) -> None:
+        for line in result.errors:
+            click.echo(line, err=True)
+
+    workers = jobs or default_jobs()
+    if show_progress(quiet):
+        with click.progressbar(length=len(tasks), label="teaching", file=sys.stderr) as bar:
+
+            def tick(result: TeachResult) -> None:
+                report(result)
+                bar.update(1)
+
+            summary = run_teach(tasks, jobs=workers, on_result=tick)
+    else:
+        summary = run_teach(tasks, jobs=workers, on_result=report)
+    audit = write_audit(output, earlier, summary.results)
+    if link is not None:
+        write_link(link, summary.results)
+    click.echo(f"{summary.line(len(tasks))} Audit: {audit}", err=True)
+    if summary.interrupted:
+        sys.exit(130)
+    if summary.failed:
+        sys.exit(2)

@@ -1,0 +1,278 @@
+"""The export stage: write a drawing as SVG, PDF, PNG or JSON, atomically.
+
+One ``export()`` with a registry of writers keyed by format; the format comes from the output
+suffix unless given. Every write goes to a temporary file in the destination folder and is renamed
+into place only when complete, so a failed run leaves no partial file and an existing output is
+replaced only by a complete new one. CairoSVG runs in its safe mode (``unsafe=False``): it never
+fetches anything but ``data:`` URLs.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import errno
+import json
+import os
+import secrets
+import signal
+import threading
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass
+from importlib import resources
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+from diagram.errors import ExportError
+
+if TYPE_CHECKING:
+    from diagram.output.dicom import DicomIdentity
+    from diagram.reading.study import Study
+
+
+@dataclass(frozen=True)
+class Drawing:
+    """What the pipeline produced for one study: the SVG text and the results document.
+
+    ``svg`` is page 1; ``more`` holds the further pages of a sheet whose tables did not fit.
+    ``study`` gives the DICOM header its patient and exam attributes; ``dicom`` overrides them
+    (the teaching export passes de-identified ones).
+    """
+
+    svg: str
+    results: dict[str, Any]
+    study: Study | None = None
+    dicom: DicomIdentity | None = None
+    more: tuple[str, ...] = ()
+
+    @property
+    def pages(self) -> tuple[str, ...]:
+        """Return the SVG text of every page, page 1 first."""
+        return (self.svg, *self.more)
+
+
+@dataclass(frozen=True)
+class ExportOptions:
+    """Format-specific settings."""
+
+    png_dpi: float = 150.0
+
+
+Writer = Callable[[Drawing, ExportOptions], bytes]
+
+
+def _use_shipped_fonts() -> None:
+    """Point fontconfig at the package's fonts before cairo first looks a font up.
+
+    The label layout measures text with the shipped DejaVu Sans; rendering with the same file
+    keeps the PDF and PNG text exactly as wide as the layout assumed.
+    """
+    if "FONTCONFIG_FILE" not in os.environ:
+        conf = resources.files("diagram") / "fonts" / "fonts.conf"
+        os.environ["FONTCONFIG_FILE"] = str(conf)
+
+
+def _cairosvg() -> Any:
+    _use_shipped_fonts()
+    try:
+        import cairosvg
+    except OSError as exc:  # the Python package is there but the system cairo library is not
+        raise ExportError(
+            f"PDF and PNG output need the cairo library ({exc}); install it, e.g. "
+            "'apt-get install -y libcairo2'."
+        ) from None
+    return cairosvg
+
+
+def _svg(drawing: Drawing, options: ExportOptions) -> bytes:
+    from diagram.output.pages import stack_svgs
+
+    return stack_svgs(drawing.pages).encode("utf-8")
+
+
+def _pdf(drawing: Drawing, options: ExportOptions) -> bytes:
+    cairosvg = _cairosvg()
+    if not drawing.more:
+        data: bytes = cairosvg.svg2pdf(bytestring=drawing.svg.encode("utf-8"), unsafe=False)
+        return data
+    from diagram.output.svg import pdf_from_svgs
+
+    return pdf_from_svgs(drawing.pages)
+
+
+def _png(drawing: Drawing, options: ExportOptions) -> bytes:
+    from diagram.output.pages import GAP_PT, stack_pngs
+
+    cairosvg = _cairosvg()
+    images = [
+        cairosvg.svg2png(
+            bytestring=page.encode("utf-8"),
+            unsafe=False,
+            dpi=options.png_dpi,
+            background_color="white",
+        )
+        for page in drawing.pages
+    ]
+    return stack_pngs(images, round(GAP_PT * options.png_dpi / 72))
+
+
+def _dcm(drawing: Drawing, options: ExportOptions) -> bytes:
+    from diagram._version import __version__
+    from diagram.output.dicom import DicomIdentity, encapsulated_pdf, identity_from_study
+
+    if drawing.dicom is not None:
+        ident = drawing.dicom
+    elif drawing.study is not None:
+        ident = identity_from_study(drawing.study)
+    else:
+        ident = DicomIdentity()
+    return encapsulated_pdf(_pdf(drawing, options), ident, version=__version__)
+
+
+def _json(drawing: Drawing, options: ExportOptions) -> bytes:
+    try:
+        text = json.dumps(drawing.results, indent=2, sort_keys=False, ensure_ascii=False)
+        return (text + "\n").encode("utf-8")
+    except UnicodeEncodeError:
+        # A lone surrogate (from a JSON study's "\ud800" escape) is no UTF-8 character: write
+        # every non-ASCII character as a JSON escape instead, the value exactly as it came in.
+        return (json.dumps(drawing.results, indent=2, sort_keys=False) + "\n").encode("ascii")
+
+
+WRITERS: dict[str, Writer] = {
+    "svg": _svg,
+    "pdf": _pdf,
+    "png": _png,
+    "dcm": _dcm,
+    "json": _json,
+}
+FORMATS: tuple[str, ...] = tuple(WRITERS)
+
+
+def format_for(path: Path, forced: str | None = None) -> str:
+    """Return the output format: ``forced`` if given, else the path's suffix."""
+    fmt = (forced or path.suffix.lstrip(".")).lower()
+    if fmt not in WRITERS:
+        shown = forced if forced else (path.suffix or "(no suffix)")
+        raise ExportError(
+            f"{path}: output format {shown!r} is not one of {', '.join(FORMATS)}; "
+            "give a suffix such as .pdf or use --format."
+        )
+    return fmt
+
+
+def render_bytes(drawing: Drawing, fmt: str, options: ExportOptions | None = None) -> bytes:
+    """Return the drawing encoded in one format, without writing anything.
+
+    SIGINT and SIGTERM are held meanwhile (see ``held_signals``) and handled once it returns.
+    """
+    with held_signals():
+        return WRITERS[fmt](drawing, options or ExportOptions())
+
+
+@contextlib.contextmanager
+def held_signals() -> Iterator[None]:
+    """Hold SIGINT and SIGTERM in the main thread meanwhile; they are handled on the way out.
+
+    Used around encoding a drawing, and by a batch around each study it draws in-process.
+
+    A handler that raises (Ctrl-C, or the command line's SIGTERM handler) could otherwise raise
+    inside cairo's write callback, where cffi prints the exception and drops it, and cairo then
+    fails with an unrelated error. Python runs signal handlers only in the main thread, so in
+    other threads there is nothing to hold; a process with other threads that leave these
+    signals unblocked could still see its handler run during the encoding.
+    """
+    main = threading.current_thread() is threading.main_thread()
+    if not main or not hasattr(signal, "pthread_sigmask"):
+        yield
+        return
+    previous = signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT, signal.SIGTERM})
+    try:
+        yield
+    finally:
+        signal.pthread_sigmask(signal.SIG_SETMASK, previous)
+
+
+PART_SUFFIX = ".part"
+_CREATE_NEW = (
+    os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_CLOEXEC", 0) | getattr(os, "O_BINARY", 0)
+)
+
+
+def write_atomic(path: Path, data: bytes) -> None:
+    """Write ``data`` to ``path`` through a temporary file and a rename.
+
+    The temporary file (``.NAME.RANDOM.part`` beside the target) is named before it is created,
+    so it is removed whatever stops the write: an OSError, or an interrupt arriving between any
+    two steps. The target is either untouched or replaced by the complete new file.
+    """
+    folder = path.parent  # Path("m.svg").parent is Path(".")
+    _check_target(path, folder)
+    # at most 64 + 23 bytes, so that any name the folder takes has a temporary name too
+    stem = os.fsencode(path.name)[:64].decode("utf-8", "ignore")
+    tmp = folder / f".{stem}.{secrets.token_hex(8)}{PART_SUFFIX}"
+    owned: Path | None = tmp  # what the cleanup removes; set before the file exists
+    try:
+        try:
+            fd = os.open(tmp, _CREATE_NEW, 0o666)
+        except FileExistsError:
+            owned = None  # another writer's file: never ours to remove
+            raise
+        try:
+            view = memoryview(data)
+            while view:
+                view = view[os.write(fd, view) :]
+            os.fsync(fd)
+        finally:
+            os.close(fd)
+        os.replace(tmp, path)
+    except OSError as exc:
+        raise ExportError(_cannot_write(path, folder, exc)) from None
+    except ValueError:  # a NUL character, or text no file name can hold
+        raise ExportError(f"{path}: is not a usable file name.") from None
+    finally:
+        if owned is not None:
+            with contextlib.suppress(OSError):  # gone already once renamed into place
+                os.unlink(owned)
+
+
+def _check_target(path: Path, folder: Path) -> None:
+    """Refuse a target that is a folder, or whose folder is missing, before anything is made."""
+    try:
+        if path.is_dir():
+            raise ExportError(f"{path}: is a folder; give a file name such as {path / 'map.pdf'}.")
+        if not folder.is_dir():
+            if folder.exists():
+                raise ExportError(f"{path}: {folder} is a file, not a folder.")
+            raise ExportError(f"{path}: the folder {folder} does not exist.")
+    except OSError as exc:  # e.g. a folder on the way that cannot be searched
+        raise ExportError(_cannot_write(path, folder, exc)) from None
+
+
+def _cannot_write(path: Path, folder: Path, exc: OSError) -> str:
+    """Return the one-line message for an OSError met while writing ``path``."""
+    code = exc.errno
+    if code in (errno.EACCES, errno.EPERM):
+        why = f"no permission to write in the folder {folder}"
+    elif code == errno.EROFS:
+        why = f"the folder {folder} is on a read-only file system"
+    elif code in (errno.ENOSPC, getattr(errno, "EDQUOT", errno.ENOSPC)):
+        why = "no space left on the disk (or the disk quota is used up); nothing was written"
+    elif code == errno.ENAMETOOLONG:
+        why = "the file name is too long"
+    elif code == errno.EISDIR:
+        why = "it is a folder"
+    elif code == errno.ENOTDIR:
+        why = "a part of the path is a file, not a folder"
+    else:
+        why = (exc.strerror or str(exc)).rstrip(".")
+    return f"{path}: cannot be written: {why}."
+
+
+def export(
+    drawing: Drawing, path: str | Path, fmt: str | None = None, options: ExportOptions | None = None
+) -> Path:
+    """Write the drawing to ``path`` in its format; return the path written."""
+    out = Path(path)
+    chosen = format_for(out, fmt)
+    write_atomic(out, render_bytes(drawing, chosen, options))
+    return out

@@ -1,0 +1,315 @@
+"""Assessment ➜ the results document (JSON-ready dict) and the plain-text table of ``check``."""
+
+from __future__ import annotations
+
+import dataclasses
+from enum import Enum
+from typing import Any
+
+from diagram import anatomy
+from diagram.anatomy import Side
+from diagram.assess.results import (
+    Assessment,
+    GraftResult,
+    LesionResult,
+    Reference,
+    SegmentResult,
+    Span,
+    StentResult,
+)
+from diagram.caution import CAUTION
+from diagram.reading.study import Study
+
+RESULTS_FORMAT = 1
+
+
+def _num(value: float | None) -> float | int | None:
+    if value is None:
+        return None
+    return int(value) if float(value).is_integer() else round(float(value), 3)
+
+
+def _ref(ref: Reference | None) -> dict[str, Any] | None:
+    if ref is None:
+        return None
+    return {
+        "psv": _num(ref.psv),
+        "source": ref.source,
+        "segment": ref.segment,
+        "diseased": ref.diseased,
+        "basis": ref.describe(),
+    }
+
+
+def _span(span: Span) -> dict[str, Any]:
+    return {"segment": span.segment, "start_cm": _num(span.start_cm), "end_cm": _num(span.end_cm)}
+
+
+def _segment(r: SegmentResult) -> dict[str, Any]:
+    return {
+        "band": r.band,
+        "psv": _num(r.psv),
+        "edv": _num(r.edv),
+        "vr": _num(r.vr),
+        "reference": _ref(r.reference),
+        "waveform": r.waveform,
+        "basis": r.basis,
+        "assessed": r.assessed,
+        "lesions": list(r.lesions),
+    }
+
+
+def _lesion(r: LesionResult) -> dict[str, Any]:
+    return {
+        "at": r.at,
+        "band": r.band,
+        "psv": _num(r.psv),
+        "edv": _num(r.edv),
+        "vr": _num(r.vr),
+        "vr_source": r.vr_source,
+        "reference": _ref(r.reference),
+        "from_cm": _num(r.from_cm),
+        "length_cm": _num(r.length_cm),
+        "occluded": r.occluded,
+        "reconstitutes": r.reconstitutes,
+        "reconstitution": _span(r.reconstitution) if r.reconstitution else None,
+        "extent": [_span(s) for s in r.spans],
+        "basis": r.basis,
+    }
+
+
+def _stent(r: StentResult) -> dict[str, Any]:
+    return {"from": r.from_, "to": r.to, "extent": [_span(s) for s in r.spans]}
+
+
+def _graft(r: GraftResult) -> dict[str, Any]:
+    return {
+        "conduit": r.conduit,
+        "from": r.from_,
+        "to": r.to,
+        "band": r.band,
+        "flow_velocity": _num(r.flow_velocity),
+        "basis": r.basis,
+        "sites": [
+            {
+                "site": g.site,
+                "band": g.band,
+                "psv": _num(g.psv),
+                "vr": _num(g.vr),
+                "reference": _ref(g.reference),
+                "basis": g.basis,
+            }
+            for g in r.sites
+        ],
+    }
+
+
+def _limb(assessment: Assessment, side: Side) -> dict[str, Any]:
+    limb = assessment.limbs[side]
+    out: dict[str, Any] = {
+        "segments": {seg: _segment(limb.segments[seg]) for seg in anatomy.SEGMENT_IDS},
+        "lesions": [_lesion(les) for les in limb.lesions],
+        "stents": [_stent(s) for s in limb.stents],
+        "grafts": [_graft(g) for g in limb.grafts],
+    }
+    plan = assessment.planning.get(side)
+    if plan is not None:
+        out["planning"] = _plain(plan)
+    ix = assessment.indices.get(side)
+    if ix is not None:
+        out.update(
+            {
+                "abi": _num(ix.abi),
+                "abi_category": ix.abi_category,
+                "abi_severity": ix.abi_severity,
+                "abi_basis": ix.abi_basis,
+                "tbi": _num(ix.tbi),
+                "tbi_category": ix.tbi_category,
+                "tbi_basis": ix.tbi_basis,
+                "ischaemia_grade": ix.ischaemia_grade,
+                "ischaemia_basis": ix.ischaemia_basis,
+            }
+        )
+    return out
+
+
+def _plain(value: Any) -> Any:
+    """Return a frozen result value as JSON-ready data (``from_`` is written ``from``)."""
+    if dataclasses.is_dataclass(value) and not isinstance(value, type):
+        return {
+            f.name.rstrip("_"): _plain(getattr(value, f.name)) for f in dataclasses.fields(value)
+        }
+    if isinstance(value, Enum):
+        return value.value
+    if isinstance(value, tuple | list):
+        return [_plain(v) for v in value]
+    if isinstance(value, float):
+        return _num(value)
+    return value
+
+
+def _study_echo(study: Study) -> dict[str, Any]:
+    p, e = study.patient, study.exam
+    return {
+        "patient": {
+            "name": p.name,
+            "id": p.id,
+            "birth_date": p.birth_date.isoformat() if p.birth_date else None,
+            "sex": p.sex,
+        },
+        "exam": {
+            "date": e.date.isoformat() if e.date else None,
+            "accession": e.accession,
+            "site": e.site,
+            "operator": e.operator,
+            "referrer": e.referrer,
+            "indication": e.indication,
+            "study_uid": e.study_uid,
+        },
+    }
+
+
+def results_document(
+    assessment: Assessment, *, version: str, identified: bool = True
+) -> dict[str, Any]:
+    """Return the results as plain data; the study's identifiers only when ``identified``."""
+    doc: dict[str, Any] = {
+        "results_format": RESULTS_FORMAT,
+        "tool": {"name": "limbchart", "version": version},
+        "caution": CAUTION,
+    }
+    if identified:
+        doc["study"] = _study_echo(assessment.study)
+    doc.update(
+        {
+            "criteria": {
+                "name": assessment.criteria_name,
+                "title": assessment.criteria_title,
+                "source": assessment.criteria_source,
+                "used": [
+                    {"name": n, "title": t, "origin": o} for n, t, o in assessment.criteria_used
+                ],
+            },
+            "bands": [
+                {"id": b.id, "label": b.label, "look": b.look or None} for b in assessment.bands
+            ],
+            "limbs": {side.value: _limb(assessment, side) for side in (Side.RIGHT, Side.LEFT)},
+            "comparison": _plain(assessment.comparison) if assessment.comparison else None,
+            "warnings": [
+                {
+                    "code": w.code,
+                    "side": w.side.value if w.side else None,
+                    "segment": w.segment,
+                    "message": w.message,
+                }
+                for w in assessment.warnings
+            ],
+        }
+    )
+    return doc
+
+
+def results_schema() -> dict[str, Any]:
+    """Return the JSON Schema of the results document (shipped in the package)."""
+    import json
+    from importlib import resources
+
+    text = (resources.files("diagram") / "schema" / "results.schema.json").read_text("utf-8")
+    schema: dict[str, Any] = json.loads(text)
+    return schema
+
+
+def _fmt(value: float | None) -> str:
+    if value is None:
+        return "-"
+    return f"{value:g}" if not isinstance(value, float) or value.is_integer() else f"{value:.2f}"
+
+
+def results_table(assessment: Assessment) -> str:
+    """Return the grading as a plain-text table, one row per assessed segment and lesion."""
+    rows: list[tuple[str, ...]] = [("side", "segment", "band", "PSV", "EDV", "Vr", "basis")]
+    for side in (Side.RIGHT, Side.LEFT):
+        limb = assessment.limbs[side]
+        for seg in anatomy.SEGMENT_IDS:
+            r = limb.segments[seg]
+            if not r.assessed:
+                continue
+            rows.append((side.value, seg, r.band, _fmt(r.psv), _fmt(r.edv), _fmt(r.vr), r.basis))
+        for les in limb.lesions:
+            where = f"{les.at} lesion {les.index + 1}"
+            if les.length_cm is not None:
+                where += f" ({les.length_cm:g} cm)"
+            rows.append(
+                (side.value, where, les.band, _fmt(les.psv), _fmt(les.edv), _fmt(les.vr), les.basis)
+            )
+        for st in limb.stents:
+            extent = f"{st.spans[0].segment}-{st.spans[-1].segment}" if st.spans else st.from_
+            rows.append((side.value, f"stent {extent}", "-", "-", "-", "-", "in-stent criteria"))
+        for g in limb.grafts:
+            flow = f"graft flow {g.flow_velocity:g} cm/s" if g.flow_velocity is not None else ""
+            rows.append(
+                (
+                    side.value,
+                    f"{g.conduit} graft {g.from_}-{g.to}",
+                    g.band,
+                    "-",
+                    "-",
+                    "-",
+                    "; ".join(x for x in (g.basis, flow) if x),
+                )
+            )
+            for site in g.sites:
+                rows.append(
+                    (
+                        side.value,
+                        f"  graft {site.site.replace('_', ' ')}",
+                        site.band,
+                        _fmt(site.psv),
+                        "-",
+                        _fmt(site.vr),
+                        site.basis,
+                    )
+                )
+        for ix in [assessment.indices.get(side)]:
+            if ix is not None and (ix.abi is not None or ix.tbi is not None):
+                rows.append(
+                    (
+                        side.value,
+                        "ABI",
+                        ix.abi_category or "-",
+                        "-",
+                        "-",
+                        _fmt(ix.abi),
+                        ix.abi_basis,
+                    )
+                )
+                if ix.tbi is not None:
+                    rows.append(
+                        (
+                            side.value,
+                            "TBI",
+                            ix.tbi_category or "-",
+                            "-",
+                            "-",
+                            _fmt(ix.tbi),
+                            ix.tbi_basis,
+                        )
+                    )
+    widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]) - 1)]
+    lines = [
+        "  ".join(c.ljust(w) for c, w in zip(r[:-1], widths, strict=False)) + "  " + r[-1]
+        for r in rows
+    ]
+    unassessed = [
+        f"{side.value} {seg}"
+        for side in Side
+        for seg in anatomy.SEGMENT_IDS
+        if not assessment.limbs[side].segments[seg].assessed
+    ]
+    out = [f"criteria: {assessment.criteria_title} ({assessment.criteria_name})", *lines]
+    if unassessed:
+        out.append(f"not assessed: {len(unassessed)} segments")
+    for w in assessment.warnings:
+        where = " ".join(x for x in (w.side.value if w.side else None, w.segment) if x)
+        out.append(f"warning [{w.code}] {where}: {w.message}")
+    return "\n".join(out)

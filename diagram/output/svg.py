@@ -1,0 +1,226 @@
+"""Render a Scene as SVG text with svgwrite (the only module that imports it).
+
+The output is deterministic: ids come from the Scene, every number goes through ``fmt``, svgwrite
+sorts attributes, and nothing depends on time or process state. Band textures are ``<pattern>``
+definitions in page units, which cairosvg and rsvg-convert both paint.
+"""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Mapping, Sequence
+from typing import TYPE_CHECKING, Any
+
+from diagram.drawing.scene import (
+    Circle,
+    Group,
+    Item,
+    Line,
+    PathItem,
+    Point,
+    Polygon,
+    Rect,
+    Scene,
+    Text,
+    Weight,
+    fmt,
+    make_id,
+)
+from diagram.drawing.style import BandStyle, Hatch
+
+if TYPE_CHECKING:
+    import svgwrite
+
+# C0 controls (tab, newline, carriage return become spaces), DEL, lone surrogates and the two
+# non-characters XML 1.0 forbids.
+_FORBIDDEN = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\x7f\ud800-\udfff\ufffe\uffff]")
+_SPACES = re.compile("[\t\n\r]")
+
+
+def clean_text(text: str) -> str:
+    """Return user text without the characters that would make the XML ill-formed."""
+    return _FORBIDDEN.sub("", _SPACES.sub(" ", text))
+
+
+def pattern_id(band_id: str) -> str:
+    """Return the id of a band's ``<pattern>``."""
+    return make_id("band", band_id)
+
+
+def _points(points: tuple[Point, ...]) -> list[tuple[str, str]]:
+    # svgwrite writes each pair as "x,y" from these strings (it would str() raw floats).
+    return [(fmt(x), fmt(y)) for x, y in points]
+
+
+def _dash(dash: tuple[float, ...]) -> str:
+    return " ".join(fmt(d) for d in dash)
+
+
+def _paint(el: Any, fill: str, stroke: str, width: float, dash: tuple[float, ...]) -> None:
+    el["fill"] = fill
+    el["stroke"] = stroke
+    if stroke != "none":
+        el["stroke-width"] = fmt(width)
+        if dash:
+            el["stroke-dasharray"] = _dash(dash)
+
+
+# cairosvg paints a pattern tile from a raster one user unit per pixel, whatever the output
+# resolution: a 2.4 pt tile would be a blurred 2-pixel image. Tiles are therefore drawn TILE_SCALE
+# times larger and scaled back by patternTransform (crisp up to about 10 pixels per point).
+TILE_SCALE = 10
+
+
+def _pattern(dwg: svgwrite.Drawing, band: BandStyle) -> Any:
+    k = TILE_SCALE
+    s = band.spacing_pt * k
+    pat = dwg.pattern(id=pattern_id(band.id))
+    pat["patternUnits"] = "userSpaceOnUse"
+    pat["x"], pat["y"] = "0", "0"
+    pat["width"], pat["height"] = fmt(s), fmt(s)
+    turn = f"rotate({fmt(band.angle_deg)}) " if band.angle_deg else ""
+    pat["patternTransform"] = f"{turn}scale({fmt(1 / k)})"
+    ground = band.ink if band.hatch is Hatch.SOLID else band.tint
+    bg = dwg.rect(id=make_id("band", band.id, "ground"))
+    bg.update({"x": "0", "y": "0", "width": fmt(s), "height": fmt(s), "fill": ground})
+    pat.add(bg)
+    half = fmt(s / 2)
+    weight = band.weight_pt * k
+    if band.hatch in (Hatch.DOTS, Hatch.RINGS):
+        dot = dwg.circle(id=make_id("band", band.id, "mark"))
+        dot.update({"cx": half, "cy": half, "r": fmt(weight)})
+        if band.hatch is Hatch.DOTS:
+            dot["fill"] = band.ink
+        else:
+            dot.update({"fill": "none", "stroke": band.ink, "stroke-width": fmt(weight * 0.55)})
+        pat.add(dot)
+    if band.hatch in (Hatch.LINES, Hatch.CROSS):
+        # Lines a little longer than the tile so that anti-aliasing leaves no gaps at the seams.
+        over = fmt(-weight), fmt(s + weight)
+        across = dwg.line(id=make_id("band", band.id, "mark"))
+        across.update({"x1": over[0], "y1": half, "x2": over[1], "y2": half})
+        marks = [across]
+        if band.hatch is Hatch.CROSS:
+            down = dwg.line(id=make_id("band", band.id, "mark2"))
+            down.update({"x1": half, "y1": over[0], "x2": half, "y2": over[1]})
+            marks.append(down)
+        for mark in marks:
+            mark.update({"stroke": band.ink, "stroke-width": fmt(weight)})
+            pat.add(mark)
+    return pat
+
+
+def _shape(dwg: svgwrite.Drawing, item: Rect | Polygon, element_id: str) -> Any:
+    if isinstance(item, Rect):
+        el = dwg.rect(id=element_id)
+        el.update({"x": fmt(item.x), "y": fmt(item.y), "width": fmt(item.w), "height": fmt(item.h)})
+        return el
+    return dwg.polygon(_points(item.points), id=element_id)
+
+
+def _elements(dwg: svgwrite.Drawing, item: Item, bands: Mapping[str, BandStyle]) -> list[Any]:
+    """Return the SVG elements of one item (a banded shape gives two)."""
+    if isinstance(item, Group):
+        el = dwg.g(id=item.id)
+        if item.role:
+            el["class"] = item.role
+        for child in item.items:
+            for sub in _elements(dwg, child, bands):
+                el.add(sub)
+        return [el]
+    if isinstance(item, Rect | Polygon):
+        out = []
+        if item.band:
+            # The band's plain colour under its texture: some PDF viewers leave hairline seams
+            # between pattern tiles, which then show this colour instead of white paper.
+            band = bands[item.band]
+            under = _shape(dwg, item, f"{item.id}-under")
+            _paint(under, band.ink if band.hatch is Hatch.SOLID else band.tint, "none", 0, ())
+            out.append(under)
+        el = _shape(dwg, item, item.id)
+        fill = f"url(#{pattern_id(item.band)})" if item.band else item.fill
+        _paint(el, fill, item.stroke, item.stroke_width, item.dash)
+        return [*out, el]
+    if isinstance(item, PathItem):
+        d = " ".join(" ".join((cmd, *(fmt(v) for v in args))) for cmd, args in item.commands)
+        el = dwg.path(d=d, id=item.id)
+        _paint(el, item.fill, item.stroke, item.stroke_width, item.dash)
+        return [el]
+    if isinstance(item, Line):
+        el = dwg.polyline(_points(item.points), id=item.id)
+        _paint(el, "none", item.stroke, item.stroke_width, item.dash)
+        return [el]
+    if isinstance(item, Circle):
+        el = dwg.circle(id=item.id)
+        el.update({"cx": fmt(item.cx), "cy": fmt(item.cy), "r": fmt(item.r)})
+        _paint(el, item.fill, item.stroke, item.stroke_width, ())
+        return [el]
+    if isinstance(item, Text):
+        el = dwg.text(clean_text(item.text), id=item.id)
+        el.update(
+            {"x": fmt(item.x), "y": fmt(item.y), "font-size": fmt(item.size), "fill": item.fill}
+        )
+        if item.weight is Weight.BOLD:
+            el["font-weight"] = "bold"
+        if item.anchor.value != "start":
+            el["text-anchor"] = item.anchor.value
+        return [el]
+    raise TypeError(f"not a scene item: {item!r}")  # a bug in layout, not a user error
+
+
+def render_svg(scene: Scene) -> str:
+    """Return the SVG text of ``scene``."""
+    import svgwrite
+
+    width, height = scene.size_in_unit()
+    dwg = svgwrite.Drawing(profile="full", debug=False)
+    dwg["width"] = f"{fmt(width)}{scene.unit}"
+    dwg["height"] = f"{fmt(height)}{scene.unit}"
+    dwg["viewBox"] = f"0 0 {fmt(scene.width_pt)} {fmt(scene.height_pt)}"
+    for band in scene.bands:
+        dwg.defs.add(_pattern(dwg, band))
+    sheet = dwg.g(id="sheet")
+    sheet["font-family"] = scene.font_family
+    bands = {band.id: band for band in scene.bands}
+    for item in scene.items:
+        for el in _elements(dwg, item, bands):
+            sheet.add(el)
+    dwg.add(sheet)
+    return '<?xml version="1.0" encoding="utf-8"?>\n' + str(dwg.tostring()) + "\n"
+
+
+def render_pages(scene: Scene) -> tuple[str, ...]:
+    """Return the SVG text of every page of the sheet, page 1 first."""
+    return tuple(render_svg(page) for page in scene.pages())
+
+
+def pdf_from_svgs(svgs: Sequence[str]) -> bytes:
+    """Return one PDF with a page per SVG text, each page sized from its SVG.
+
+    CairoSVG converts one SVG to one PDF; here every page is drawn by CairoSVG's own surface
+    code onto one shared cairo PDF surface (resized per page), so a sheet of several pages
+    becomes a single document. CairoSVG runs in its safe mode: entities and every resource
+    that is not a ``data:`` URL are refused. The caller points fontconfig at the shipped
+    fonts first (``diagram.output.export`` does), as for a one-page PDF.
+    """
+    import io
+
+    import cairocffi
+    from cairosvg.parser import Tree
+    from cairosvg.surface import PDFSurface
+
+    if not svgs:
+        raise ValueError("a PDF needs at least one page")
+    out = io.BytesIO()
+    shared = cairocffi.PDFSurface(out, 1, 1)
+
+    class _Page(PDFSurface):  # type: ignore[misc]
+        def _create_surface(self, width: float, height: float) -> tuple[Any, float, float]:
+            shared.set_size(width, height)
+            return shared, width, height
+
+    for svg in svgs:
+        page = _Page(Tree(bytestring=svg.encode("utf-8"), unsafe=False), None, 96)
+        page.context.show_page()
+    shared.finish()
+    return out.getvalue()

@@ -1,0 +1,183 @@
+"""Write a Study back as a study file (DESIGN.md §3), so that a teaching case can be redrawn.
+
+Only the file's own keys are written, in the file's order, each only when it has a value.
+Numbers are written as plain decimals (the loader refuses YAML 1.1 exponent forms), whole
+numbers without a decimal point. ``load_study`` reads the result back to an equal study, apart
+from the line numbers and the source name.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from collections.abc import Mapping
+from typing import Any
+
+from diagram import anatomy
+from diagram.anatomy import Side
+from diagram.reading.study import GRAFT_SITES, Graft, Lesion, Limb, Pressures, Sample, Stent, Study
+
+_SAMPLE_KEYS = tuple(
+    f.name for f in dataclasses.fields(Sample) if f.name not in ("line",)
+)  # psv, edv, ... comment, in the dataclass's order (the schema's order)
+_LESION_KEYS = ("at", "from_cm", "length_cm", "reconstitutes", *_SAMPLE_KEYS)
+
+
+def _number(value: float) -> int | float:
+    if not math.isfinite(value):
+        raise ValueError(f"not a finite number: {value!r}")  # the loader admits none
+    return int(value) if float(value).is_integer() else float(value)
+
+
+def _sample(sample: Sample, keys: tuple[str, ...]) -> dict[str, Any]:
+    out: dict[str, Any] = {}
+    for key in keys:
+        value = getattr(sample, key)
+        if value is None or value is False:
+            continue  # absent, or a flag left at its default
+        if isinstance(value, bool):
+            out[key] = value
+        elif isinstance(value, int | float):
+            out[key] = _number(value)
+        else:
+            out[key] = str(value)  # text, enums by their value
+    return out
+
+
+def _stent(stent: Stent) -> dict[str, Any]:
+    out: dict[str, Any] = {"from": stent.from_, "to": stent.to}
+    for key in ("from_cm", "length_cm"):
+        value = getattr(stent, key)
+        if value is not None:
+            out[key] = _number(value)
+    return out
+
+
+def _graft(graft: Graft) -> dict[str, Any]:
+    out: dict[str, Any] = {"conduit": graft.conduit, "from": graft.from_, "to": graft.to}
+    samples = {
+        site: _sample(graft.samples[site], _SAMPLE_KEYS)
+        for site in GRAFT_SITES
+        if site in graft.samples
+    }
+    if samples:
+        out["samples"] = samples
+    return out
+
+
+def _limb(limb: Limb) -> dict[str, Any]:
+    out: dict[str, Any] = {}
+    if limb.segments:
+        order = {seg: i for i, seg in enumerate(anatomy.SEGMENT_IDS)}
+        out["segments"] = {
+            seg: _sample(limb.segments[seg], _SAMPLE_KEYS)
+            for seg in sorted(limb.segments, key=lambda s: order.get(s, len(order)))
+        }
+    if limb.lesions:
+        out["lesions"] = [_sample_lesion(les) for les in limb.lesions]
+    if limb.stents:
+        out["stents"] = [_stent(s) for s in limb.stents]
+    if limb.grafts:
+        out["grafts"] = [_graft(g) for g in limb.grafts]
+    return out
+
+
+def _sample_lesion(lesion: Lesion) -> dict[str, Any]:
+    return _sample(lesion, _LESION_KEYS)
+
+
+def _pressures(p: Pressures) -> dict[str, Any]:
+    out: dict[str, Any] = {}
+    brachial = {
+        side: _number(v)
+        for side, v in (("right", p.brachial_right), ("left", p.brachial_left))
+        if v is not None
+    }
+    if brachial:
+        out["brachial"] = brachial
+    for side in ("right", "left"):
+        limb = getattr(p, side)
+        kept = {
+            k: _number(getattr(limb, k))
+            for k in ("pt", "dp", "toe")
+            if getattr(limb, k) is not None
+        }
+        if kept:
+            out[side] = kept
+    return out
+
+
+def _optional(pairs: Mapping[str, object]) -> dict[str, Any]:
+    return {k: v for k, v in pairs.items() if v is not None}
+
+
+def study_data(study: Study) -> dict[str, Any]:
+    """Return the study as the plain data of a study file."""
+    p, e = study.patient, study.exam
+    data: dict[str, Any] = {"format": study.format}
+    patient = _optional(
+        {
+            "name": p.name,
+            "id": p.id,
+            "birth_date": p.birth_date.isoformat() if p.birth_date else None,
+            "sex": p.sex,
+        }
+    )
+    if patient:
+        data["patient"] = patient
+    exam = _optional(
+        {
+            "date": e.date.isoformat() if e.date else None,
+            "accession": e.accession,
+            "site": e.site,
+            "operator": e.operator,
+            "referrer": e.referrer,
+            "indication": e.indication,
+            "criteria": e.criteria,
+            "stent_criteria": e.stent_criteria,
+            "graft_criteria": e.graft_criteria,
+            "study_uid": e.study_uid,
+        }
+    )
+    data["exam"] = exam
+    pressures = _pressures(study.pressures)
+    if pressures:
+        data["pressures"] = pressures
+    limbs = {
+        side.value: _limb(study.limbs[side])
+        for side in (Side.RIGHT, Side.LEFT)
+        if side in study.limbs
+    }
+    if limbs:
+        data["limbs"] = limbs
+    if study.prior is not None:
+        data["prior"] = study.prior
+    if study.notes is not None:
+        data["notes"] = study.notes
+    return data
+
+
+def study_yaml(study: Study, *, comments: tuple[str, ...] = ()) -> str:
+    """Return the study file text; ``comments`` open it as ``#`` lines."""
+    import yaml
+
+    def represent_float(dumper: yaml.SafeDumper, value: float) -> yaml.Node:
+        text = repr(value)
+        if "e" in text or "n" in text:  # exponent, inf, nan: the loader reads none of them
+            text = f"{value:.10f}".rstrip("0").rstrip(".")
+        return dumper.represent_scalar("tag:yaml.org,2002:float", text)
+
+    class _Dumper(yaml.SafeDumper):
+        """A safe dumper writing floats as plain decimals (a subclass: no global change)."""
+
+    _Dumper.add_representer(float, represent_float)
+    body = yaml.dump(
+        study_data(study),
+        Dumper=_Dumper,
+        sort_keys=False,
+        allow_unicode=True,
+        default_flow_style=False,
+        width=100,
+    )
+    head = "".join(f"# {line}\n" for line in comments)
+    return head + body
