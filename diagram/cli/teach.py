@@ -12,7 +12,16 @@ from pathlib import Path
 
 import click
 
-from diagram.cli.options import DEFAULT_DPI, dpi_option, jobs_option
+from diagram.cli.options import (
+    DEFAULT_DPI,
+    STUDIES_METAVAR,
+    check_dpi,
+    dpi_option,
+    jobs_option,
+    page_option,
+    quiet_option,
+    template_option,
+)
 
 # the same as diagram.teaching.case.TEACH_FORMATS (a test keeps them equal)
 FORMAT_CHOICES = ("pdf", "svg", "png", "dcm", "yaml")
@@ -20,7 +29,9 @@ DEFAULT_FORMATS = ("pdf", "yaml")
 
 
 @click.command()
-@click.argument("inputs", nargs=-1, required=True, type=click.Path(path_type=Path))
+@click.argument(
+    "inputs", nargs=-1, required=True, metavar=STUDIES_METAVAR, type=click.Path(path_type=Path)
+)
 @click.option(
     "-o",
     "--output",
@@ -42,28 +53,18 @@ DEFAULT_FORMATS = ("pdf", "yaml")
     "output folder; without it no link is kept anywhere).",
 )
 @click.option("--no-year", is_flag=True, help="Leave the exam year off too (age is kept).")
-@click.option(
-    "--page",
-    type=click.Choice(["a4", "letter", "map"]),
-    default="a4",
-    show_default=True,
-    help="Page size, or 'map' for the map and legend alone.",
-)
-@click.option(
-    "--template",
-    type=click.Path(dir_okay=False, path_type=Path),
-    help="A lab's own map template (SVG); the shipped bilateral map by default.",
-)
+@page_option
+@template_option
 @dpi_option
 @jobs_option
-@click.option("--quiet", is_flag=True, help="No progress bar.")
+@quiet_option
 def teach(
     inputs: tuple[Path, ...],
     output: Path,
     formats: tuple[str, ...],
     link: Path | None,
     no_year: bool,
-    page: str,
+    page: str | None,
     template: Path | None,
     dpi: float | None,
     jobs: int | None,
@@ -90,6 +91,8 @@ def teach(
     )
     from diagram.teaching.case import new_case_id
 
+    chosen_formats = tuple(dict.fromkeys(formats or DEFAULT_FORMATS))
+    check_dpi(dpi, chosen_formats)
     paths = expand_inputs(inputs)
     inside = [p for p in paths if p.resolve().is_relative_to(output.resolve())]
     if inside:  # identified studies must not sit among the teaching files
@@ -106,9 +109,9 @@ def teach(
     earlier = read_audit(output)
     settings = TeachSettings(
         out_dir=output,
-        formats=tuple(dict.fromkeys(formats or DEFAULT_FORMATS)),
+        formats=chosen_formats,
         keep_year=not no_year,
-        page=page,
+        page=page or "a4",
         template=template,
         png_dpi=DEFAULT_DPI if dpi is None else dpi,
     )

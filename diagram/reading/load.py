@@ -25,6 +25,7 @@ from typing import TYPE_CHECKING, Any, cast
 from diagram import anatomy
 from diagram.anatomy import Side
 from diagram.errors import Problem, StudyError
+from diagram.reading import diagnose
 from diagram.reading.checks import Checker, Key, Loc, Parsed
 from diagram.reading.checks import (
     study_schema as study_schema,  # the checks' schema, importable here
@@ -59,10 +60,11 @@ _ONCE = "give each key once."
 class _Refused(Exception):
     """Stop parsing: the file is refused as a whole."""
 
-    def __init__(self, line: int | None, rule: str) -> None:
+    def __init__(self, line: int | None, rule: str, hint: str | None = None) -> None:
         super().__init__(rule)
         self.line = line
         self.rule = rule
+        self.hint = hint
 
 
 def load_study(path: str | Path) -> Study:
@@ -104,8 +106,8 @@ def load_study_text(text: str, name: str, suffix: str) -> Study:
 
 
 def _load_bytes(data: bytes, name: str, suffix: str) -> Study:
-    def refuse(rule: str, line: int | None = None) -> StudyError:
-        return StudyError([Problem(name, line, "", None, rule)])
+    def refuse(rule: str, line: int | None = None, hint: str | None = None) -> StudyError:
+        return StudyError([Problem(name, line, "", None, rule, hint)])
 
     kind = suffix.lower().lstrip(".")
     if kind not in ("yaml", "yml", "json"):
@@ -115,18 +117,21 @@ def _load_bytes(data: bytes, name: str, suffix: str) -> Study:
         raise refuse(f"is over the 2 MB size limit for a study file ({MAX_BYTES} bytes).")
     if not data.strip():
         raise refuse("is empty.")
+    found = diagnose.not_a_text_file(data)
+    if found is not None:  # a Word document, a UTF-16 file ...
+        raise refuse(found.rule, found.line, found.hint)
     if b"\0" in data:
         line = data.count(b"\n", 0, data.index(b"\0")) + 1
         raise refuse("is a binary file (it holds NUL bytes), not a YAML or JSON study.", line)
     try:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError as err:
-        line = data.count(b"\n", 0, err.start) + 1
-        raise refuse(f"is not UTF-8 text (byte 0x{data[err.start]:02x}).", line) from None
+        found = diagnose.not_utf8(data, err.start)
+        raise refuse(found.rule, found.line, found.hint) from None
     try:
         parsed = _parse_json(text) if kind == "json" else _parse_yaml(text)
     except _Refused as err:
-        raise refuse(err.rule, err.line) from None
+        raise refuse(err.rule, err.line, err.hint) from None
     checker = Checker(name, parsed)
     checker.check()
     if checker.problems:
@@ -150,6 +155,9 @@ def _parse_yaml(text: str) -> Parsed:
         line = mark.line + 1 if mark is not None else None
         if err.context and err.context_mark is not None and err.context_mark.line + 1 != line:
             where = f" ({err.context} on line {err.context_mark.line + 1})"
+        plain = diagnose.yaml_hint(text, line, mark.column if mark is not None else None)
+        if plain is not None:
+            raise _Refused(plain.line, plain.rule, plain.hint) from None
         raise _Refused(line, f"is not valid YAML: {err.problem or err.context}{where}.") from None
     except yaml.YAMLError as err:
         raise _Refused(None, f"is not valid YAML: {err}.") from None
@@ -290,6 +298,9 @@ def _parse_json(text: str) -> Parsed:
     try:
         top = _LocatingDecoder().decode(text)
     except json.JSONDecodeError as err:
+        plain = diagnose.json_hint(text, err.pos)
+        if plain is not None:
+            raise _Refused(plain.line, plain.rule, plain.hint) from None
         raise _Refused(err.lineno, f"is not valid JSON: {err.msg}.") from None
     except ValueError:  # an integer with more digits than Python converts
         raise _Refused(None, "holds a number too long to read.") from None
@@ -401,7 +412,10 @@ def _build(parsed: Parsed, name: str) -> Study:
     brachial = pressures.get("brachial", {})
 
     def limb_pressures(side: str) -> LimbPressures:
-        return LimbPressures(**_fields(LimbPressures, pressures.get(side, {})))
+        item = pressures.get(side, {})
+        found = _fields(LimbPressures, item)
+        found["noncompressible"] = tuple(item.get("noncompressible", ()))
+        return LimbPressures(**found)
 
     return Study(
         source=name,

@@ -119,6 +119,7 @@ class LimbPressures:
     pt: float | None = None
     dp: float | None = None
     toe: float | None = None
+    noncompressible: tuple[str, ...] = ()  # ankle arteries the cuff could not compress: pt, dp
 
 
 @dataclass(frozen=True)
