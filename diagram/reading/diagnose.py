@@ -75,9 +75,10 @@ def _utf16_or_32(data: bytes) -> str | None:
             return name
     head = data[:200]
     if len(head) >= 4:  # no byte-order mark: ASCII text in UTF-16 has every other byte NUL
-        odd, even = head[1::2], head[0::2]
-        if odd.count(0) > len(odd) * 0.8 or even.count(0) > len(even) * 0.8:
-            return "UTF-16"
+        for zeros, text in ((head[1::2], head[0::2]), (head[0::2], head[1::2])):
+            printable = sum(1 for b in text if 32 <= b < 127 or b in (9, 10, 13))
+            if zeros.count(0) > len(zeros) * 0.8 and printable > len(text) * 0.8:
+                return "UTF-16"
     return None
 
 
