@@ -358,3 +358,19 @@ def test_the_set_up_command_writes_outside_the_checkout() -> None:
     assert target.startswith(("~/", "/")), target  # not a file in the checkout
     ignored = (ROOT / ".gitignore").read_text().splitlines()
     assert "*.egg-info/" in ignored and "build/" in ignored  # what pip install -e . leaves
+
+
+def test_gallery_refuses_an_existing_file_unless_overwrite(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    out = tmp_path / "g.svg"
+    out.write_text("kept")
+    code, _, err = run(["gallery", "-o", str(out)], capsys)
+    assert (code, err) == (
+        2,
+        f"{out}: exists already and was left as it was (give --overwrite to replace it).\n",
+    )
+    assert out.read_text() == "kept"
+    code, _, err = run(["gallery", "-o", str(out), "--overwrite"], capsys)
+    assert (code, err) == (0, f"wrote {out}\n")
+    assert out.read_text().startswith("<?xml")
