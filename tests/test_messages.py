@@ -258,7 +258,7 @@ def test_a_recorded_noncompressible_artery_gives_no_abi_and_the_tbi_is_the_index
     # WIfI ischaemia (Mills 2014) from the toe alone: toe pressure 60 mmHg >= 60 -> grade 0
     assert left["ischaemia_grade"] == 0
     warnings = [w["message"] for w in json.loads(out)["warnings"] if w["code"] == "noncompressible"]
-    assert warnings == ["vessels noncompressible; rely on the TBI."]
+    assert warnings == ["PT noncompressible (recorded): no ABI; rely on the TBI."]
 
 
 # --- check shows what draw would ------------------------------------------------------------------

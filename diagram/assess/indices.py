@@ -168,13 +168,17 @@ def pressure_findings(pressures: Pressures, indices: dict[Side, LimbIndices]) ->
             )
     for side, ix in indices.items():
         if ix.abi_category == "noncompressible":
-            measured = f"ABI {ix.abi:.2f} > 1.40: " if ix.abi is not None else ""
+            found = (
+                f"ABI {ix.abi:.2f} > 1.40: vessels noncompressible"
+                if ix.abi is not None
+                else ix.abi_basis  # recorded noncompressible: no ABI figure
+            )
             out.append(
                 Finding(
                     "noncompressible",
                     side,
                     None,
-                    f"{measured}vessels noncompressible; rely on the "
+                    f"{found}; rely on the "
                     "TBI" + ("." if ix.tbi is not None else " (no toe pressure)."),
                 )
             )
