@@ -244,4 +244,4 @@ def write_gallery(
         lab_name=profile.lab_name if profile else None,
         page=profile.page if profile else None,
     )
-    return export(Drawing(svg=svg, results={}), path, fmt, ExportOptions(png_dpi=150.0))
+    return export(Drawing(results={}, svg_pages=(svg,)), path, fmt, ExportOptions(png_dpi=150.0))

@@ -88,7 +88,7 @@ def stages() -> None:
             )
         )
         t_render = best_of(lambda s=scene: render_svg(s))  # type: ignore[misc]
-        drawing = Drawing(svg=svg, results={})
+        drawing = Drawing(results={}, svg_pages=(svg,))
         t_pdf = best_of(lambda d=drawing: render_bytes(d, "pdf"), repeat=5)  # type: ignore[misc]
         ours = t_load + t_assess + t_layout + t_render
         print(
