@@ -2,9 +2,11 @@
 
 One ``export()`` with a fixed registry of writers keyed by format (``WRITERS``, read-only; a
 caller that needs other behaviour passes its own mapping as ``writers=``); the format comes from
-the output suffix unless given. PDF and PNG are drawn from the SVG by CairoSVG in its safe mode
-(``unsafe=False``: it never fetches anything but ``data:`` URLs), with the shipped DejaVu Sans as
-the only font cairo sees (``output.fonts``). Every write goes to a temporary file in the
+the output suffix unless given. PDF and PNG are painted from the drawing's Scene by cairo
+(``output.cairo_backend``) or, with ``ExportOptions(renderer="cairosvg")`` or a drawing given only
+as SVG text, converted from the SVG by CairoSVG in its safe mode (``unsafe=False``: it never
+fetches anything but ``data:`` URLs). Either way the shipped DejaVu Sans is the only font cairo
+sees (``output.fonts``). Every write goes to a temporary file in the
 destination folder and is renamed into place only when complete, so a failed run leaves no
 partial file and an existing output is replaced only by a complete new one.
 """
@@ -23,7 +25,7 @@ from dataclasses import dataclass
 from functools import cached_property
 from pathlib import Path
 from types import MappingProxyType
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, Literal
 
 from diagram.errors import ExportError
 
@@ -72,16 +74,27 @@ class Drawing:
     @property
     def page_count(self) -> int:
         """Return the number of pages."""
-        return len(self.svg_pages) if self.svg_pages else len(self.pages)
+        if self.svg_pages:
+            return len(self.svg_pages)
+        assert self.scene is not None  # __post_init__
+        return self.scene.page_count
 
 
 @dataclass(frozen=True)
 class ExportOptions:
-    """Format-specific settings."""
+    """Format-specific settings.
+
+    ``renderer`` chooses how PDF and PNG are drawn: ``"cairo"`` paints the Scene directly,
+    ``"cairosvg"`` converts the SVG text (the reference route, and the one taken for a drawing
+    given only as SVG text).
+    """
 
     png_dpi: float = 150.0
+    renderer: Renderer = "cairo"
 
 
+Renderer = Literal["cairo", "cairosvg"]
+RENDERERS: tuple[Renderer, ...] = ("cairo", "cairosvg")
 Writer = Callable[[Drawing, ExportOptions], bytes]
 
 
@@ -105,7 +118,17 @@ def _svg(drawing: Drawing, options: ExportOptions) -> bytes:
     return stack_svgs(drawing.pages).encode("utf-8")
 
 
+def _scene(drawing: Drawing, options: ExportOptions) -> Scene | None:
+    """Return the Scene to paint with cairo, or None for the CairoSVG route."""
+    return drawing.scene if options.renderer == "cairo" and not drawing.svg_pages else None
+
+
 def _pdf(drawing: Drawing, options: ExportOptions) -> bytes:
+    scene = _scene(drawing, options)
+    if scene is not None:
+        from diagram.output.cairo_backend import pdf_bytes
+
+        return pdf_bytes(scene)
     cairosvg = _cairosvg()
     pages = drawing.pages
     if len(pages) == 1:
@@ -119,6 +142,12 @@ def _pdf(drawing: Drawing, options: ExportOptions) -> bytes:
 def _png(drawing: Drawing, options: ExportOptions) -> bytes:
     from diagram.output.pages import GAP_PT, stack_pngs
 
+    gap = round(GAP_PT * options.png_dpi / 72)
+    scene = _scene(drawing, options)
+    if scene is not None:
+        from diagram.output.cairo_backend import png_pages
+
+        return stack_pngs(png_pages(scene, options.png_dpi), gap)
     cairosvg = _cairosvg()
     images = [
         cairosvg.svg2png(
@@ -129,7 +158,7 @@ def _png(drawing: Drawing, options: ExportOptions) -> bytes:
         )
         for page in drawing.pages
     ]
-    return stack_pngs(images, round(GAP_PT * options.png_dpi / 72))
+    return stack_pngs(images, gap)
 
 
 def _dcm(drawing: Drawing, options: ExportOptions) -> bytes:
