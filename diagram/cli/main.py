@@ -32,6 +32,7 @@ from diagram.errors import DiagramError
 
 if TYPE_CHECKING:
     from diagram.batch.run import BatchSettings
+    from diagram.output.export import Renderer
 
 FORMATS = ("svg", "pdf", "png", "dcm", "json")
 
@@ -88,6 +89,14 @@ def cli() -> None:
     help="Output name pattern in a batch; fields {n} {stem} {accession} {patient_id} "
     "{exam_date} (the last three put identifiers in file names).",
 )
+@click.option(
+    "--renderer",
+    type=click.Choice(["cairo", "cairosvg"]),
+    default="cairo",
+    show_default=True,
+    help="How PDF, PNG and DICOM are drawn: cairo paints the sheet directly; cairosvg "
+    "converts its SVG (the slower reference route).",
+)
 def draw(
     studies: tuple[Path, ...],
     output: str,
@@ -103,6 +112,7 @@ def draw(
     quiet: bool,
     overwrite: bool,
     name_pattern: str,
+    renderer: Renderer,
 ) -> None:
     """Draw the map of each STUDY (a file, a folder of files, or a .txt list of paths)."""
     from diagram.output.export import ExportOptions, export, format_for
@@ -140,7 +150,8 @@ def draw(
             prior=earlier,
             lab=profile,
         )
-        written = export(drawing, Path(output), chosen, ExportOptions(png_dpi=dpi))
+        options = ExportOptions(png_dpi=dpi, renderer=renderer)
+        written = export(drawing, Path(output), chosen, options)
         if not quiet:
             click.echo(f"wrote {written}", err=True)
         return
@@ -157,6 +168,7 @@ def draw(
         lab=profile,
         png_dpi=dpi,
         overwrite=overwrite,
+        renderer=renderer,
     )
     _draw_batch(studies, settings, jobs, quiet)
 
