@@ -115,11 +115,7 @@ def draw(
     page = page or (profile.page if profile and profile.page else "a4")
 
     as_folder = output.endswith(("/", os.sep)) or _is_folder(output)
-    single = (
-        len(studies) == 1
-        and studies[0].suffix.lower() in (".yaml", ".yml", ".json")
-        and not as_folder
-    )
+    single = len(studies) == 1 and _one_study_file(studies[0]) and not as_folder
     if prior is not None and not single:
         raise click.UsageError("--prior goes with one study; in a batch each study names its own.")
     if single:
@@ -130,6 +126,7 @@ def draw(
             raise click.UsageError("one output file takes one --format; give a folder for more.")
         chosen = format_for(Path(output), formats[0] if formats else None)  # refuse before any work
         study = load_study(studies[0])
+        _show_import_notes(study.import_notes)
         earlier = load_prior(study, prior)
         drawing = draw_study(
             study,
@@ -159,6 +156,25 @@ def draw(
         overwrite=overwrite,
     )
     _draw_batch(studies, settings, jobs, quiet)
+
+
+def _one_study_file(path: Path) -> bool:
+    """Return True for a study file or a structured report, by suffix or by content."""
+    if path.suffix.lower() in (".yaml", ".yml", ".json", ".dcm"):
+        return True
+    from diagram.reading.sr import looks_like_dicom
+
+    try:
+        with open(path, "rb") as handle:
+            return path.is_file() and looks_like_dicom(handle.read(132))
+    except OSError:
+        return False
+
+
+def _show_import_notes(notes: tuple[str, ...]) -> None:
+    """Print what an imported report held that could not be placed, one line per item."""
+    for line in notes:
+        click.echo(_printable(line), err=True)
 
 
 def _is_folder(name: str) -> bool:
@@ -232,6 +248,7 @@ def check(
     from diagram.reading.load import load_prior, load_study
 
     current = load_study(study)
+    _show_import_notes(current.import_notes)
     assessment = assess_study(
         current, criteria=criteria, target=target, prior=load_prior(current, prior)
     )
@@ -283,9 +300,11 @@ def schema(results: bool) -> None:
 def _register() -> None:
     """Add the commands defined beside their stages (their heavy imports stay inside them)."""
     from diagram.cli.design import COMMANDS
+    from diagram.cli.importing import import_report
     from diagram.cli.teach import teach
 
     cli.add_command(teach)
+    cli.add_command(import_report)
     for command in COMMANDS:
         cli.add_command(command)
 
