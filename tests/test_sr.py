@@ -285,7 +285,7 @@ def test_study_text_reads_back_to_the_same_tree(bilateral: Path, tmp_path: Path)
 def test_example_report_and_its_twin_draw_the_same_map(
     tmp_path: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:
-    report, twin = EXAMPLES / "sr-bilateral.dcm", EXAMPLES / "sr-bilateral.yaml"
+    report, twin = EXAMPLES / "sr" / "bilateral.dcm", EXAMPLES / "sr" / "bilateral.yaml"
     assert _dciodvfy_errors(report) == []
     maps = []
     for source in (report, twin):

@@ -1,7 +1,7 @@
-"""Write examples/sr-bilateral.dcm: a fictional vascular ultrasound structured report.
+"""Write examples/sr/bilateral.dcm: a fictional vascular ultrasound structured report.
 
 Built with the same builder the tests use (tests/sr_build.py, PS3.16 TID 5100); its hand-typed
-twin is examples/sr-bilateral.yaml. Run from the repository root:
+twin is examples/sr/bilateral.yaml. Run from the repository root:
 ``python tools/make_example_sr.py``.
 """
 
@@ -31,7 +31,7 @@ HEADER = b.Header(
 def main() -> None:
     """Write the example report."""
     ds = b.report(b.bilateral(), header=HEADER, summary="Fictional demonstration report.")
-    b.write(ds, ROOT / "examples" / "sr-bilateral.dcm")
+    b.write(ds, ROOT / "examples" / "sr" / "bilateral.dcm")
 
 
 if __name__ == "__main__":
