@@ -251,7 +251,9 @@ def test_command_line_check_draw_and_import(
     assert from_file == from_report
     code, _, err = _run(["import", str(bilateral), "-o", str(study_file)], capsys)
     assert code == 2
-    assert err.strip() == f"{study_file}: exists already; give --overwrite to replace it."
+    assert err.strip() == (
+        f"{study_file}: exists already and was left as it was (give --overwrite to replace it)."
+    )
     code, _, _ = _run(["import", str(bilateral), "-o", str(study_file), "--overwrite"], capsys)
     assert code == 0
     no_suffix = tmp_path / "report-without-suffix"

@@ -28,17 +28,15 @@ def import_report(report: Path, output: Path, overwrite: bool) -> None:
     exam, study UID); add lesions, occlusions and pressures by hand, then draw it. What the report
     holds that cannot be placed is named in one warning line per item.
     """
-    from diagram.errors import ExportError
-    from diagram.output.export import write_atomic
+    from diagram.output.export import refuse_existing, write_atomic
     from diagram.reading.load import load_report
     from diagram.reading.sr import study_file_text
 
     if output.suffix.lower() not in (".yaml", ".yml"):
         raise click.UsageError(f"{output}: a study file ends in .yaml or .yml.")
-    if output.exists() and not overwrite:
-        raise ExportError(f"{output}: exists already; give --overwrite to replace it.")
+    refuse_existing(output, overwrite)
     study, found = load_report(report)
     for line in study.import_notes:
         click.echo(line, err=True)
-    write_atomic(output, study_file_text(found.tree).encode("utf-8"))
+    write_atomic(output, study_file_text(found.tree).encode("utf-8"), overwrite=overwrite)
     click.echo(f"wrote {output}", err=True)
