@@ -38,6 +38,7 @@ from diagram.reading.study import (
     LimbPressures,
     Patient,
     Plaque,
+    Presentation,
     Pressures,
     Sample,
     SegmentFinding,
@@ -382,6 +383,7 @@ def _limb(side: str, limb: dict[str, Any], lines: dict[Loc, int]) -> Limb:
             for i, item in enumerate(limb.get("stents", []))
         ),
         grafts=tuple(grafts),
+        presentation=Presentation(limb["presentation"]) if "presentation" in limb else None,
     )
 
 
