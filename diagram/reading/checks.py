@@ -387,6 +387,10 @@ class Checker:
                 for key in _MEASURED if flag == "not_assessed" else ("psv", "edv", "shift_hz"):
                     if key in sample:
                         self.refuse(sample, loc, key, f"is refused: {why}.")
+        repeats = sample.get("samples")
+        for i, repeat in enumerate(repeats if isinstance(repeats, list) else ()):
+            if isinstance(repeat, dict):
+                self.sample((*loc, "samples", i), repeat, noun)
 
     def shift(self, loc: Loc, sample: dict[str, object]) -> None:
         """Refuse a Doppler shift that cannot give a PSV: no angle, no frequency, or a PSV too."""
