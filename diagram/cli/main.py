@@ -37,6 +37,7 @@ from diagram.errors import DiagramError
 if TYPE_CHECKING:
     from diagram.batch.run import BatchSettings
     from diagram.drawing.labprofile import LabProfile
+    from diagram.output.export import Renderer
 
 FORMATS = ("svg", "pdf", "png", "dcm", "json")
 
@@ -97,6 +98,14 @@ def cli() -> None:
     "file's name), {folder} (its folder's name), {accession} {patient_id} {exam_date} (these "
     "three put identifiers in file names).",
 )
+@click.option(
+    "--renderer",
+    type=click.Choice(["cairo", "cairosvg"]),
+    default="cairo",
+    show_default=True,
+    help="How PDF, PNG and DICOM are drawn: cairo paints the sheet directly; cairosvg "
+    "converts its SVG (the slower reference route).",
+)
 def draw(
     studies: tuple[Path, ...],
     output: str,
@@ -112,6 +121,7 @@ def draw(
     quiet: bool,
     overwrite: bool,
     name_pattern: str,
+    renderer: Renderer,
 ) -> None:
     """Draw the map of each STUDY (a file, a folder of files, or a .txt list of paths).
 
@@ -154,6 +164,7 @@ def draw(
         from diagram.reading.load import load_prior, load_study
 
         study = load_study(studies[0])
+        _show_import_notes(study.import_notes)
         earlier = load_prior(study, prior)
         drawing = draw_study(
             study,
@@ -164,9 +175,8 @@ def draw(
             prior=earlier,
             lab=profile,
         )
-        written = export(
-            drawing, Path(output), chosen[0], ExportOptions(png_dpi=png_dpi), overwrite=overwrite
-        )
+        options = ExportOptions(png_dpi=png_dpi, renderer=renderer)
+        written = export(drawing, Path(output), chosen[0], options, overwrite=overwrite)
         if not quiet:
             click.echo(f"wrote {written}", err=True)
         return
@@ -183,6 +193,7 @@ def draw(
         lab=profile,
         png_dpi=png_dpi,
         overwrite=overwrite,
+        renderer=renderer,
     )
     _draw_batch(studies, settings, jobs, quiet)
 
@@ -203,8 +214,27 @@ def _warn_style(profile: LabProfile, path: Path) -> None:
 
 
 def _is_study_file(path: Path) -> bool:
-    """Return True for a path that names one study file (not a folder, not a list of paths)."""
-    return path.suffix.lower() in (".yaml", ".yml", ".json") and not _is_folder(str(path))
+    """Return True for a path that names one study file (not a folder, not a list of paths).
+
+    A structured report (DICOM SR) counts, recognised by its suffix or by its content.
+    """
+    if _is_folder(str(path)):
+        return False
+    if path.suffix.lower() in (".yaml", ".yml", ".json", ".dcm"):
+        return True
+    from diagram.reading.sr import looks_like_dicom
+
+    try:
+        with open(path, "rb") as handle:
+            return looks_like_dicom(handle.read(132))
+    except OSError:
+        return False
+
+
+def _show_import_notes(notes: tuple[str, ...]) -> None:
+    """Print what an imported report held that could not be placed, one line per item."""
+    for line in notes:
+        click.echo(_printable(line), err=True)
 
 
 def _is_folder(name: str) -> bool:
@@ -319,6 +349,7 @@ def _assess_file(path: Path, criteria: str | None, target: str | None, prior: Pa
     from diagram.reading.load import load_prior, load_study
 
     current = load_study(path)
+    _show_import_notes(current.import_notes)
     return assess_study(current, criteria=criteria, target=target, prior=load_prior(current, prior))
 
 
@@ -374,10 +405,12 @@ def schema(results: bool, lab: bool) -> None:
 def _register() -> None:
     """Add the commands defined beside their stages (their heavy imports stay inside them)."""
     from diagram.cli.design import COMMANDS
+    from diagram.cli.importing import import_report
     from diagram.cli.segments import segments
     from diagram.cli.teach import teach
 
     cli.add_command(teach)
+    cli.add_command(import_report)
     cli.add_command(segments)
     for command in COMMANDS:
         cli.add_command(command)
