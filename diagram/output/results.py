@@ -386,5 +386,5 @@ def comparison_lines(comparison: Comparison) -> list[str]:
 def _psv_moved(before: float | None, after: float | None, pct: float | None) -> str:
     if before is None or after is None:
         return ""
-    change = f" ({pct:+.1f}%)" if pct is not None else ""
+    change = f" ({pct:+.0f}%)" if pct is not None else ""  # whole percent, as on the sheet
     return f"PSV {before:g} -> {after:g} cm/s{change}"
