@@ -16,8 +16,7 @@ from dataclasses import dataclass, replace
 
 from diagram.assess.compare import BAND_CHANGES
 from diagram.assess.results import Assessment
-from diagram.drawing.map.block import SIDE_MARK_STRIP_PT, DrawnMap, MapBlock
-from diagram.drawing.map.labels import not_drawn
+from diagram.drawing.map.block import SIDE_MARK_STRIP_PT, DrawnMap, MapBlock, not_drawn
 from diagram.drawing.map.vessels import band_styles
 from diagram.drawing.paper import MARGIN_PT, PAGES, PageSpec
 from diagram.drawing.scene import Block, Box, CaseHeader, Group, Item, Rect, Region, Scene

@@ -5,7 +5,9 @@ measured first (one column per margin at the house size, then denser, then more 
 template is scaled into the room between the label columns (aspect kept, patient's right on the
 viewer's left) and sits on the foot of the box, over the ankle pressure strip. Then the body
 outline, the vessels, lesions, devices and marks are drawn, the labels placed beside them, and
-the change marks and the side letters added.
+the change marks and the side letters added. A partial map (one leg, or from the groin down)
+draws what it holds; ``not_drawn`` names every finding it cannot show, for the sheet's notes,
+and refuses a map that holds neither leg the study reports.
 """
 
 from __future__ import annotations
@@ -13,12 +15,18 @@ from __future__ import annotations
 from collections.abc import Mapping
 from dataclasses import dataclass
 
-from diagram.anatomy import Side
+from diagram.anatomy import Side, vessel_key
 from diagram.assess.results import Assessment
-from diagram.drawing.map.devices import draw_grafts, draw_stents
+from diagram.drawing.map.devices import chain, draw_grafts, draw_stents
 from diagram.drawing.map.labels import GUTTER_PT, choose_columns, margin_width, place_labels
 from diagram.drawing.map.marks import change_marks
-from diagram.drawing.map.vessels import MapParts, draw_lesion, draw_tubes
+from diagram.drawing.map.vessels import (
+    MapParts,
+    draw_lesion,
+    draw_tubes,
+    segment_results,
+    vessel_order,
+)
 from diagram.drawing.scene import (
     Anchor,
     Box,
@@ -35,6 +43,7 @@ from diagram.drawing.scene import (
 from diagram.drawing.style import BandStyle, Style
 from diagram.drawing.template.mapfile import Template
 from diagram.drawing.template.pathdata import read_path
+from diagram.errors import Problem, TemplateError
 
 SIDE_MARK_STRIP_PT = 16.0  # above the map: the R and L letters
 
@@ -183,3 +192,70 @@ class MapBlock:
             map_box=map_box,
             vessel_box=vessel_box or map_box,
         )
+
+
+# --------------------------------------------------------------------------- partial maps
+
+
+def not_drawn(assessment: Assessment, template: Template) -> list[str]:
+    """Return the notes naming findings on segments the map lacks (a partial template).
+
+    A template that holds none of the legs the study reports is refused.
+    """
+    legs = {v.side for v in template.vessels.values() if v.side}
+    found = {side: _findings(assessment, side) for side in Side}
+    reported = [side for side in Side if any(found[side].values())]
+    if reported and not legs & {side.value for side in reported}:
+        rule = "the map template draws neither leg the study reports"
+        hint = "use a map that holds the " + " and ".join(s.value for s in reported) + " leg"
+        raise TemplateError([Problem(template.source, None, "vessels", None, rule, hint)])
+    label = {b.id: b.label for b in assessment.bands}
+    results = sorted(segment_results(assessment).items(), key=lambda kv: vessel_order(kv[0]))
+    out: list[str] = []
+    for side in (Side.RIGHT, Side.LEFT):
+        leg = side.value
+        if leg not in legs and reported:
+            if side in reported:
+                counts = ", ".join(
+                    f"{n} {what}{'s' if n != 1 else ''}" for what, n in found[side].items() if n
+                )
+                out.append(f"not drawn: the {leg} leg ({counts}); this map has no {leg} leg")
+            continue
+        lost: list[str] = []
+        for key, res in results:
+            if res.side is side and res.assessed and key not in template.vessels:
+                where = res.segment if key == res.segment else f"{leg} {res.segment}"
+                lost.append(f"{where} {label.get(res.band, res.band)}")
+        limb = assessment.limbs.get(side)
+        for les in limb.lesions if limb else ():
+            off = [
+                p.segment for p in les.spans if vessel_key(side, p.segment) not in template.vessels
+            ]
+            if off or (not les.spans and not _on(template, side, les.at)):
+                part = f" (the part in {', '.join(off)})" if len(off) < len(les.spans) else ""
+                lost.append(f"{leg} {les.at} lesion{part}")
+        given = assessment.study.limb(side)
+        for what, devices in (("stent", given.stents), ("graft", given.grafts)):
+            for d in devices:
+                ends = (d.from_, d.to) if what == "graft" else chain(d.from_, d.to)
+                if not all(_on(template, side, seg) for seg in ends):
+                    lost.append(f"{leg} {what} {d.from_} to {d.to}")
+        if lost:
+            out.append("not drawn: " + "; ".join(lost) + " (not on this map)")
+    return out
+
+
+def _findings(assessment: Assessment, side: Side) -> dict[str, int]:
+    """Return how many findings of each kind the study reports for one leg."""
+    limb, given = assessment.limbs.get(side), assessment.study.limb(side)
+    assessed = [r for r in limb.segments.values() if r.assessed] if limb else []
+    return {
+        "segment": len(assessed),
+        "lesion": len(limb.lesions) if limb else 0,
+        "stent": len(given.stents),
+        "graft": len(given.grafts),
+    }
+
+
+def _on(template: Template, side: Side, segment: str) -> bool:
+    return vessel_key(side, segment) in template.vessels

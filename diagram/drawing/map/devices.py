@@ -8,10 +8,9 @@ from __future__ import annotations
 
 import math
 
-from diagram.anatomy import SEGMENTS, Side, vessel_key
+from diagram.anatomy import SEGMENTS, Side, ancestors, run_on, vessel_key
 from diagram.assess.results import Assessment
-from diagram.drawing.map.labels import chain, frame
-from diagram.drawing.map.vessels import MapParts, across, bbox
+from diagram.drawing.map.vessels import MapParts, across, bbox, frame
 from diagram.drawing.scene import (
     Box,
     Circle,
@@ -26,6 +25,17 @@ from diagram.drawing.scene import (
 )
 from diagram.drawing.style import Style
 from diagram.drawing.template.mapfile import Template, Vessel
+
+
+def chain(first: str, last: str) -> tuple[str, ...]:
+    """Return the segments from ``first`` to ``last`` along the tree (both ends when unrelated)."""
+    inline = run_on(first)
+    if last in inline:
+        return inline[: inline.index(last) + 1]
+    up = ancestors(last)
+    if first in up:
+        return (*reversed(up[: up.index(first) + 1]), last)
+    return (first,) if first == last else (first, last)
 
 
 def draw_stents(

@@ -12,7 +12,7 @@ from collections.abc import Mapping
 from diagram.anatomy import Side, vessel_key
 from diagram.assess.compare import Change, changed_segments
 from diagram.assess.results import Assessment
-from diagram.drawing.map.labels import frame
+from diagram.drawing.map.vessels import frame
 from diagram.drawing.scene import Box, Fit, Group, Item, Point, Polygon, make_id
 from diagram.drawing.style import Style
 from diagram.drawing.template.mapfile import Template

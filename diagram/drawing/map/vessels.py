@@ -12,15 +12,42 @@ from __future__ import annotations
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 
-from diagram.anatomy import vessel_key
-from diagram.assess.results import Assessment, LesionResult
-from diagram.drawing.map.labels import frame, segment_results, vessel_order
+from diagram.anatomy import SEGMENT_IDS, Side, vessel_key
+from diagram.assess.results import Assessment, LesionResult, SegmentResult
 from diagram.drawing.scene import Box, Circle, Fit, Group, Item, Line, Point, Polygon, make_id
 from diagram.drawing.style import NOT_ASSESSED, BandStyle, Style
 from diagram.drawing.template.mapfile import Template, Vessel
 
 STEP_PT = 2.0  # spacing of outline points along a vessel, on the page
 MIN_LESION_PT = 2.0  # shortest lesion still drawn visibly
+
+
+def segment_results(assessment: Assessment) -> dict[str, SegmentResult]:
+    """Return each drawn vessel's segment result by vessel key (the aorta once)."""
+    out: dict[str, SegmentResult] = {}
+    for side in (Side.RIGHT, Side.LEFT):
+        limb = assessment.limbs.get(side)
+        if limb is None:
+            continue
+        for seg, res in sorted(limb.segments.items()):
+            key = vessel_key(side, seg)
+            # The unpaired aorta may be reported under either leg: keep an assessed result.
+            if key not in out or (res.assessed and not out[key].assessed):
+                out[key] = res
+    return out
+
+
+def vessel_order(key: str) -> tuple[int, int, str]:
+    """Return a sort key for vessel keys: down the tree, right before left."""
+    side, _, seg = key.rpartition("/")
+    index = SEGMENT_IDS.index(seg) if seg in SEGMENT_IDS else len(SEGMENT_IDS)
+    return (index, 0 if side == "right" else 1, key)
+
+
+def frame(vessel: Vessel, fit: Fit, s: float) -> tuple[Point, Point]:
+    """Return the page point at arc length ``s`` and the unit normal there."""
+    tx, ty = vessel.geometry.tangent_at(s)
+    return fit.point(vessel.geometry.point_at(s)), (ty, -tx)
 
 
 def band_styles(assessment: Assessment, style: Style) -> dict[str, BandStyle]:

@@ -248,6 +248,79 @@ def _psv_change(before: float | None, after: float | None, pct: float | None) ->
     return text + (f" ({_signed(pct, 1)}%)" if pct is not None else "")
 
 
+def _segment_changes(comparison: Comparison, bands: Mapping[str, BandStyle], side: Side) -> Cell:
+    """Return one leg's segments whose band changed, and those seen in one exam only."""
+    out = []
+    for c in comparison.segments:
+        if c.side is not side or c.change not in BAND_CHANGES:
+            continue
+        psv = _psv_change(c.psv_before, c.psv_after, c.psv_change_pct)
+        out.append(
+            _entry(
+                _strong(c.segment),
+                f" {_band_label(bands, c.before_band)} → {_band_label(bands, c.after_band)}",
+                _basis(f" · {psv}" if psv else ""),
+                mark=c.change.value,
+            )
+        )
+    for kind, words in (
+        (Change.NEWLY_ASSESSED, "newly assessed"),
+        (Change.NO_LONGER_ASSESSED, "not assessed this time"),
+    ):
+        segs = [c.segment for c in comparison.segments if c.side is side and c.change is kind]
+        if segs:
+            out.append(_entry(_basis(f"{words}: {', '.join(segs)}")))
+    return tuple(out) or (_entry("no band change"),)
+
+
+def _lesion_changes(comparison: Comparison, bands: Mapping[str, BandStyle], side: Side) -> Cell:
+    """Return one leg's lesions seen in both exams, with their PSV change."""
+    out = []
+    for c in comparison.lesions:
+        if c.side is not side:
+            continue
+        psv = _psv_change(c.psv_before, c.psv_after, c.psv_change_pct) or "PSV not in both"
+        bands_moved = (
+            f" · {_band_label(bands, c.band_before)} → {_band_label(bands, c.band_after)}"
+            if c.band_before != c.band_after
+            else ""
+        )
+        out.append(
+            _entry(
+                _strong(f"{c.segment} at {c.from_cm_after:g} cm"),
+                f" {psv}",
+                _basis(bands_moved),
+            )
+        )
+    return tuple(out) or (_entry(_basis("no lesion in both exams")),)
+
+
+def _device_changes(comparison: Comparison, side: Side) -> Cell:
+    """Return one leg's stents and grafts new or no longer recorded."""
+    out = [
+        _entry(_strong(f"new {d.kind}"), f" {d.from_} → {d.to}")
+        if d.change == "new"
+        else _entry(f"{d.kind} {d.from_} → {d.to}", _basis(" · no longer recorded"))
+        for d in comparison.devices
+        if d.side is side
+    ]
+    return tuple(out) or (_entry("no change"),)
+
+
+def _abi_change(comparison: Comparison, side: Side) -> Cell:
+    """Return one leg's ABI change, flagged when it fell significantly."""
+    found = [a for a in comparison.abi if a.side is side]
+    if not found or found[0].change is None or found[0].before is None:
+        return (_entry("\u2014", _basis(f" · {found[0].basis}" if found else "")),)
+    a = found[0]
+    moved = f"{a.before:.2f} \u2192 {a.after:.2f} ({_signed(a.change or 0.0, 2)})"
+    verdict = a.basis.split(": ", 1)[-1]  # the basis repeats the figures before its verdict
+    if a.significant:
+        flag = Run("significant fall > 0.15", Tone.FLAG)
+        return (_entry(_strong(moved)), _entry(flag, _basis(f" ({ABI_SOURCE})")))
+    return (_entry(_strong(moved), _basis(f" · {verdict}")),)
+
+
 def change_table(comparison: Comparison, bands: Mapping[str, BandStyle]) -> Table:
     """Return the change since the prior exam, per leg: bands, lesion PSVs, devices, ABI."""
     interval = (
@@ -256,76 +329,11 @@ def change_table(comparison: Comparison, bands: Mapping[str, BandStyle]) -> Tabl
         else f"interval {comparison.interval_days} days"
     )
 
-    def segments(side: Side) -> Cell:
-        out = []
-        for c in comparison.segments:
-            if c.side is not side or c.change not in BAND_CHANGES:
-                continue
-            psv = _psv_change(c.psv_before, c.psv_after, c.psv_change_pct)
-            out.append(
-                _entry(
-                    _strong(c.segment),
-                    f" {_band_label(bands, c.before_band)} → {_band_label(bands, c.after_band)}",
-                    _basis(f" · {psv}" if psv else ""),
-                    mark=c.change.value,
-                )
-            )
-        for kind, words in (
-            (Change.NEWLY_ASSESSED, "newly assessed"),
-            (Change.NO_LONGER_ASSESSED, "not assessed this time"),
-        ):
-            segs = [c.segment for c in comparison.segments if c.side is side and c.change is kind]
-            if segs:
-                out.append(_entry(_basis(f"{words}: {', '.join(segs)}")))
-        return tuple(out) or (_entry("no band change"),)
-
-    def lesions(side: Side) -> Cell:
-        out = []
-        for c in comparison.lesions:
-            if c.side is not side:
-                continue
-            psv = _psv_change(c.psv_before, c.psv_after, c.psv_change_pct) or "PSV not in both"
-            bands_moved = (
-                f" · {_band_label(bands, c.band_before)} → {_band_label(bands, c.band_after)}"
-                if c.band_before != c.band_after
-                else ""
-            )
-            out.append(
-                _entry(
-                    _strong(f"{c.segment} at {c.from_cm_after:g} cm"),
-                    f" {psv}",
-                    _basis(bands_moved),
-                )
-            )
-        return tuple(out) or (_entry(_basis("no lesion in both exams")),)
-
-    def devices(side: Side) -> Cell:
-        out = [
-            _entry(_strong(f"new {d.kind}"), f" {d.from_} → {d.to}")
-            if d.change == "new"
-            else _entry(f"{d.kind} {d.from_} → {d.to}", _basis(" · no longer recorded"))
-            for d in comparison.devices
-            if d.side is side
-        ]
-        return tuple(out) or (_entry("no change"),)
-
-    def abi(side: Side) -> Cell:
-        found = [a for a in comparison.abi if a.side is side]
-        if not found or found[0].change is None or found[0].before is None:
-            return (_entry("\u2014", _basis(f" · {found[0].basis}" if found else "")),)
-        a = found[0]
-        moved = f"{a.before:.2f} \u2192 {a.after:.2f} ({_signed(a.change or 0.0, 2)})"
-        verdict = a.basis.split(": ", 1)[-1]  # the basis repeats the figures before its verdict
-        if a.significant:
-            flag = Run("significant fall > 0.15", Tone.FLAG)
-            return (_entry(_strong(moved)), _entry(flag, _basis(f" ({ABI_SOURCE})")))
-        return (_entry(_strong(moved), _basis(f" · {verdict}")),)
-
     rows = (
-        Row("Segments (band)", tuple(segments(s) for s in SIDES)),
-        Row("Lesions (PSV)", tuple(lesions(s) for s in SIDES)),
-        Row("Stents, grafts", tuple(devices(s) for s in SIDES)),
-        Row("ABI", tuple(abi(s) for s in SIDES)),
+        Row("Segments (band)", tuple(_segment_changes(comparison, bands, s) for s in SIDES)),
+        Row("Lesions (PSV)", tuple(_lesion_changes(comparison, bands, s) for s in SIDES)),
+        Row("Stents, grafts", tuple(_device_changes(comparison, s) for s in SIDES)),
+        Row("ABI", tuple(_abi_change(comparison, s) for s in SIDES)),
     )
     notes = tuple(_entry(_basis(n)) for n in comparison.notes)
     return Table(

@@ -14,7 +14,8 @@ from diagram import anatomy
 from diagram.drawing.template.coverage import key_order
 
 if TYPE_CHECKING:
-    from diagram.drawing.template.mapfile import Vessel, _RawVessel
+    from diagram.drawing.template.mapfile import Vessel
+    from diagram.drawing.template.mapread import RawVessel
 
 JOIN_TOLERANCE = 1.5  # units: a child may start this far from its parent's distal end
 # A declared length or diameter within this factor of the segment's nominal value is plausible
@@ -35,7 +36,7 @@ Add = Callable[..., None]
 
 
 def declared_value(
-    raw: str | None, attr: str, nominal: float, unit: str, v: _RawVessel, add: Add
+    raw: str | None, attr: str, nominal: float, unit: str, v: RawVessel, add: Add
 ) -> float | None:
     """Return the declared value when it is plausible for the segment; report it otherwise."""
     low, high = nominal / PLAUSIBLE_FACTOR, nominal * PLAUSIBLE_FACTOR

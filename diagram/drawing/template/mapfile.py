@@ -42,9 +42,8 @@ from __future__ import annotations
 import difflib
 import functools
 import math
-import re
 from collections.abc import Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from importlib import resources
 from pathlib import Path
 from types import MappingProxyType
@@ -64,12 +63,11 @@ from diagram.drawing.template.coverage import (
     describe_coverage,
     key_order,
     normalise_coverage,
-    side_word,
     suggest_coverage,
 )
 from diagram.drawing.template.geometry import PathGeometry
+from diagram.drawing.template.mapread import MapReader, RawVessel
 from diagram.drawing.template.nominal import NOMINAL_DIAMETER_MM
-from diagram.drawing.template.pathdata import Affine, transform_path_d
 
 # Safe reading lives in diagram.drawing.template.svgread; its limits stay importable from here.
 from diagram.drawing.template.svgread import MAX_DEPTH as MAX_DEPTH
@@ -77,24 +75,14 @@ from diagram.drawing.template.svgread import MAX_ELEMENTS as MAX_ELEMENTS
 from diagram.drawing.template.svgread import MAX_PATH_CHARS as MAX_PATH_CHARS
 from diagram.drawing.template.svgread import MAX_VIEWBOX as MAX_VIEWBOX
 from diagram.drawing.template.svgread import SVG_NS as SVG_NS
-from diagram.drawing.template.svgread import Element, SvgReader, clip
+from diagram.drawing.template.svgread import clip
 from diagram.errors import Problem, TemplateError
 
 if TYPE_CHECKING:
-    from xml.sax.xmlreader import AttributesNSImpl
+    pass
 
-INKSCAPE_NS = "http://www.inkscape.org/namespaces/inkscape"
 SHIPPED_TEMPLATE = "bilateral.svg"
 MAX_TEMPLATE_BYTES = 5_000_000
-NameResult = tuple[str | None, str | None, list[tuple[str, str | None, str | None]]]
-_LAYERS = ("silhouette", "landmarks", "vessels")
-_CENTRE_LINES = frozenset({"path", "line", "polyline"})
-_OUTLINE_SHAPES = frozenset({"path", "line", "polyline", "polygon", "rect", "circle", "ellipse"})
-_NAMED = re.compile(
-    r"^(?:(?P<pre>right|left|rt|lt|r|l)[\s_.:-]+)?(?P<name>.+?)"
-    r"(?:[\s_.:-]+(?P<post>right|left|rt|lt|r|l))?$",
-    re.IGNORECASE,
-)
 
 
 @dataclass(frozen=True)
@@ -240,176 +228,15 @@ def _parse_cached(
         data = fh.read(MAX_TEMPLATE_BYTES + 1)
     if len(data) > MAX_TEMPLATE_BYTES:
         return None, (_too_big(display, len(data)),)
-    reader = _Reader(display)
+    reader = MapReader(display)
     reader.feed(data)
     return _build(reader, display, Path(resolved).stem)
 
 
-# --------------------------------------------------------------------------- collecting the map
-
-
-@dataclass(frozen=True)
-class _RawVessel:
-    line: int | None
-    where: str
-    segment: str
-    side: str | None
-    d: str
-    transform: Affine
-    length: str | None
-    diameter: str | None
-
-
-@dataclass
-class _Reader(SvgReader):
-    """The safe reader, collecting vessels, outlines and the declared coverage on the way."""
-
-    vessels: list[_RawVessel] = field(default_factory=list)
-    silhouette: list[str] = field(default_factory=list)
-    landmarks: list[str] = field(default_factory=list)
-    coverage: tuple[str, int | None] | None = None  # data-coverage of the root, with its line
-    # Per open element: its layer ("silhouette", "landmarks", "vessels" or "") and data-side.
-    _scopes: list[tuple[str, str | None]] = field(default_factory=list)
-
-    def element(self, el: Element) -> None:
-        parent = self._scopes[-1] if self._scopes else None
-        if parent is None and "data-coverage" in el.plain:
-            self.coverage = (el.plain["data-coverage"], self.root_line)
-        tag, plain = el.tag, el.plain
-        group = parent[0] if parent else ""
-        label = el.attrs.get((INKSCAPE_NS, "label"), "") if tag == "g" else ""
-        for layer_name in (plain.get("id", ""), label):
-            if tag == "g" and layer_name.strip().lower() in _LAYERS:
-                group = layer_name.strip().lower()
-        side = parent[1] if parent else None
-        if "data-side" in plain and tag not in _CENTRE_LINES:
-            side = side_word(plain["data-side"]) or side
-        self._scopes.append((group, side))
-        if el.uri == SVG_NS and tag in _OUTLINE_SHAPES | _CENTRE_LINES:
-            self.shape(tag, el.where, plain, el.attrs, el.transform, group, el.hidden, side)
-
-    def end_element(self) -> None:
-        self._scopes.pop()
-
-    def shape(
-        self,
-        tag: str,
-        where: str,
-        plain: dict[str, str],
-        attrs: AttributesNSImpl,
-        transform: Affine,
-        group: str,
-        hidden: bool,
-        side: str | None,
-    ) -> None:
-        named = _name(plain, attrs, side)
-        if named is None and group == "vessels" and tag in _CENTRE_LINES and not hidden:
-            self.problem(
-                where,
-                None,
-                "a vessel needs a segment id",
-                'add data-segment="..." and data-side="right|left"',
-            )
-        if group in ("silhouette", "landmarks") and named is None:
-            d = self.shape_d(tag, where, plain)
-            if d is not None and not hidden:
-                self.outline(group, where, d, transform)
-            return
-        if named is None:
-            return
-        segment, own_side, problems = named
-        for rule, value, hint in problems:
-            self.problem(where, value, rule, hint)
-        if segment is None or tag not in _CENTRE_LINES:
-            if segment is not None:
-                self.problem(where, None, "a vessel centre line must be a <path>")
-            return
-        if hidden:
-            self.problem(
-                where,
-                None,
-                f"is inside <{self.hidden_tag()}> and never drawn",
-                "move it into the vessels layer",
-            )
-            return
-        d = self.shape_d(tag, where, plain)
-        if d is not None:
-            self.vessels.append(
-                _RawVessel(
-                    self.line(),
-                    where,
-                    segment,
-                    own_side,
-                    d,
-                    transform,
-                    plain.get("data-length-cm"),
-                    plain.get("data-diameter-mm"),
-                )
-            )
-
-    def outline(self, group: str, where: str, d: str, transform: Affine) -> None:
-        try:
-            absolute = transform_path_d(d, transform)
-        except ValueError as exc:
-            self.problem(f"{where}.d", clip(d), str(exc))
-            return
-        (self.silhouette if group == "silhouette" else self.landmarks).append(absolute)
-
-
-def _name(
-    plain: dict[str, str], attrs: AttributesNSImpl, inherited: str | None
-) -> NameResult | None:
-    """Return (segment, side, problems) for a vessel, or None when the element names none."""
-    problems: list[tuple[str, str | None, str | None]] = []
-    if "data-segment" in plain:
-        raw = plain["data-segment"]
-        segment = anatomy.resolve(raw)
-        if segment is None:
-            guess = anatomy.suggest(raw)
-            problems.append(
-                ("is not a segment id", raw, f"did you mean {guess}?" if guess else None)
-            )
-        explicit = plain.get("data-side")
-        side = side_word(explicit) if explicit is not None else inherited
-        if explicit is not None and side is None:
-            problems.append(("data-side must be right or left", explicit, None))
-        if segment is not None:
-            side = _check_side(segment, side, explicit is not None, problems)
-        return segment, side, problems
-    label = attrs.get((INKSCAPE_NS, "label")) if (INKSCAPE_NS, "label") in attrs else None
-    for text in (plain.get("id"), label):
-        if not text:
-            continue
-        m = _NAMED.match(text.strip())
-        segment = anatomy.resolve(m.group("name")) if m else None
-        if m is None or segment is None:
-            continue
-        word = m.group("pre") or m.group("post")
-        side = side_word(word) if word else inherited
-        return segment, _check_side(segment, side, False, problems), problems
-    return None
-
-
-def _check_side(
-    segment: str,
-    side: str | None,
-    explicit: bool,
-    problems: list[tuple[str, str | None, str | None]],
-) -> str | None:
-    if segment in anatomy.UNPAIRED:
-        if explicit:
-            problems.append(
-                (f"{segment} is unpaired and takes no data-side", side, "remove data-side")
-            )
-        return None
-    if side is None:
-        problems.append(
-            (f"{segment} needs a side", None, 'add data-side="right" or data-side="left"')
-        )
-    return side
-
-
-def _build(reader: _Reader, display: str, name: str) -> tuple[Template | None, tuple[Problem, ...]]:
+def _build(
+    reader: MapReader, display: str, name: str
+) -> tuple[Template | None, tuple[Problem, ...]]:
+    """Return the Template read, or every breach of the contract found."""
     problems = list(reader.problems)
     if reader.fatal:
         return None, tuple(problems)
@@ -420,6 +247,28 @@ def _build(reader: _Reader, display: str, name: str) -> tuple[Template | None, t
         )
 
     coverage, covered = _coverage(reader, add)
+    found, declared = _collect(reader, coverage, covered, add)
+    _check_complete(reader, covered, declared, add)
+    check_joins(found, add)
+    check_sides(found, add)
+    if problems or reader.viewbox is None:
+        return None, tuple(problems)
+    return Template(
+        name,
+        display,
+        reader.viewbox,
+        MappingProxyType({key: found[key] for key in sorted(found, key=key_order)}),
+        tuple(reader.silhouette),
+        tuple(reader.landmarks),
+        coverage,
+        " ".join("".join(reader.title).split()),
+    ), ()
+
+
+def _collect(
+    reader: MapReader, coverage: str, covered: frozenset[str] | None, add: Add
+) -> tuple[dict[str, Vessel], set[str]]:
+    """Return the vessels read (by key) and every key declared, reporting strays and repeats."""
     found: dict[str, Vessel] = {}
     declared: set[str] = set()
     for raw in reader.vessels:
@@ -449,6 +298,13 @@ def _build(reader: _Reader, display: str, name: str) -> tuple[Template | None, t
         vessel = _vessel(raw, key, reader.viewbox, add)
         if vessel is not None:
             found[key] = vessel
+    return found, declared
+
+
+def _check_complete(
+    reader: MapReader, covered: frozenset[str] | None, declared: set[str], add: Add
+) -> None:
+    """Report a map with no vessels or outline, an undeclared partial map, missing vessels."""
     expected = sorted(covered if covered is not None else (), key=key_order)
     if not reader.vessels:
         add(
@@ -488,23 +344,9 @@ def _build(reader: _Reader, display: str, name: str) -> tuple[Template | None, t
                 "is missing",
                 f"add a <path {attrs}> drawn from its parent's distal end",
             )
-    check_joins(found, add)
-    check_sides(found, add)
-    if problems or reader.viewbox is None:
-        return None, tuple(problems)
-    return Template(
-        name,
-        display,
-        reader.viewbox,
-        MappingProxyType({key: found[key] for key in sorted(found, key=key_order)}),
-        tuple(reader.silhouette),
-        tuple(reader.landmarks),
-        coverage,
-        " ".join("".join(reader.title).split()),
-    ), ()
 
 
-def _coverage(reader: _Reader, add: Add) -> tuple[str, frozenset[str] | None]:
+def _coverage(reader: MapReader, add: Add) -> tuple[str, frozenset[str] | None]:
     """Return the normalised coverage and its vessel keys (None when it cannot be read)."""
     if reader.coverage is None:
         return "bilateral", covered_keys("bilateral")
@@ -525,7 +367,7 @@ def _coverage(reader: _Reader, add: Add) -> tuple[str, frozenset[str] | None]:
 
 
 def _vessel(
-    raw: _RawVessel, key: str, viewbox: tuple[float, float, float, float] | None, add: Add
+    raw: RawVessel, key: str, viewbox: tuple[float, float, float, float] | None, add: Add
 ) -> Vessel | None:
     try:
         geometry = PathGeometry.from_d(raw.d, raw.transform)
