@@ -104,7 +104,7 @@ def _draw_parts(
             for lesion in limb.lesions:
                 draw_lesion(lesion, template, fit, style, bands, out)
         draw_stents(assessment, side, template, fit, style, out)
-        draw_grafts(assessment, side, template, fit, style, out)
+        draw_grafts(assessment, side, template, fit, style, bands, out)
     return out
 
 
@@ -175,6 +175,7 @@ class MapBlock:
             (top, bottom),
             columns,
             parts.half_widths,
+            parts.anchors,
             label_style,
             bands,
         )

@@ -13,7 +13,8 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field, replace
 
 from diagram.anatomy import Side, vessel_key
-from diagram.assess.results import Assessment, LesionResult
+from diagram.assess.results import Assessment, GraftSite, LesionResult
+from diagram.drawing.map.devices import device_mark, graft_anchor_key
 from diagram.drawing.map.vessels import frame, segment_results, vessel_order
 from diagram.drawing.scene import (
     Box,
@@ -32,6 +33,7 @@ from diagram.drawing.scene import (
 from diagram.drawing.style import BandStyle, Style
 from diagram.drawing.template.mapfile import Template, Vessel
 from diagram.drawing.textmetrics import line_extents, text_width
+from diagram.reading.study import GRAFT_BODY_SITES
 
 GUTTER_PT = 10.0  # between the map and the nearest label column
 COLUMN_GAP_PT = 8.0  # between two label columns of one margin
@@ -159,7 +161,7 @@ def _measured(
     """Return a label with its size measured in the shipped font (bold unless a segment's)."""
     asc, desc = line_extents(style.label_pt)
     height = asc + desc + 2 * style.label_pad_pt
-    bold = kind != "segment"
+    bold = kind not in ("segment", "graft")
     width = text_width(text, style.label_pt, bold) + 2 * style.label_pad_pt
     if band is not None:
         width += SWATCH_PT + 2.0
@@ -201,11 +203,62 @@ def _lesion_labels(
     return out
 
 
+GRAFT_SITE_WORDS = {
+    "proximal_anastomosis": "Graft prox. anast.",
+    "proximal": "Graft prox.",
+    "mid": "Graft mid",
+    "distal": "Graft dist.",
+    "distal_anastomosis": "Graft dist. anast.",
+}
+
+
+def graft_site_label(site: GraftSite) -> str:
+    """Return a graft site's margin label, e.g. ``Graft dist. anast. 325 / Vr 2.75``."""
+    text = GRAFT_SITE_WORDS.get(site.site, f"Graft {site.site}")
+    if site.psv is not None:
+        text += f" {_velocity(site.psv)}"
+    return text + (f" / Vr {_ratio(site.vr)}" if site.vr is not None else "")
+
+
+def _graft_labels(
+    assessment: Assessment, template: Template, side: Side, style: Style
+) -> list[MarginLabel]:
+    """Return the labels of one leg's grafts drawn on the map: each site, and a low graft flow.
+
+    A site's label carries its band chip; a graft flow velocity the assessment found low (its
+    ``graft-low-flow`` finding) gets a bold label of its own at the slowest body site.
+    """
+    out: list[MarginLabel] = []
+    limb = assessment.limbs.get(side)
+    low = {f.segment for f in assessment.warnings if f.code == "graft-low-flow" and f.side is side}
+    for graft in limb.grafts if limb is not None else ():
+        ends = (vessel_key(side, graft.from_), vessel_key(side, graft.to))
+        if not all(end in template.vessels for end in ends):
+            continue  # not on this map: listed in the notes
+        base = ("label", side.value, "graft", graft.index)
+        for site in graft.sites:
+            if site.psv is None:
+                continue
+            key = graft_anchor_key(side, graft.index, site.site)
+            lid = make_id(*base, site.site)
+            text = graft_site_label(site)
+            out.append(_measured(lid, side, "graft", key, 0.0, text, site.band, style))
+        body = [s for s in graft.sites if s.site in GRAFT_BODY_SITES and s.psv is not None]
+        if graft.to in low and graft.flow_velocity is not None and body:
+            slowest = min(body, key=lambda s: s.psv or 0.0)
+            key = graft_anchor_key(side, graft.index, slowest.site)
+            text = f"Low graft flow {_velocity(graft.flow_velocity)} cm/s"
+            lid = make_id(*base, "flow")
+            out.append(_measured(lid, side, "graft-flow", key, 0.0, text, None, style))
+    return out
+
+
 def collect_labels(assessment: Assessment, template: Template, style: Style) -> list[MarginLabel]:
     """Return every margin label with its measured size (segment PSVs, lesions, reconstitution)."""
     out: list[MarginLabel] = []
     for side in (Side.RIGHT, Side.LEFT):
         out += _lesion_labels(assessment, template, side, style)
+        out += _graft_labels(assessment, template, side, style)
     for key, res in sorted(segment_results(assessment).items(), key=lambda kv: vessel_order(kv[0])):
         if res.psv is not None and key in template.vessels:
             length = template.vessels[key].geometry.length()
@@ -260,6 +313,8 @@ def _label_items(lb: MarginLabel, box: Box, style: Style, bands: Mapping[str, Ba
                 dash=chip.outline_dash,
             )
         )
+        chip_box = Box(x, box.y + (lb.height - SWATCH_PT) / 2, SWATCH_PT, SWATCH_PT)
+        parts += device_mark(f"{lb.id}-chip", chip.device, chip_box, style)
         x += SWATCH_PT + 2.0
     parts.append(
         Text(
@@ -296,13 +351,15 @@ def place_labels(
     bounds: tuple[float, float],
     columns: Mapping[Side, int],
     half_widths: Mapping[str, float],
+    fixed: Mapping[str, Point],
     style: Style,
     bands: Mapping[str, BandStyle],
 ) -> tuple[list[LabelBox], list[Item], list[Item]]:
     """Return the label boxes, the leader lines and the label items.
 
     Each margin's labels are sorted by the height of their anchor on the tube edge facing the
-    margin, dealt round its columns, and packed in each column near their anchors.
+    margin (``fixed`` gives the anchors of labels off the template, such as graft sites), dealt
+    round its columns, and packed in each column near their anchors.
     """
     boxes: list[LabelBox] = []
     leaders: list[Item] = []
@@ -311,7 +368,9 @@ def place_labels(
         mine = [lb for lb in labels if lb.margin is margin]
         widest = max((lb.width for lb in mine), default=0.0)
         anchors = {
-            lb.id: anchor_point(
+            lb.id: fixed[lb.target]
+            if lb.target in fixed
+            else anchor_point(
                 template.vessels[lb.target], fit, lb.s, half_widths.get(lb.target, 2.0), margin
             )
             for lb in mine

@@ -10,7 +10,7 @@ gets the reconstitution ring where flow returns.
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 from diagram.anatomy import SEGMENT_IDS, Side, vessel_key
 from diagram.assess.results import Assessment, LesionResult, SegmentResult
@@ -20,6 +20,7 @@ from diagram.drawing.template.mapfile import Template, Vessel
 
 STEP_PT = 2.0  # spacing of outline points along a vessel, on the page
 MIN_LESION_PT = 2.0  # shortest lesion still drawn visibly
+DEVICE_KINDS = ("stent", "graft")  # criteria set kinds whose bands carry a device mark
 
 
 def segment_results(assessment: Assessment) -> dict[str, SegmentResult]:
@@ -52,7 +53,20 @@ def frame(vessel: Vessel, fit: Fit, s: float) -> tuple[Point, Point]:
 
 def band_styles(assessment: Assessment, style: Style) -> dict[str, BandStyle]:
     """Return the look of every band: the criteria sets' in order, then any other in use."""
-    out = {b.id: style.band_for(b.id, b.rank, b.label, b.look) for b in assessment.bands}
+    out: dict[str, BandStyle] = {}
+    seen: dict[tuple[str, str], int] = {}
+    for b in assessment.bands:
+        look = style.band_for(b.id, b.rank, b.label, b.look)
+        if b.kind in DEVICE_KINDS and b.look != "occluded" and b.rank >= 0:
+            # A device band carries its device's mark; a second band of one set on the same
+            # house look (graft high and highest risk) gets a denser texture.
+            n = seen[(b.kind, b.look)] = seen.get((b.kind, b.look), 0) + 1
+            look = replace(look, device=b.kind)
+            if n > 1:
+                look = replace(
+                    look, spacing_pt=look.spacing_pt * 0.6, weight_pt=look.weight_pt * 1.3
+                )
+        out[b.id] = look
     if NOT_ASSESSED not in out:
         out[NOT_ASSESSED] = style.band_for(NOT_ASSESSED)
     _register_bands(assessment, style, out)
@@ -109,6 +123,7 @@ class MapParts:
     marks: list[Item] = field(default_factory=list)  # ticks, reconstitution symbols
     boxes: dict[str, Box] = field(default_factory=dict)  # drawn extent per side ("" = aorta)
     half_widths: dict[str, float] = field(default_factory=dict)
+    anchors: dict[str, Point] = field(default_factory=dict)  # label anchors off the template
 
     def grow(self, side: str, box: Box) -> None:
         """Add ``box`` to the drawn extent of ``side``."""

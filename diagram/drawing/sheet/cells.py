@@ -13,8 +13,9 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from enum import StrEnum
 
+from diagram.drawing.map.devices import device_mark
 from diagram.drawing.map.marks import change_mark
-from diagram.drawing.scene import Item, Rect, Text, Weight
+from diagram.drawing.scene import Box, Item, Rect, Text, Weight
 from diagram.drawing.style import BandStyle, Style
 from diagram.drawing.textmetrics import line_extents, text_width
 
@@ -154,6 +155,7 @@ def set_entry(
                 dash=chip.outline_dash,
             )
         )
+        items += device_mark(f"{base}-chip", chip.device, Box(x, y, CHIP_PT, CHIP_PT), style)
     if entry.mark is not None:
         items.append(change_mark(f"{base}-mark", entry.mark, x + CHIP_PT / 2, top + lh / 2, style))
     for i, pieces in enumerate(lines):

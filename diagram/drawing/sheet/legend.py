@@ -1,8 +1,10 @@
 """The legend block: a swatch per band in use, the map's symbols in use, the velocity note.
 
-Swatches flow in rows across the width; the note (how velocities and ratios read, and where the
-pressure categories come from) sits under them. The symbols are drawn here as the map draws
-them: lesion-extent ticks, the reconstitution ring, the stent mesh, the graft, the change marks.
+Swatches flow in rows across the width; a band of the stent or graft set carries its device's
+mark on its swatch (``device_mark``), so it never reads as a native band. The note (how
+velocities and ratios read, and where the pressure categories come from) sits under them. The
+symbols are drawn here as the map draws them: lesion-extent ticks, the reconstitution ring, the
+stent mesh, the graft, the change marks.
 """
 
 from __future__ import annotations
@@ -12,6 +14,7 @@ from dataclasses import dataclass
 
 from diagram.anatomy import Side
 from diagram.assess.results import Assessment
+from diagram.drawing.map.devices import device_mark
 from diagram.drawing.map.marks import CHANGE_WORDS, change_mark
 from diagram.drawing.scene import (
     Box,
@@ -168,6 +171,8 @@ class Legend:
                         dash=b.outline_dash,
                     )
                 )
+                swatch = Box(ex, sy, SWATCH_W, SWATCH_H)
+                items += device_mark(make_id("legend", "swatch", key), b.device, swatch, style)
             else:
                 items.append(_symbol(key, ex, sy, SWATCH_W, SWATCH_H, style, self.all_bands))
             items.append(
