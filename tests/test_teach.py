@@ -358,7 +358,7 @@ def test_formats_agree_and_the_command_registers(capsys: pytest.CaptureFixture[s
     group.add_command(teach)  # what cli.py does
     with pytest.raises(SystemExit):
         group.main(["teach", "--help"], prog_name="limbchart")
-    assert "limbchart teach [OPTIONS] INPUTS..." in capsys.readouterr().out
+    assert "limbchart teach [OPTIONS] STUDY..." in capsys.readouterr().out
 
 
 def test_link_file_only_when_asked_and_never_inside_the_output(
