@@ -30,7 +30,7 @@ from diagram._version import __version__
 from diagram.drawing.scene import CaseHeader
 from diagram.errors import DiagramError, ExportError
 from diagram.reading.study import Graft, Lesion, Limb, Patient, Sample, SegmentFinding, Study
-from diagram.teaching.patterns import Category
+from diagram.teaching.categories import Category
 from diagram.teaching.scan import Hit, scan_outputs
 from diagram.teaching.scrub import Identifiers, age_at_exam, identifiers_of, scrub
 

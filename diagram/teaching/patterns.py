@@ -13,30 +13,8 @@ import datetime as dt
 import re
 from collections.abc import Callable
 from dataclasses import dataclass
-from enum import StrEnum
 
-
-class Category(StrEnum):
-    """What kind of identifier was removed or found (the audit and messages name only this)."""
-
-    NAME = "name"
-    PATIENT_ID = "patient-id"
-    BIRTH_DATE = "birth-date"
-    EXAM_DATE = "exam-date"
-    ACCESSION = "accession"
-    SITE = "site"
-    OPERATOR = "operator"
-    REFERRER = "referrer"
-    STUDY_UID = "study-uid"
-    PRIOR = "prior-path"
-    DATE = "date"
-    PHONE = "phone"
-    EMAIL = "e-mail"
-    URL = "url"
-    IP_ADDRESS = "ip-address"
-    LONG_NUMBER = "long-number"
-    AGE = "age-over-89"
-    METADATA = "document-metadata"  # a metadata field or element a teaching output must not hold
+from diagram.teaching.categories import Category
 
 
 @dataclass(frozen=True)
