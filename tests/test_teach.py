@@ -21,9 +21,11 @@ from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import replace
 from pathlib import Path
+from typing import Any
 
 import click
 import pytest
+import yaml
 from teach_generator import fold, full_width, study, write_studies
 
 from diagram.cli.teach import FORMAT_CHOICES, teach
@@ -31,7 +33,15 @@ from diagram.errors import DiagramError
 from diagram.output.results import results_document
 from diagram.pipeline import assess_study
 from diagram.reading.load import load_study
-from diagram.teaching.case import TEACH_FORMATS, age_text, deidentify, new_case_id, render_case
+from diagram.reading.study import Study
+from diagram.teaching.case import (
+    TEACH_FORMATS,
+    CaseSettings,
+    age_text,
+    deidentify,
+    new_case_id,
+    render_case,
+)
 from diagram.teaching.scrub import MARKER, Identifiers, age_at_exam, identifiers_of, scrub
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -220,7 +230,7 @@ def test_clinical_content_unchanged_and_identifiers_gone(tmp_path: Path) -> None
         data, _ = study(n, seed=7)
         (tmp_path / f"s{n}.json").write_text(json.dumps(data), "utf-8")
         source = load_study(tmp_path / f"s{n}.json")
-        case = deidentify(source, new_case_id())
+        case = deidentify(source, new_case_id(), keep_text=True)
         before = results_document(assess_study(source), version="t", identified=False)
         after = results_document(assess_study(case.study), version="t", identified=False)
         assert before == after
@@ -278,7 +288,7 @@ def test_pdf_info_is_emptied_in_place(tmp_path: Path) -> None:
     from diagram.output.export import Drawing, render_bytes
     from diagram.teaching.clean import CleanError, strip_pdf_info
 
-    svg = render_case(load_study(EXAMPLE), new_case_id(), ("svg",)).files
+    svg = render_case(load_study(EXAMPLE), new_case_id(), CaseSettings(formats=("svg",))).files
     raw = render_bytes(Drawing(svg=next(iter(svg.values())).decode(), results={}), "pdf")
     assert b"/Producer" in raw and b"/CreationDate" in raw  # what cairo writes
     clean = strip_pdf_info(raw)
@@ -318,7 +328,9 @@ def test_dicom_follows_the_confidentiality_profile(tmp_path: Path) -> None:
 
     base = load_study(EXAMPLE)
     out = render_case(
-        replace(base, exam=replace(base.exam, study_uid="1.2.3.4")), "tc-bbbbb-ccccc", ("dcm",)
+        replace(base, exam=replace(base.exam, study_uid="1.2.3.4")),
+        "tc-bbbbb-ccccc",
+        CaseSettings(formats=("dcm",)),
     )
     assert out.clean, out.hits
     ds = dcmread(io.BytesIO(out.files["tc-bbbbb-ccccc.dcm"]))
@@ -339,7 +351,7 @@ def test_dicom_follows_the_confidentiality_profile(tmp_path: Path) -> None:
 def test_study_file_reloads_and_draws(tmp_path: Path) -> None:
     from diagram.pipeline import draw
 
-    out = render_case(load_study(EXAMPLE), "tc-ddddd-fffff", ("yaml",))
+    out = render_case(load_study(EXAMPLE), "tc-ddddd-fffff", CaseSettings(formats=("yaml",)))
     path = tmp_path / "tc-ddddd-fffff.yaml"
     path.write_bytes(out.files[path.name])
     again = load_study(path)
@@ -373,14 +385,41 @@ def test_link_file_only_when_asked_and_never_inside_the_output(
     assert sorted(p.suffix for p in out.iterdir()) == [".json", ".pdf", ".yaml"]
     assert not list(tmp_path.glob("**/*.tsv"))
     link = tmp_path / "link.tsv"
-    code, _ = run([str(EXAMPLE), "-o", str(out), "--link", str(link), "--no-year"], capsys)
+    args = [str(EXAMPLE), "-o", str(out), "--link", str(link), "--no-year", "--add"]
+    code, _ = run(args, capsys)
     rows = [r.split("\t") for r in link.read_text().splitlines()[1:]]
     assert code == 0 and len(rows) == 1 and rows[0][1] == str(EXAMPLE)
     assert "exam year" not in (out / f"{rows[0][0]}.yaml").read_text()
-    audit = json.loads((out / "audit.json").read_text())
-    assert [c["status"] for c in audit["cases"]] == ["written", "written"]  # both runs listed
-    code, err = run([str(EXAMPLE), "-o", str(out), "--link", str(link)], capsys)
+    code, err = run(args, capsys)
     assert code == 2 and "never overwritten" in err
+
+
+def test_a_folder_holding_a_teaching_set_is_refused_unless_added_to(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    out = tmp_path / "out"
+    assert run([str(EXAMPLE), "-o", str(out), "--quiet"], capsys)[0] == 0
+    before = sorted(p.name for p in out.iterdir())
+    code, err = run([str(EXAMPLE), "-o", str(out), "--quiet"], capsys)
+    assert code == 2 and "holds a teaching set already (1 cases in its audit.json)" in err
+    assert "--add" in err and sorted(p.name for p in out.iterdir()) == before  # untouched
+    code, _ = run([str(EXAMPLE), "-o", str(out), "--quiet", "--add", "--format", "svg"], capsys)
+    assert code == 0
+    audit = json.loads((out / "audit.json").read_text())
+    assert [r["run"] for r in audit["runs"]] == [1, 2]
+    assert [r["formats"] for r in audit["runs"]] == [["pdf", "yaml"], ["svg"]]
+    assert [(c["run"], c["status"]) for c in audit["cases"]] == [(1, "written"), (2, "written")]
+    listed = sorted(name for c in audit["cases"] for name in c["outputs"])
+    assert listed == sorted(p.name for p in out.glob("tc-*"))  # one consistent record
+    (out / "tc-bbbbb-bbbbb.pdf").write_bytes(b"%PDF")  # a file the audit does not list
+    code, err = run([str(EXAMPLE), "-o", str(out), "--quiet", "--add"], capsys)
+    assert code == 2 and "do not agree" in err
+    assert len(json.loads((out / "audit.json").read_text())["cases"]) == 2
+    stray = tmp_path / "stray"
+    stray.mkdir()
+    (stray / "tc-bbbbb-ccccc.yaml").write_text("x")
+    code, err = run([str(EXAMPLE), "-o", str(stray), "--quiet"], capsys)
+    assert code == 2 and "holds teaching case files but no audit.json" in err
 
 
 # --- fail closed ---------------------------------------------------------------------------------
@@ -396,10 +435,19 @@ def test_an_identifier_the_scrubber_misses_stops_that_case(
     spaced = "  ".join(" ".join(word) for word in (given, family))  # "A d a  D e m o"
     data["limbs"]["left"]["segments"]["TPT"]["comment"] = f"pt {spaced} ok"
     leaky.write_text(json.dumps(data), "utf-8")
+    withheld = tmp_path / "withheld"  # by default no free text travels: nothing to find
+    code, err = run([str(tmp_path / "in"), "-o", str(withheld), "--jobs", "2", "--quiet"], capsys)
+    assert code == 0 and "3 of 3 studies written" in err
+    for path in withheld.glob("*.yaml"):
+        text = path.read_text()
+        assert not re.search(r"^\s*(comment|notes|indication):", text, re.M)
+        assert "# free text (notes, indication, comments) withheld" in text
     out = tmp_path / "out"
-    code, err = run([str(tmp_path / "in"), "-o", str(out), "--jobs", "2", "--quiet"], capsys)
+    review = tmp_path / "review.txt"
+    args = ["--jobs", "2", "--quiet", "--keep-text", "--review", str(review)]
+    code, err = run([str(tmp_path / "in"), "-o", str(out), *args], capsys)
     assert code == 2
-    assert "input 2 (" in err and ": not written: name found in the yaml output." in err
+    assert "input 2: not written: name found in the yaml output." in err
     assert "2 of 3 studies written as teaching cases, 1 failed." in err
     assert what.found_in(err) == [] == planted[tmp_path / "in" / "study-0001.yaml"].found_in(err)
     audit = json.loads((out / "audit.json").read_text())["cases"]
@@ -408,21 +456,42 @@ def test_an_identifier_the_scrubber_misses_stops_that_case(
     assert {"category": "name", "output": "yaml"} in refused[0]["refused"]
     assert not list(out.glob(f"{refused[0]['case_id']}*"))  # nothing of it written
     assert len(list(out.glob("tc-*"))) == 4  # the two others, pdf and yaml each
+    # every kept text of the written cases, and nothing else, is in the review list
+    listed = review.read_text("utf-8").splitlines()
+    assert listed[-1].startswith("# Reviewed and released by:")
+    rows = [line.split("\t") for line in listed if not line.startswith("#")]
+    written = {c["case_id"] for c in audit if c["status"] == "written"}
+    assert {case for case, _, _ in rows} == written
+    for case in written:
+        kept = yaml.safe_load((out / f"{case}.yaml").read_text("utf-8"))
+        texts = [kept["notes"], kept["exam"]["indication"]]
+        for limb in kept["limbs"].values():
+            texts += [s["comment"] for s in limb["segments"].values() if "comment" in s]
+            texts += [les["comment"] for les in limb.get("lesions", []) if "comment" in les]
+        assert sorted(t for c, _, t in rows if c == case) == sorted(texts)
+    assert sum(c["free_text"]["kept_for_review"] for c in audit) == len(rows)
 
 
 def test_a_label_layout_leaks_is_caught_in_svg_and_pdf(
     tmp_path: Path, monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]
 ) -> None:
     import diagram.drawing.layout
+    import diagram.teaching.case
     from diagram.drawing.scene import Group, Text
 
-    real = diagram.drawing.layout.layout
+    real, deidentify_ = diagram.drawing.layout.layout, diagram.teaching.case.deidentify
 
-    def leaky_layout(*args: object, **kwargs: object) -> object:
-        scene = real(*args, **kwargs)  # type: ignore[arg-type]
-        label = Text("planted", 40, 40, "Testcase Morgan", 8)
+    def leaky_deidentify(study: Study, *args: Any, **kwargs: Any) -> Any:
+        case = deidentify_(study, *args, **kwargs)  # a defect: the name stays in the study
+        patient = replace(case.study.patient, name=study.patient.name)
+        return replace(case, study=replace(case.study, patient=patient))
+
+    def leaky_layout(assessment: Any, *args: Any, **kwargs: Any) -> Any:
+        scene = real(assessment, *args, **kwargs)  # and a label shows it
+        label = Text("planted", 40, 40, str(assessment.study.patient.name), 8)
         return replace(scene, items=(*scene.items, Group("planted-group", (label,))))
 
+    monkeypatch.setattr(diagram.teaching.case, "deidentify", leaky_deidentify)
     monkeypatch.setattr(diagram.drawing.layout, "layout", leaky_layout)
     named = tmp_path / "Testcase_Morgan_2026-11-20.yaml"  # a file named after the patient
     shutil.copy(EXAMPLE, named)
@@ -430,7 +499,7 @@ def test_a_label_layout_leaks_is_caught_in_svg_and_pdf(
     code, err = run([str(named), "-o", str(out), "--format", "svg", "--format", "pdf",
                      "--jobs", "1", "--quiet"], capsys)  # fmt: skip
     assert code == 2 and "testcase" not in err.lower() and "morgan" not in err.lower()
-    assert "2026-11-20" not in err and "_[removed]" in err  # the input named, scrubbed
+    assert "2026-11-20" not in err and "input 1: not written" in err  # named by its place
     assert "name found in the svg output." in err and "name found in the pdf output." in err
     assert not list(out.glob("tc-*"))
 
@@ -448,7 +517,7 @@ def test_metadata_left_in_a_pdf_is_caught(monkeypatch: pytest.MonkeyPatch) -> No
     import diagram.teaching.clean
 
     monkeypatch.setattr(diagram.teaching.clean, "strip_pdf_info", lambda pdf: pdf)
-    out = render_case(load_study(EXAMPLE), new_case_id(), ("pdf",))
+    out = render_case(load_study(EXAMPLE), new_case_id(), CaseSettings(formats=("pdf",)))
     assert {(str(h.category), h.output) for h in out.hits} >= {("document-metadata", "pdf")}
 
 
@@ -462,8 +531,8 @@ def test_two_hundred_studies_leave_no_identifier(
     planted = write_studies(tmp_path / "in", 200)
     few = tmp_path / "few.txt"
     few.write_text("\n".join(str(p) for p in list(planted)[:20]))
-    runs = [  # all 200 in the three main formats; 20 of them in every format
-        (tmp_path / "in", ["pdf", "svg", "yaml"], tmp_path / "out", tmp_path / "link.tsv"),
+    runs = [  # all 200 as the drawing and the study file; 20 of them in every format
+        (tmp_path / "in", ["svg", "yaml"], tmp_path / "out", tmp_path / "link.tsv"),
         (few, list(TEACH_FORMATS), tmp_path / "all", tmp_path / "link-all.tsv"),
     ]
     sources: dict[str, Path] = {}

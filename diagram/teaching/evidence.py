@@ -34,21 +34,24 @@ from diagram.teaching.plain import deleet, ideographs, plain, skeleton, spelled_
 Key = tuple[Category, str]
 Needle = tuple[Category, str]
 
+
+def _set(text: str) -> frozenset[str]:
+    return frozenset(text.split())
+
+
 # words that say what a person is, not who
-_TITLES = frozenset(
-    "dr mr mrs ms miss mx prof sir dame rev fr sr jr md phd rn np pa rvt rvs mbbs frcs".split()
-)
+_TITLES = _set("dr mr mrs ms miss mx prof sir dame rev fr sr jr md phd rn np pa rvt rvs mbbs frcs")
 # name particles: a needle alone only when they are the whole family name ("Le", "Du")
-_PARTICLES = frozenset(
-    "van von der den de da di du la le del della dos das ter ten st al el bin ibn mac o".split()
+_PARTICLES = _set(
+    "van von der den de da di du la le del della dos das ter ten st al el bin ibn mac o"
 )
 # words of a lab's name that do not identify it alone
-_GENERIC_SITE = frozenset(
-    """the of and for at lab labs laboratory vascular vein clinic clinics hospital hospitals centre
-    center medical medicine health healthcare imaging department dept unit university general
-    regional community radiology diagnostic diagnostics service services ultrasound heart
-    institute trust foundation nhs saint st infirmary memorial practice surgery group associates
-    care private noninvasive non invasive""".split()
+_GENERIC_SITE = _set(
+    "the of and for at lab labs laboratory vascular vein clinic clinics hospital hospitals "
+    "centre center medical medicine health healthcare imaging department dept unit university "
+    "general regional community radiology diagnostic diagnostics service services ultrasound "
+    "heart institute trust foundation nhs saint st infirmary memorial practice surgery group "
+    "associates care private noninvasive non invasive"
 )
 # common nicknames (common practice, English usage), in plain form
 _NICKNAMES = {
@@ -114,7 +117,11 @@ def _name(value: str, category: Category) -> tuple[set[Needle], ...]:
         family, given = " ".join(parts[-1:]), " ".join(parts[:-1])
     fam = [w for w in re.findall(r"[a-z]+", plain(family)) if w not in _TITLES]
     giv = [w for w in re.findall(r"[a-z]+", plain(given)) if w not in _TITLES]
-    word, squeezed, joined, skel, spelled = set(), set(), set(), set(), set()
+    word: set[Needle] = set()
+    squeezed: set[Needle] = set()
+    joined: set[Needle] = set()
+    skel: set[Needle] = set()
+    spelled: set[Needle] = set()
     for group in (fam, giv):
         alone = [w for w in group if w not in _PARTICLES] or group
         for part in alone:
@@ -142,7 +149,10 @@ def _name(value: str, category: Category) -> tuple[set[Needle], ...]:
 
 def _code(value: str, category: Category) -> tuple[set[Needle], ...]:
     core = squeeze(plain(value))
-    word, squeezed, joined, digits = set(), set(), set(), set()
+    word: set[Needle] = set()
+    squeezed: set[Needle] = set()
+    joined: set[Needle] = set()
+    digits: set[Needle] = set()
     for part in words(plain(value)):
         if len(part) >= 4 and any(c.isdigit() for c in part):
             word.add((category, part))
@@ -198,12 +208,18 @@ def needles_of(study: Study) -> Needles:
     year = e.date.year if e.date else dt.date.today().year
     for day, cat in ((p.birth_date, Category.BIRTH_DATE), (e.date, Category.EXAM_DATE)):
         if day is not None:
-            y, m, d = f"{day.year}", f"{day.month:02d}", f"{day.day:02d}"
-            digits.update((cat, form) for form in (y + m + d, d + m + y, m + d + y))
+            yy, mm, dd = f"{day.year}", f"{day.month:02d}", f"{day.day:02d}"
+            digits.update((cat, form) for form in (yy + mm + dd, dd + mm + yy, mm + dd + yy))
     if p.birth_date is not None and year - p.birth_date.year >= 90:  # 164.514(b)(2)(i)(C)
         word.add((Category.BIRTH_DATE, str(p.birth_date.year)))
     return Needles(
-        *(tuple(sorted(s)) for s in (word, squeezed, joined, digits, skel, spelled)), year=year
+        words=tuple(sorted(word)),
+        squeezed=tuple(sorted(squeezed)),
+        joined=tuple(sorted(joined)),
+        digits=tuple(sorted(digits)),
+        skeletons=tuple(sorted(skel)),
+        spelled=tuple(sorted(spelled)),
+        year=year,
     )
 
 

@@ -13,9 +13,7 @@ category and the output only, never the value.
 
 from __future__ import annotations
 
-import hashlib
 import io
-from collections import Counter
 from collections.abc import Iterable, Iterator, Mapping
 from dataclasses import dataclass
 from typing import Any
@@ -23,7 +21,7 @@ from typing import Any
 from diagram.errors import ExportError
 from diagram.teaching.categories import Category
 from diagram.teaching.clean import PNG_CHUNKS_KEPT, CleanError, png_chunks
-from diagram.teaching.evidence import Key, Needles, evidence
+from diagram.teaching.evidence import Needles, evidence
 
 # keys of a PDF Info dictionary or XMP packet: none may be left in a teaching PDF
 _PDF_METADATA_KEYS = (
@@ -78,8 +76,19 @@ def read_svg(svg: bytes) -> Reading:
     return Reading(tuple(texts), frozenset(refused))
 
 
-def read_pdf(pdf: bytes) -> Reading:
-    """Return each page's extracted text; any document metadata is refused."""
+def _pdf_refusals(pdf: bytes) -> frozenset[Category]:
+    from pypdf import PdfReader
+
+    if any(key in pdf for key in _PDF_METADATA_KEYS):
+        return frozenset({Category.METADATA})
+    reader = PdfReader(io.BytesIO(pdf))
+    if reader.metadata or reader.xmp_metadata is not None:
+        return frozenset({Category.METADATA})
+    return frozenset()
+
+
+def read_pdf(pdf: bytes, *, text: bool = True) -> Reading:
+    """Return each page's extracted text (``text``); any document metadata is refused."""
     try:
         from pypdf import PdfReader
     except ImportError:  # no PDF is written unread
@@ -88,15 +97,13 @@ def read_pdf(pdf: bytes) -> Reading:
             "'pip install pypdf'."
         ) from None
 
-    refused: set[Category] = set()
-    if any(key in pdf for key in _PDF_METADATA_KEYS):
-        refused.add(Category.METADATA)
+    refused = _pdf_refusals(pdf)
+    if not text:
+        return Reading((), refused)
     reader = PdfReader(io.BytesIO(pdf))
-    if reader.metadata or reader.xmp_metadata is not None:
-        refused.add(Category.METADATA)
     # layout mode keeps words apart that plain extraction runs together ("duplexDemo")
     texts = tuple(page.extract_text(extraction_mode="layout") for page in reader.pages)
-    return Reading(texts, frozenset(refused))
+    return Reading(texts, refused)
 
 
 def read_png(png: bytes) -> Reading:
@@ -114,7 +121,7 @@ def _dicom_elements(ds: Any) -> Iterator[Any]:
     yield from ds.iterall()
 
 
-def read_dicom(dcm: bytes, *, source_uid: str | None) -> Reading:
+def read_dicom(dcm: bytes, *, source_uid: str | None, text: bool = True) -> Reading:
     """Return every text element of a DICOM file and the encapsulated PDF's text.
 
     Refused outright: any date or time with a value, and the source's Study Instance UID.
@@ -136,7 +143,7 @@ def read_dicom(dcm: bytes, *, source_uid: str | None) -> Reading:
                 refused.add(Category.STUDY_UID)
         elif elem.keyword == "EncapsulatedDocument":
             size = int(ds.get("EncapsulatedDocumentLength", len(value)))
-            inner = read_pdf(bytes(value[:size]))
+            inner = read_pdf(bytes(value[:size]), text=text)
             texts.extend(inner.texts)
             refused |= inner.refused
         elif vr in _DICOM_TEXT_VRS:
@@ -164,28 +171,19 @@ def read_yaml(text: bytes) -> Reading:
     return Reading((raw, *_strings(yaml.safe_load(raw))))
 
 
-def read_outputs(outputs: Mapping[str, bytes], *, source_uid: str | None) -> dict[str, Reading]:
-    """Read every output (keyed by format) as a recipient would."""
-    readings: dict[str, Reading] = {}
-    pdfs: dict[str, Reading] = {}
-    for fmt, data in outputs.items():
-        if fmt == "svg":
-            readings[fmt] = read_svg(data)
-        elif fmt == "pdf":
-            readings[fmt] = pdfs[hashlib.sha256(data).hexdigest()] = read_pdf(data)
-        elif fmt == "png":
-            readings[fmt] = read_png(data)
-        elif fmt == "dcm":
-            readings[fmt] = read_dicom(data, source_uid=source_uid)
-        elif fmt == "yaml":
-            readings[fmt] = read_yaml(data)
-        else:
-            raise ValueError(f"no reader for the output format {fmt!r}")  # a bug, not bad input
-    return readings
-
-
-def _counts(readings: Mapping[str, Reading], needles: Needles) -> dict[str, Counter[Key]]:
-    return {fmt: evidence(r.texts, needles) for fmt, r in readings.items()}
+def read_output(fmt: str, data: bytes, *, source_uid: str | None, text: bool = True) -> Reading:
+    """Read one output as a recipient would (``text``: also extract the text of PDFs)."""
+    if fmt == "svg":
+        return read_svg(data)
+    if fmt == "pdf":
+        return read_pdf(data, text=text)
+    if fmt == "png":
+        return read_png(data)
+    if fmt == "dcm":
+        return read_dicom(data, source_uid=source_uid, text=text)
+    if fmt == "yaml":
+        return read_yaml(data)
+    raise ValueError(f"no reader for the output format {fmt!r}")  # a bug, not bad input
 
 
 def scan_outputs(
@@ -199,18 +197,21 @@ def scan_outputs(
     """Scan every output and file name against the dummy drawing's; return the hits, sorted.
 
     ``dummy`` holds the same formats made from the study with a neutral identity: a finding
-    counts only where ``real`` holds it more often.
+    counts only where ``real`` holds it more often. An output whose bytes are the dummy's own
+    cannot hold more of anything, so only its refusals are read (no text extraction).
     """
-    readings = read_outputs(real, source_uid=source_uid)
-    found = _counts(readings, needles)
-    base = _counts(read_outputs(dummy, source_uid=None), needles)
     hits: set[Hit] = set()
-    for fmt, reading in readings.items():
+    for fmt, data in real.items():
+        other = dummy.get(fmt)
+        same = other == data
+        reading = read_output(fmt, data, source_uid=source_uid, text=not same)
         hits.update(Hit(cat, fmt) for cat in reading.refused)
-        extra = found[fmt] - base.get(fmt, Counter())
-        hits.update(Hit(cat, fmt) for cat, _ in extra)
-    names = list(names)
-    for (cat, _), n in evidence(names, needles).items():
-        if n:
-            hits.add(Hit(cat, "file name"))
+        if same:
+            continue
+        found = evidence(reading.texts, needles)
+        if other is not None:
+            found -= evidence(read_output(fmt, other, source_uid=None).texts, needles)
+        hits.update(Hit(cat, fmt) for cat, _ in found)
+    for cat, _ in evidence(list(names), needles):
+        hits.add(Hit(cat, "file name"))
     return tuple(sorted(hits, key=lambda h: (h.output, h.category)))

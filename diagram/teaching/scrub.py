@@ -23,11 +23,11 @@ from dataclasses import dataclass
 from functools import lru_cache
 
 from diagram.reading.study import Study
+from diagram.teaching.categories import Category
 from diagram.teaching.patterns import (
     GENERIC_RULES,
     MONTH_NUMBERS,
     SCRUB_ONLY_RULES,
-    Category,
     Rule,
     boundary,
 )
