@@ -17,7 +17,6 @@ import shutil
 import subprocess
 import sys
 import unicodedata
-from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import replace
 from pathlib import Path
@@ -27,6 +26,7 @@ import click
 import pytest
 import yaml
 from teach_generator import fold, full_width, study, write_studies
+from teach_readers import output_text
 
 from diagram.cli.teach import FORMAT_CHOICES, teach
 from diagram.errors import DiagramError
@@ -63,62 +63,6 @@ def run(args: list[str], capsys: pytest.CaptureFixture[str]) -> tuple[int, str]:
             print(line, file=sys.stderr)
         code = exc.exit_code
     return code, capsys.readouterr().err
-
-
-def pdf_text(path: Path) -> str:
-    """Return the PDF's text as poppler lays it out, having checked its document information."""
-    cmd = ["pdftotext", "-layout", str(path), "-"]
-    text = subprocess.run(cmd, check=True, capture_output=True, text=True).stdout
-    info = subprocess.run(["pdfinfo", str(path)], check=True, capture_output=True, text=True)
-    for key in ("Producer", "Creator", "CreationDate", "ModDate", "Author", "Title"):
-        assert f"\n{key}:" not in "\n" + info.stdout, key
-    assert "Metadata Stream: no" in info.stdout
-    return text
-
-
-def dicom_text(path: Path, tmp: Path) -> str:
-    """Return every DICOM element's value as text (the encapsulated PDF through poppler)."""
-    from pydicom import dcmread
-
-    ds = dcmread(path)
-    assert ds.PatientIdentityRemoved == "YES"
-    assert ds.BurnedInAnnotation == "NO"
-    parts = []
-    for elem in [*ds.file_meta.iterall(), *ds.iterall()]:
-        if elem.VR in ("DA", "DT", "TM"):
-            assert not elem.value, elem.keyword  # every date and time empty
-        if elem.keyword == "EncapsulatedDocument":
-            pdf = tmp / f"{path.stem}-inner.pdf"
-            pdf.write_bytes(bytes(elem.value[: ds.EncapsulatedDocumentLength]))
-            parts.append(pdf_text(pdf))
-        elif elem.keyword == "CodeValue":  # PS3.16 CID 7050 codes, numbers by nature
-            assert elem.value in ("113100", "113108")
-        elif elem.VR == "UI":  # long digit runs by nature: none may be the source's (2.25.…)
-            assert not str(elem.value).startswith("2.25."), elem.keyword
-        elif elem.VR not in ("OB", "OW", "UN", "SQ", "UL", "US", "SL", "SS", "FL", "FD"):
-            parts.append(str(elem.value))
-    return "\n".join(parts)
-
-
-def png_text(path: Path) -> str:
-    """Return the PNG's ancillary chunks as text; only image chunks may be there."""
-    from PIL import Image
-
-    with Image.open(path) as im:
-        assert not getattr(im, "text", {}), "PNG text chunks"
-        assert set(im.info) <= {"dpi", "gamma", "srgb", "aspect"}, im.info
-        return json.dumps({k: str(v) for k, v in im.info.items()})
-
-
-def output_text(path: Path, tmp: Path) -> tuple[str, str]:
-    """Return an output's text and the part of it a reader sees (an SVG's text nodes)."""
-    kind = path.suffix
-    readers: dict[str, Callable[[Path], str]] = {".pdf": pdf_text, ".png": png_text}
-    readers[".dcm"] = lambda p: dicom_text(p, tmp)
-    text = readers[kind](path) if kind in readers else path.read_text("utf-8")  # SVG, YAML: raw
-    if kind == ".svg":  # colours such as #555555 are not numbers anyone reads
-        return text, "\n".join(re.findall(r">([^<]+)<", text))
-    return text, text
 
 
 # --- free text ----------------------------------------------------------------------------------
@@ -565,3 +509,132 @@ def test_two_hundred_studies_leave_no_identifier(
         assert results_document(assess_study(load_study(again)), version="t", identified=False) == (
             results_document(assess_study(load_study(source)), version="t", identified=False)
         )
+
+
+# --- quiet messages -------------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    ("text", "expected"),
+    [
+        (  # an unknown key, an unknown segment, a phone number as a PRF
+            "format: 1\nMorgan: 1\nlimbs:\n  left:\n    segments:\n"
+            "      Testcase: {psv: 100}\n      CFA: {psv: 100, prf_hz: 5551234567}\n",
+            [
+                "input 1: line 2: (key): is not a known key.",
+                "input 1: line 6: limbs.left.segments.(key): is not a segment id or alias.",
+                "input 1: line 7: limbs.left.segments.CFA.prf_hz: is refused: a pulse repetition "
+                "frequency must be between 100 and 50000 Hz to be plausible.",
+            ],
+        ),
+        (  # an anchor named after the patient
+            "format: 1\nnotes: &Morgan Testcase\nexam: {indication: *Morgan}\n",
+            ["input 1: line 2: (file): uses a YAML anchor or alias …: "],
+        ),
+    ],
+)
+def test_teaching_messages_echo_no_value_of_the_study(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], text: str, expected: list[str]
+) -> None:
+    named = tmp_path / "Testcase_Morgan_1957-06-02.yaml"  # a file named after the patient
+    named.write_text(text, "utf-8")
+    code, err = run([str(named), "-o", str(tmp_path / "out"), "--quiet"], capsys)
+    assert code == 2
+    lines = err.splitlines()[:-1]  # the last: the count of cases written
+    assert len(lines) == len(expected)
+    assert all(line.startswith(start) for line, start in zip(lines, expected, strict=True))
+    for word in ("morgan", "testcase", "1957", "555"):
+        assert word not in err.lower()
+
+
+# --- the independent scan -------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    ("a", "b"),
+    [
+        ("Mueller", "Müller"),  # transliterations made equal
+        ("Soerensen", "Sørensen"),
+        ("Aase", "Åse"),
+        ("Page", "\u0420\u0430ge"),  # Cyrillic Er and A, looking like P and a
+        ("Page", "\uff30\uff41\uff47\uff45"),  # full-width letters
+        ("Ada", "A\u200bd\u200da"),  # zero-width space and joiner inside
+        ("Ivanova", "\u0418\u0432\u0430\u043d\u043e\u0432\u0430"),  # Cyrillic, transliterated
+    ],
+)
+def test_the_scan_reads_spellings_alike(a: str, b: str) -> None:
+    from diagram.teaching.plain import plain
+
+    assert plain(a) in plain(b).split()
+
+
+@pytest.mark.parametrize(
+    ("text", "category"),
+    [
+        ("seen 2026-W45-1", "date"),  # ISO 8601 week date
+        ("exame em 2 de novembro de 2026", "date"),
+        ("2026\u5e7411\u67082\u65e5", "date"),
+        ("review on 10/15", "date"),
+        ("Christmas Eve 2025", "date"),
+        ("born 04/51", "date"),
+        ("a ninety-two-year-old", "age-over-89"),  # 45 CFR 164.514(b)(2)(i)(C)
+        ("92F", "age-over-89"),
+        ("F/92", "age-over-89"),
+        ("92 anni", "age-over-89"),
+        ("born in 1934", "age-over-89"),  # exam year 2026: 92
+        ("call 555.014.2368", "phone"),
+        ("0171/555 0142", "phone"),
+        ("555\u2013014\u20132368", "phone"),
+        ("q.bart @ example.org", "e-mail"),
+        ("qbart at example dot org", "e-mail"),
+        ("https://records.example.net/p/77", "url"),
+        ("pacs7.harrowgate.org.uk", "url"),
+        ("10.20.30.40", "ip-address"),
+        ("ssn 123.45.6789", "long-number"),
+        ("record 4829130", "long-number"),
+        ("probe S/N LX93-004417", "id-code"),
+        ("plate KX19 ZPB", "id-code"),
+        ("Milbury MB4 7QT", "postcode"),
+        ("zip 90210-3321", "postcode"),
+        ("14 Rosebank Road", "place"),
+        ("51.5072, -0.1276", "place"),
+        ("Fenwick County", "place"),
+    ],
+)
+def test_the_scan_finds_each_kind_of_identifier(text: str, category: str) -> None:
+    from diagram.teaching.detect import cjk_dates, detect
+    from diagram.teaching.plain import ideographs, plain
+
+    found = {str(c) for c, _ in [*detect(plain(text), 2026), *cjk_dates(ideographs(text))]}
+    assert category in found
+
+
+@pytest.mark.parametrize(
+    "text",
+    [
+        "Left calf claudication at 100 m",
+        "PSV 385 cm/s, EDV 62, Vr 4.18, ABI 0.62 and TBI 0.45",
+        "Occlusion 6 cm, reconstitutes at POP-BK; 3/4 of the SFA",
+        "may 2 stents be needed; 50-74% band",
+        "pressures 142/136 and 120/118 mmHg, 120mmHg at the ankle",
+        "Polak 2004 et al; Jager 1985",
+        "20/20 vision, walks 200m",
+    ],
+)
+def test_the_scan_leaves_clinical_text_alone(text: str) -> None:
+    from diagram.teaching.detect import detect
+    from diagram.teaching.plain import plain
+
+    assert detect(plain(text), 2026) == []
+
+
+def test_the_sheet_says_free_text_was_withheld() -> None:
+    base = load_study(EXAMPLE)
+    out = render_case(base, "tc-bbbbb-ccccc", CaseSettings(formats=("svg", "yaml")))
+    svg = out.files["tc-bbbbb-ccccc.svg"].decode()
+    assert ">Free text<" in svg and ">withheld<" in svg
+    kept = render_case(base, "tc-bbbbb-ccccc", CaseSettings(formats=("svg",), keep_text=True))
+    assert ">kept, to be reviewed<" in kept.files["tc-bbbbb-ccccc.svg"].decode()
+    study_file = out.files["tc-bbbbb-ccccc.yaml"].decode()
+    assert "# free text (notes, indication, comments) withheld" in study_file
+    assert base.notes and fold(base.notes) not in fold(study_file)

@@ -131,8 +131,11 @@ def _name(value: str, category: Category) -> tuple[set[Needle], ...]:
                 spelled.add((category, part))
             if len(part) >= 5:
                 squeezed.update({(category, part), (category, part[::-1])})
-                if len(skeleton(part)) >= 4:
+                if len(skeleton(part)) >= (4 if len(part) < 6 else 3):
                     skel.add((category, skeleton(part)))
+            if len(part) >= 8:  # a long name split over two fields: "Kowal" … "czyk"
+                word.update((category, part[:k]) for k in range(5, len(part) - 2))
+                word.update((category, part[-k:]) for k in range(5, len(part) - 2))
         for i in range(len(group)):  # run together: "vanderberg", "okonkwobellamy"
             for j in range(i + 2, len(group) + 1):
                 run = "".join(group[i:j])
@@ -161,6 +164,10 @@ def _code(value: str, category: Category) -> tuple[set[Needle], ...]:
     if len(core) >= 5:
         squeezed.add((category, core))
         joined.add((category, core))
+        for k in range(5, len(core)):  # an id split over two fields: "KX-482" … "913"
+            for piece in (core[:k], core[-k:]):
+                if sum(c.isdigit() for c in piece) >= 3:
+                    squeezed.add((category, piece))
     figures = "".join(c for c in core if c.isdigit())
     if len(figures) >= 6:
         digits.add((category, figures))

@@ -65,6 +65,7 @@ _PAIRS = re.compile(r"(?<=[auo])e|(?<=a)a")  # ue ➜ u, oe ➜ o, ae ➜ a, aa 
 _LEET = str.maketrans("013457890$@", "oleastbggsa")
 _LEET_I = str.maketrans("1!|", "iii")
 _VOWELS = re.compile(r"[aeiouy]+")
+_LETTERS = re.compile(r"[^\W\d_]+")
 _REPEATS = re.compile(r"(.)\1+")
 
 
@@ -85,10 +86,24 @@ def _char(ch: str) -> str:
     return spelled if spelled.strip() or not text.strip() else " "
 
 
+def _word(m: re.Match[str]) -> str:
+    """Return a word's plain reading; a word with no ASCII letter gets two: read by looks
+    (a look-alike attack: Cyrillic "Раде" for Page) and transliterated (Иванова: Ivanova)."""
+    word = m.group(0)
+    looks = "".join(_char(c) for c in word)
+    if any(c.isascii() for c in word):
+        return looks
+    from anyascii import anyascii
+
+    spelled = anyascii(unicodedata.normalize("NFKC", word))
+    return looks if spelled.lower() == looks.lower() else f"{looks} {spelled}"
+
+
 def plain(text: str) -> str:
     """Return ``text`` in the scan's plain form (ASCII, lower case, transliterations equal)."""
-    ascii_text = text if text.isascii() else "".join(_char(c) for c in text)
-    return _PAIRS.sub("", ascii_text.lower())
+    if not text.isascii():
+        text = "".join(_char(c) for c in _LETTERS.sub(_word, text))
+    return _PAIRS.sub("", text.lower())
 
 
 def ideographs(text: str) -> str:
