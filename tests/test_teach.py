@@ -638,3 +638,12 @@ def test_the_sheet_says_free_text_was_withheld() -> None:
     study_file = out.files["tc-bbbbb-ccccc.yaml"].decode()
     assert "# free text (notes, indication, comments) withheld" in study_file
     assert base.notes and fold(base.notes) not in fold(study_file)
+
+
+def test_an_input_argument_is_named_by_its_place(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    empty = tmp_path / "Testcase_Morgan"  # a folder named after the patient, with no study
+    empty.mkdir()
+    code, err = run([str(EXAMPLE), str(empty), "-o", str(tmp_path / "out")], capsys)
+    assert (code, err) == (2, "argument 2: (file): is a folder with no study files in it.\n")

@@ -98,8 +98,10 @@ def teach(
     what kinds of identifier were removed per case. A folder that holds a teaching set already
     is refused unless --add is given.
     """
+    from dataclasses import replace
+
     from diagram.batch.run import default_jobs, expand_inputs, show_progress
-    from diagram.errors import ExportError
+    from diagram.errors import ExportError, InputError
     from diagram.teaching.batch import TeachResult, TeachSettings, TeachTask, run_teach
     from diagram.teaching.case import new_case_id
     from diagram.teaching.records import (
@@ -114,7 +116,13 @@ def teach(
     if review is not None and not keep_text:
         raise click.UsageError("--review names the review list of --keep-text; give both.")
 
-    paths = expand_inputs(inputs)
+    try:
+        paths = expand_inputs(inputs)
+    except InputError as exc:  # name an input by its place: a file name may name the patient
+        place = {str(p): k for k, p in enumerate(inputs, start=1)}
+        raise InputError(
+            [replace(p, file=f"argument {place.get(p.file, '?')}") for p in exc.problems]
+        ) from None
     inside = [p for p in paths if p.resolve().is_relative_to(output.resolve())]
     if inside:  # identified studies must not sit among the teaching files
         raise ExportError(
