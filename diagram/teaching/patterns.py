@@ -23,7 +23,6 @@ class Rule:
 
     category: Category
     regex: re.Pattern[str]
-    scan: bool = True  # also looked for in outputs (False: removed from free text only)
     check: Callable[[re.Match[str]], bool] | None = None
 
 
@@ -177,18 +176,16 @@ GENERIC_RULES: tuple[Rule, ...] = (
     ),
 )
 
-# removed from free text, but not looked for in outputs (the sheet's own words would trip them)
+# further free-text rules: a month named alone, a short phone number after its label
 SCRUB_ONLY_RULES: tuple[Rule, ...] = (
     Rule(
         Category.DATE,
         re.compile(boundary("|".join(_MONTH_WORDS))),
-        scan=False,
     ),
     Rule(  # a telephone or fax number after its label, however short
         Category.PHONE,
         re.compile(
             boundary(r"tel|telephone|phone|fax|ph|mobile|cell") + r"\.?:?\s*\+?\d[\d ().\-]{4,}\d"
         ),
-        scan=False,
     ),
 )
