@@ -147,6 +147,7 @@ def draw(
         from diagram.reading.load import load_prior, load_study
 
         study = load_study(studies[0])
+        _show_import_notes(study.import_notes)
         earlier = load_prior(study, prior)
         drawing = draw_study(
             study,
@@ -181,8 +182,27 @@ def draw(
 
 
 def _is_study_file(path: Path) -> bool:
-    """Return True for a path that names one study file (not a folder, not a list of paths)."""
-    return path.suffix.lower() in (".yaml", ".yml", ".json") and not _is_folder(str(path))
+    """Return True for a path that names one study file (not a folder, not a list of paths).
+
+    A structured report (DICOM SR) counts, recognised by its suffix or by its content.
+    """
+    if _is_folder(str(path)):
+        return False
+    if path.suffix.lower() in (".yaml", ".yml", ".json", ".dcm"):
+        return True
+    from diagram.reading.sr import looks_like_dicom
+
+    try:
+        with open(path, "rb") as handle:
+            return looks_like_dicom(handle.read(132))
+    except OSError:
+        return False
+
+
+def _show_import_notes(notes: tuple[str, ...]) -> None:
+    """Print what an imported report held that could not be placed, one line per item."""
+    for line in notes:
+        click.echo(_printable(line), err=True)
 
 
 def _check_dpi(dpi: float | None, formats: tuple[str, ...]) -> None:
@@ -254,6 +274,7 @@ def check(
     from diagram.reading.load import load_prior, load_study
 
     current = load_study(study)
+    _show_import_notes(current.import_notes)
     assessment = assess_study(
         current, criteria=criteria, target=target, prior=load_prior(current, prior)
     )
@@ -305,9 +326,11 @@ def schema(results: bool) -> None:
 def _register() -> None:
     """Add the commands defined beside their stages (their heavy imports stay inside them)."""
     from diagram.cli.design import COMMANDS
+    from diagram.cli.importing import import_report
     from diagram.cli.teach import teach
 
     cli.add_command(teach)
+    cli.add_command(import_report)
     for command in COMMANDS:
         cli.add_command(command)
 

@@ -417,6 +417,10 @@ class Checker:
                 for key in _MEASURED if flag == "not_assessed" else ("psv", "edv", "shift_hz"):
                     if key in sample:
                         self.refuse(sample, loc, key, f"is refused: {why}.")
+        repeats = sample.get("samples")
+        for i, repeat in enumerate(repeats if isinstance(repeats, list) else ()):
+            if isinstance(repeat, dict):
+                self.sample((*loc, "samples", i), repeat, noun)
 
     def extent(self, loc: Loc, seg: str, item: dict[str, object]) -> None:
         """Check that an extent starts inside ``seg`` and ends inside the limb."""

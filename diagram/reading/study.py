@@ -68,6 +68,7 @@ class SegmentFinding(Sample):
     """The sample recorded for a whole segment."""
 
     id: str = ""
+    samples: tuple[Sample, ...] = ()  # repeated measurements in order; the fields above are graded
 
 
 @dataclass(frozen=True)
@@ -184,6 +185,7 @@ class Study:
     prior: str | None = None
     notes: str | None = None
     format: int = 1
+    import_notes: tuple[str, ...] = ()  # what an imported report held that could not be placed
 
     def limb(self, side: Side) -> Limb:
         """Return the findings of one leg (empty when the file gives none)."""
