@@ -45,8 +45,9 @@ _LIMB: Spec = {
     "lesions": [_LESION],
     "stents": [dict.fromkeys(("from", "to", "from_cm", "length_cm"), True)],
     "grafts": [{"conduit": True, "from": True, "to": True, "samples": {"*": _SAMPLE}}],
+    "presentation": True,
 }
-_NUMBERS: Spec = dict.fromkeys(("pt", "dp", "toe"), True)
+_NUMBERS: Spec = dict.fromkeys(("pt", "dp", "toe", "tcpo2"), True)
 ALLOWED: Spec = {
     "format": True,
     "patient": {"id": True, "sex": True},  # the id is the case id
