@@ -686,7 +686,9 @@ def lit(value: float) -> str:
 def test_sample_numbers_outside_their_plausible_range_are_refused(
     key: str, value: float, rule: str | None
 ) -> None:
-    text = one_segment(f"psv: 100, {key}: {lit(value)}")
+    # a shift stands for the PSV: given with its frequency and angle, without a PSV
+    others = "f0_mhz: 20, angle: 0" if key == "shift_hz" else "psv: 100"
+    text = one_segment(f"{others}, {key}: {lit(value)}")
     if rule is None:
         load_study_text(text, "mem.yaml", ".yaml")
         return
