@@ -214,7 +214,8 @@ def test_a_bad_body_gets_its_problems_in_the_loaders_words(
         headers = {**AUTH, "content-type": "application/json"}
         for path in ("/api/assess", "/api/preview", "/api/draw"):
             answer = c.post(path, content=body, headers=headers)
-            assert answer.status_code == 422, (path, answer.text)
+            # the page's live round trip answers problems with 200, the other routes with 422
+            assert answer.status_code == (200 if path == "/api/preview" else 422), answer.text
             problems = answer.json()["problems"]
             assert problems
             for problem in problems:
@@ -247,14 +248,16 @@ def _post_tree(c: TestClient, tree: Any) -> int | None:
     statuses = []
     for path in ("/api/assess", "/api/preview"):
         answer = c.post(path, content=body, headers=headers)
-        assert answer.status_code in (200, 413, 422), answer.text
+        assert answer.status_code in (200, 422), answer.text
         data = answer.json()
-        if answer.status_code != 200:
-            assert data["problems"]
+        if "problems" in data:
+            assert data["problems"] and "svg" not in data
             assert all("\n" not in p["message"] for p in data["problems"])
-        elif path == "/api/preview":
-            assert data["svg"].startswith("<svg") and data["results"]["results_format"] == 1
-        statuses.append(answer.status_code)
+            statuses.append(422)
+        else:
+            if path == "/api/preview":
+                assert data["svg"].startswith("<svg") and data["results"]["results_format"] == 1
+            statuses.append(answer.status_code)
     assert statuses[0] == statuses[1]
     return statuses[0]
 

@@ -13,7 +13,8 @@ Routes (all but the page and its two files answer JSON or a file)::
     GET  /static/editor.js     its script       GET /static/editor.css  its style
     GET  /api/study            the opened study as file data, the scan order, the file name
     POST /api/assess           study in: the results document, or the problems
-    POST /api/preview          study in: page 1 of the sheet as SVG with hooks, and the results
+    POST /api/preview          study in: page 1 of the sheet as SVG with hooks, and the results;
+                               or the problems, also with status 200 (the page's live round trip)
     POST /api/draw?format=F    study in: the sheet as svg, pdf, png, dcm or json (a download)
     POST /api/locate           {side, segment, x, y, map_box}: how far into the segment, cm
     POST /api/save             {study, name?, confirm?}: written atomically; 409 to confirm
@@ -190,10 +191,12 @@ def make_app(edited: EditedStudy, token: str, hosts: frozenset[str]) -> ASGIApp:
             return refuse(err)
 
     def preview(request: Request, body: bytes) -> Response:
+        # Problems are the normal outcome of typing, so the page's own round trip answers them
+        # with 200 (a browser logs every 4xx answer as an error in its console).
         try:
             return _json(study_edit.preview(study_of(body), edited))
         except StudyError as err:
-            return refuse(err)
+            return refuse(err, 200)
 
     def draw(request: Request, body: bytes) -> Response:
         fmt = request.query_params.get("format", "svg")

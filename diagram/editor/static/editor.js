@@ -66,7 +66,7 @@
     }
     const data = await response.json();
     if (seq !== state.seq) return;  // a newer change is on its way
-    if (response.ok) {
+    if (response.ok && data.svg) {
       showMap(data.svg);
       state.mapBox = data.map_box;
       state.results = data.results;
@@ -197,7 +197,7 @@
   }
 
   function fillLesions() {
-    const box = $("#lesions");
+    const box = $("#lesion-list");
     box.textContent = "";
     const { side } = current();
     const limb = limbOf(side, false);
@@ -228,7 +228,7 @@
     limb.lesions.push(lesion);
     fillLesions();
     changed();
-    const rows = $$("#lesions fieldset");
+    const rows = $$("#lesion-list fieldset");
     const last = rows[rows.length - 1];
     if (last) $('[data-field="length_cm"]', last).focus();
   }
@@ -309,7 +309,7 @@
     fillList($("#segment-warnings"), mine.map((w) => w.message));
     fillList($("#all-warnings"), res.warnings.map((w) => `${w.side ? w.side + " " : ""}${w.segment ? w.segment + ": " : ""}${w.message}`));
     showLegs(res);
-    $("#caution").textContent = res.caution;
+    $("#page-caution").textContent = res.caution;
   }
 
   function fillList(list, lines) {
@@ -341,10 +341,12 @@
         for (const level of plan.levels || []) {
           rows.push(`${level.level}: ${bandLabel(level.worst_band)}, ${level.diseased_cm} cm diseased, ${level.occluded_cm} cm occluded`);
         }
-        if (plan.runoff_score !== undefined && plan.runoff_score !== null) rows.push(`runoff score ${plan.runoff_score} (${plan.runoff_basis})`);
-        for (const key of ["fp_grade", "ip_grade", "glass_stage", "tasc_fp"]) {
-          if (plan[key] !== undefined && plan[key] !== null) rows.push(`${key.replace("_", " ")} ${plan[key]}`);
-        }
+        const given = (key) => plan[key] !== undefined && plan[key] !== null;
+        if (given("runoff_score")) rows.push(`runoff score ${plan.runoff_score} (${plan.runoff_basis})`);
+        if (given("fp_grade")) rows.push(`GLASS FP${plan.fp_grade}`);
+        if (given("ip_grade")) rows.push(`GLASS IP${plan.ip_grade}${given("target") ? ` (target ${plan.target})` : ""}`);
+        if (given("stage")) rows.push(`GLASS stage ${plan.stage} (${plan.stage_basis})`);
+        if (given("tasc_fp")) rows.push(`TASC II FP ${plan.tasc_fp}`);
       }
       const list = document.createElement("ul");
       fillList(list, rows.length ? rows : ["nothing recorded"]);
@@ -400,7 +402,7 @@
 
   function fillStatic() {
     $("#file-name").textContent = state.name;
-    for (const el of $$("#form-pane [data-path]")) if (!el.closest("#lesions")) writeInput(el, pathGet(el.dataset.path));
+    for (const el of $$("#form-pane [data-path]")) if (!el.closest("#lesion-list")) writeInput(el, pathGet(el.dataset.path));
   }
 
   // --- saving and exporting ---------------------------------------------------------------
@@ -464,7 +466,7 @@
       const sample = sampleOf(true);
       setIn(sample, el.dataset.field, readInput(el));
       changed();
-    } else if (el.closest("#lesions")) {
+    } else if (el.closest("#lesion-list")) {
       const i = Number(el.closest("fieldset").dataset.lesion);
       const lesion = limbOf(current().side, true).lesions[i];
       setIn(lesion, el.dataset.field, readInput(el));
