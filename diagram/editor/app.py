@@ -140,21 +140,11 @@ def api(handler: Handler) -> Callable[[Request], Awaitable[Response]]:
 
     async def endpoint(request: Request) -> Response:
         if not _is_json(request):
-            return _json(
-                {"problems": [{"field": "", "message": "send the study as application/json."}]}, 415
-            )
+            return _problem("send the study as application/json.", 415)
         try:
             body = await _body(request)
         except TooLarge:
-            limit = f"{MAX_BODY} bytes"
-            return _json(
-                {
-                    "problems": [
-                        {"field": "", "message": f"the request is over the size limit ({limit})."}
-                    ]
-                },
-                413,
-            )
+            return _problem(f"the request is over the size limit ({MAX_BODY} bytes).", 413)
         return await run_in_threadpool(handler, request, body)
 
     return endpoint
@@ -162,103 +152,113 @@ def api(handler: Handler) -> Callable[[Request], Awaitable[Response]]:
 
 def make_app(edited: EditedStudy, token: str, hosts: frozenset[str]) -> ASGIApp:
     """Return the editor's ASGI application for one study, guarded by ``token`` and ``hosts``."""
+    handlers = _Handlers(edited, token)
+    routes = [
+        Route("/", handlers.page, methods=["GET"]),
+        Route("/static/{name}", handlers.static, methods=["GET"]),
+        Route("/api/study", _threaded(handlers.opened), methods=["GET"]),
+        Route("/api/assess", api(handlers.assess), methods=["POST"]),
+        Route("/api/preview", api(handlers.preview), methods=["POST"]),
+        Route("/api/draw", api(handlers.draw), methods=["POST"]),
+        Route("/api/locate", api(handlers.locate), methods=["POST"]),
+        Route("/api/save", api(handlers.save), methods=["POST"]),
+    ]
+    return Guard(Starlette(routes=routes), token, hosts)
 
-    def refuse(err: DiagramError, status: int = 422) -> Response:
-        return _json({"problems": study_edit.problems_data(err, edited.name)}, status)
 
-    def study_of(body: bytes) -> Any:
-        return study_edit.check_body(body, edited.name)
+def _problem(message: str, status: int, field: str = "") -> Response:
+    return _json({"problems": [{"field": field, "message": message}]}, status)
 
-    async def page(request: Request) -> Response:
+
+class _Handlers:
+    """The routes' work for one edited study (the API handlers run in worker threads)."""
+
+    def __init__(self, edited: EditedStudy, token: str) -> None:
+        self.edited = edited
+        self.token = token
+
+    def refuse(self, err: DiagramError, status: int = 422) -> Response:
+        return _json({"problems": study_edit.problems_data(err, self.edited.name)}, status)
+
+    def study_of(self, body: bytes) -> Any:
+        return study_edit.check_body(body, self.edited.name)
+
+    async def page(self, request: Request) -> Response:
         text = resources.files("diagram.editor").joinpath("static/editor.html").read_text("utf-8")
-        text = text.replace("{{token}}", token)
+        text = text.replace("{{token}}", self.token)
         return Response(text, media_type="text/html", headers=SECURITY_HEADERS)
 
-    async def static(request: Request) -> Response:
+    async def static(self, request: Request) -> Response:
         name = request.path_params["name"]
-        if name not in STATIC:
+        if name not in STATIC:  # a fixed list: no path from the request reaches the disk
             return _plain(404, "not found.")
         data = resources.files("diagram.editor").joinpath(f"static/{name}").read_bytes()
         return Response(data, media_type=STATIC[name], headers=SECURITY_HEADERS)
 
-    def opened(request: Request) -> Response:
-        return _json(_opened(edited))
+    def opened(self, request: Request) -> Response:
+        return _json(_opened(self.edited))
 
-    def assess(request: Request, body: bytes) -> Response:
+    def assess(self, request: Request, body: bytes) -> Response:
         try:
-            return _json(study_edit.results(study_of(body), edited))
+            return _json(study_edit.results(self.study_of(body), self.edited))
         except StudyError as err:
-            return refuse(err)
+            return self.refuse(err)
 
-    def preview(request: Request, body: bytes) -> Response:
+    def preview(self, request: Request, body: bytes) -> Response:
         # Problems are the normal outcome of typing, so the page's own round trip answers them
         # with 200 (a browser logs every 4xx answer as an error in its console).
         try:
-            return _json(study_edit.preview(study_of(body), edited))
+            return _json(study_edit.preview(self.study_of(body), self.edited))
         except StudyError as err:
-            return refuse(err, 200)
+            return self.refuse(err, 200)
 
-    def draw(request: Request, body: bytes) -> Response:
+    def draw(self, request: Request, body: bytes) -> Response:
         fmt = request.query_params.get("format", "svg")
         if fmt not in EXPORTS:
-            msg = f"format {fmt!r} is not one of {', '.join(EXPORTS)}."
-            return _json({"problems": [{"field": "format", "message": msg}]}, 400)
+            return _problem(f"format {fmt!r} is not one of {', '.join(EXPORTS)}.", 400, "format")
         try:
-            data = study_edit.export_bytes(study_of(body), edited, fmt)
+            data = study_edit.export_bytes(self.study_of(body), self.edited, fmt)
         except DiagramError as err:
-            return refuse(err)
+            return self.refuse(err)
         media, suffix = EXPORTS[fmt]
-        stem = edited.path.stem if edited.path is not None else "new-study"
+        path = self.edited.path
+        stem = path.stem if path is not None else "new-study"
         disposition = f'attachment; filename="{_ascii_name(stem)}{suffix}"'
         headers = {**SECURITY_HEADERS, "content-disposition": disposition}
         return Response(data, media_type=media, headers=headers)
 
-    def locate(request: Request, body: bytes) -> Response:
+    def locate(self, request: Request, body: bytes) -> Response:
         try:
             where = _locate_request(body)
             cm = study_edit.locate(
-                edited, where["side"], where["segment"], where["point"], where["map_box"]
+                self.edited, where["side"], where["segment"], where["point"], where["map_box"]
             )
         except StudyError as err:
-            return refuse(err, 400)
+            return self.refuse(err, 400)
         return _json({"from_cm": cm})
 
-    def save(request: Request, body: bytes) -> Response:
+    def save(self, request: Request, body: bytes) -> Response:
         try:
             envelope = json.loads(body)
         except (ValueError, RecursionError):
-            return _json(
-                {"problems": [{"field": "", "message": "the request is not valid JSON."}]}, 400
-            )
+            return _problem("the request is not valid JSON.", 400)
         if not isinstance(envelope, dict) or not isinstance(envelope.get("study"), dict):
-            return _json({"problems": [{"field": "", "message": 'send {"study": {...}}.'}]}, 400)
+            return _problem('send {"study": {...}}.', 400)
         name, confirm = envelope.get("name"), envelope.get("confirm") is True
         if name is not None and not isinstance(name, str):
-            return _json({"problems": [{"field": "name", "message": "a file name is text."}]}, 400)
+            return _problem("a file name is text.", 400, "name")
+        edited = self.edited
         with edited.lock:
             try:
                 target = study_edit.save_target(edited, name, confirm)
-                study = study_of(json.dumps(envelope["study"], ensure_ascii=False).encode("utf-8"))
+                study = self.study_of(json.dumps(envelope["study"], ensure_ascii=False).encode())
                 written = study_edit.save(study, edited, target)
             except SaveConflict as err:
-                return _json(
-                    {"conflict": True, "problems": study_edit.problems_data(err, edited.name)}, 409
-                )
+                problems = study_edit.problems_data(err, edited.name)
+                return _json({"conflict": True, "problems": problems}, 409)
             except DiagramError as err:
-                return refuse(err)
+                return self.refuse(err)
         return _json({"saved": written.name, "folder": str(written.parent)})
-
-    routes = [
-        Route("/", page, methods=["GET"]),
-        Route("/static/{name}", static, methods=["GET"]),
-        Route("/api/study", _threaded(opened), methods=["GET"]),
-        Route("/api/assess", api(assess), methods=["POST"]),
-        Route("/api/preview", api(preview), methods=["POST"]),
-        Route("/api/draw", api(draw), methods=["POST"]),
-        Route("/api/locate", api(locate), methods=["POST"]),
-        Route("/api/save", api(save), methods=["POST"]),
-    ]
-    return Guard(Starlette(routes=routes), token, hosts)
 
 
 def _threaded(handler: Callable[[Request], Response]) -> Callable[[Request], Awaitable[Response]]:
