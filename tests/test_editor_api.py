@@ -95,6 +95,13 @@ def test_every_api_call_needs_the_token(client: TestClient, path: str) -> None:
     assert client.post(f"{path}?token=x{TOKEN}", json={"format": 1}).status_code == 403
 
 
+def test_a_websocket_is_refused(client: TestClient) -> None:
+    from starlette.websockets import WebSocketDisconnect
+
+    with pytest.raises(WebSocketDisconnect), client.websocket_connect(f"/?token={TOKEN}"):
+        pass
+
+
 def test_token_twice_in_the_query_is_refused(client: TestClient) -> None:
     assert client.get(f"/api/study?token={TOKEN}&token={TOKEN}").status_code == 403
 

@@ -69,6 +69,9 @@ class Guard:
         self.origins = frozenset(f"http://{h}" for h in hosts)
 
     async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
+        if scope["type"] == "websocket":  # the editor has none: refused before any route
+            await send({"type": "websocket.close", "code": 1008})
+            return
         if scope["type"] != "http":
             await self.app(scope, receive, send)  # lifespan
             return
