@@ -180,7 +180,7 @@ def gallery_svg(
     from diagram.pipeline import assess_study
     from diagram.reading.load import load_study_text
 
-    st = style or default_style()
+    style = style or default_style()
     tpl = template or load_template()
     side = tpl.sides[0]
     covered = set(tpl.vessels)
@@ -190,11 +190,11 @@ def gallery_svg(
     )
     assessment = assess_study(study, prior=earlier)
     map_scene = layout(
-        assessment, tpl, page="map", version=__version__, generated_note=SPECIMEN_NOTE, style=st
+        assessment, tpl, page="map", version=__version__, generated_note=SPECIMEN_NOTE, style=style
     )
     width, height = PAGE_PT["letter" if page == "letter" else "a4"]
     title = "Style gallery" + (f" — {lab_name}" if lab_name else "")
-    items, bands = _panel(st, title, width)
+    items, bands = _panel(style, title, width)
     page_rect = Rect("gallery-page", 0, 0, width, height, fill="#FFFFFF")
     whole = Box(0, 0, width, height)
     panel = Scene(
@@ -202,7 +202,7 @@ def gallery_svg(
         width_pt=width,
         height_pt=height,
         unit="mm" if page != "letter" else "in",
-        font_family=st.font_family,
+        font_family=style.font_family,
         bands=tuple(bands),
         items=(page_rect, *items),
         map_box=whole,
@@ -228,15 +228,26 @@ def write_gallery(
     profile: LabProfile | None = None,
     *,
     template: str | Path | None = None,
+    overwrite: bool = False,
 ) -> Path:
-    """Write the gallery of the profile's style (the default style without one) to ``out``."""
+    """Write the gallery of the profile's style (the default style without one) to ``out``.
+
+    An existing file at ``out`` is refused unless ``overwrite``.
+    """
     from diagram.drawing.template.mapfile import load_template
-    from diagram.output.export import Drawing, ExportOptions, export, format_for
+    from diagram.output.export import (
+        Drawing,
+        ExportOptions,
+        export,
+        format_for,
+        refuse_existing,
+    )
 
     path = Path(out)
     fmt = format_for(path)
     if fmt not in FORMATS:
         raise ExportError(f"{path}: the gallery is written as {', '.join(FORMATS)}, not {fmt}.")
+    refuse_existing(path, overwrite)
     chosen = template if template is not None else (profile.template if profile else None)
     svg = gallery_svg(
         profile.style if profile else None,
@@ -244,4 +255,5 @@ def write_gallery(
         lab_name=profile.lab_name if profile else None,
         page=profile.page if profile else None,
     )
-    return export(Drawing(svg=svg, results={}), path, fmt, ExportOptions(png_dpi=150.0))
+    options = ExportOptions(png_dpi=150.0)
+    return export(Drawing(svg=svg, results={}), path, fmt, options, overwrite=overwrite)
