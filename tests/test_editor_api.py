@@ -615,3 +615,22 @@ def test_the_command_says_how_to_install_what_it_misses(
         main(["edit", "--no-browser"])
     assert stop.value.code == 1
     assert "pip install 'limbchart[edit]' (uvicorn missing)" in capsys.readouterr().err
+
+
+def test_a_structured_report_opens_and_is_saved_as_a_new_study_file(tmp_path: Path) -> None:
+    report = tmp_path / "bilateral.dcm"
+    shutil.copy(EXAMPLES / "sr" / "bilateral.dcm", report)
+    before = report.read_bytes()
+    with client_for(open_study(report)) as c:
+        data = opened(c)
+        assert data["new"] and data["name"] == "bilateral.yaml"
+        assert data["study"]["limbs"]  # the report's velocities, placed by segment
+        answer = c.post("/api/assess", json=data["study"], headers=AUTH)
+        assert answer.status_code == 200
+        assert answer.json()["limbs"] == expected_results(report)["limbs"]
+        unnamed = c.post("/api/save", json={"study": data["study"]}, headers=AUTH)
+        assert unnamed.status_code == 422  # never written over the report
+        body = {"study": data["study"], "name": "bilateral.yaml"}
+        assert c.post("/api/save", json=body, headers=AUTH).status_code == 200
+    assert report.read_bytes() == before
+    assert expected_results(tmp_path / "bilateral.yaml")["limbs"] == answer.json()["limbs"]

@@ -26,6 +26,7 @@ import hmac
 import json
 from collections.abc import Awaitable, Callable, MutableMapping
 from importlib import resources
+from pathlib import Path
 from typing import Any
 from urllib.parse import parse_qs
 
@@ -224,8 +225,7 @@ class _Handlers:
         except DiagramError as err:
             return self.refuse(err)
         media, suffix = EXPORTS[fmt]
-        path = self.edited.path
-        stem = path.stem if path is not None else "new-study"
+        stem = Path(self.edited.name).stem
         disposition = f'attachment; filename="{_ascii_name(stem)}{suffix}"'
         headers = {**SECURITY_HEADERS, "content-disposition": disposition}
         return Response(data, media_type=media, headers=headers)

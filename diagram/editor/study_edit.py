@@ -54,15 +54,14 @@ class EditedStudy:
     prior: Study | None = None
     template: str | Path | None = None
     page: str = "a4"
-    data: dict[str, Any] = field(
-        default_factory=dict
-    )  # the study as file data, as last opened or saved
+    suggested: str = "new-study.yaml"  # the name a first save proposes when ``path`` is None
+    data: dict[str, Any] = field(default_factory=dict)  # as file data, as opened or last saved
     lock: threading.Lock = field(default_factory=threading.Lock, repr=False)
 
     @property
     def name(self) -> str:
         """Return the name messages use for the study (its file name, or "new study")."""
-        return self.path.name if self.path is not None else "new-study.yaml"
+        return self.path.name if self.path is not None else self.suggested
 
 
 def open_study(path: Path | None) -> EditedStudy:
@@ -75,15 +74,24 @@ def open_study(path: Path | None) -> EditedStudy:
     if path is None:
         return EditedStudy(None, Path.cwd(), data=dict(NEW_STUDY))
     path = path.resolve()
-    if path.suffix.lower() not in STUDY_SUFFIXES:
-        problem = Problem(
-            str(path), None, "", None, "is not a study file: give a .yaml, .yml or .json name."
-        )
-        raise StudyError([problem])
     if not path.exists():
+        if path.suffix.lower() not in STUDY_SUFFIXES:
+            rule = "names no file; a new study file ends in .yaml, .yml or .json."
+            raise StudyError([Problem(str(path), None, "", None, rule)])
         return EditedStudy(path, path.parent, data=dict(NEW_STUDY))
-    study = load_study(path)
-    return EditedStudy(path, path.parent, prior=load_prior(study), data=study_data(study))
+    study = load_study(path)  # a study file, or the scanner's structured report
+    data = study_data(study)
+    if path.suffix.lower() in STUDY_SUFFIXES and not _is_dicom(path):
+        return EditedStudy(path, path.parent, prior=load_prior(study), data=data)
+    # a structured report is never written over: its study is saved as a study file beside it
+    return EditedStudy(None, path.parent, suggested=f"{path.stem}.yaml", data=data)
+
+
+def _is_dicom(path: Path) -> bool:
+    from diagram.reading import sr
+
+    with open(path, "rb") as handle:
+        return sr.looks_like_dicom(handle.read(132))
 
 
 def check_body(body: bytes, name: str) -> Study:
