@@ -437,9 +437,9 @@ def test_tables_flow_over_pages_row_by_row() -> None:
 def test_pdf_from_svgs_makes_one_page_per_svg() -> None:
     from pypdf import PdfReader
 
-    from diagram.output.export import _use_shipped_fonts
+    from diagram.output.fonts import use_shipped_fonts
 
-    _use_shipped_fonts()
+    use_shipped_fonts()
     svgs = render_pages(sheet("clti-multilevel"))
     letter = render_pages(sheet("clti-multilevel", "letter"))
     data = pdf_from_svgs([*svgs, letter[0]])
