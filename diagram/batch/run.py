@@ -134,14 +134,20 @@ def draw_one(task: BatchTask) -> BatchResult:
     this call already wrote are removed again, so a study leaves all its files or none (a file it
     replaced under ``--overwrite`` cannot be brought back).
     """
-    from diagram.output.export import Drawing, ExportOptions, render_bytes, write_atomic
+    from diagram.output.export import (
+        Drawing,
+        ExportOptions,
+        render_bytes,
+        suffix_for,
+        write_atomic,
+    )
     from diagram.pipeline import draw
     from diagram.reading.load import load_prior, load_study
 
     cfg = task.settings
     try:
         study = load_study(task.study)
-        targets = [cfg.out_dir / f"{task.stem}.{fmt}" for fmt in cfg.formats]
+        targets = [cfg.out_dir / f"{task.stem}.{suffix_for(fmt)}" for fmt in cfg.formats]
         drawing: Drawing = draw(
             study,
             page=cfg.page,

@@ -35,7 +35,7 @@ from diagram.errors import DiagramError
 if TYPE_CHECKING:
     from diagram.batch.run import BatchSettings
 
-FORMATS = ("svg", "pdf", "png", "dcm", "json")
+FORMATS = ("svg", "pdf", "png", "dcm", "json", "fhir")
 
 
 @click.group(
@@ -58,7 +58,7 @@ def cli() -> None:
     "--output",
     required=True,
     type=click.Path(),
-    help="Output file (format from its suffix: .svg .pdf .png .dcm .json), or a folder "
+    help="Output file (format from its suffix: .svg .pdf .png .dcm .json .fhir.json), or a folder "
     "(ending in /) for many studies.",
 )
 @click.option(
@@ -148,6 +148,10 @@ def draw(
 
         study = load_study(studies[0])
         _show_import_notes(study.import_notes)
+        if chosen[0] == "dcm" and study.exam.study_uid is None:
+            from diagram.output.dicom import NO_STUDY_UID
+
+            click.echo(_printable(f"{studies[0]}: warning: {NO_STUDY_UID}"), err=True)
         earlier = load_prior(study, prior)
         drawing = draw_study(
             study,

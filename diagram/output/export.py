@@ -138,18 +138,34 @@ def _json(drawing: Drawing, options: ExportOptions) -> bytes:
         return (json.dumps(drawing.results, indent=2, sort_keys=False) + "\n").encode("ascii")
 
 
+def _fhir(drawing: Drawing, options: ExportOptions) -> bytes:
+    from diagram.output.dicom import DOCUMENT_TITLE
+    from diagram.output.fhir import fhir_bytes
+
+    return fhir_bytes(drawing.results, _pdf(drawing, options), DOCUMENT_TITLE)
+
+
 WRITERS: dict[str, Writer] = {
     "svg": _svg,
     "pdf": _pdf,
     "png": _png,
     "dcm": _dcm,
     "json": _json,
+    "fhir": _fhir,
 }
+FHIR_SUFFIX = ".fhir.json"  # a FHIR bundle is JSON: the double suffix tells it from results
 FORMATS: tuple[str, ...] = tuple(WRITERS)
+
+
+def suffix_for(fmt: str) -> str:
+    """Return the file suffix (without its dot) a format is written under."""
+    return FHIR_SUFFIX.lstrip(".") if fmt == "fhir" else fmt
 
 
 def format_for(path: Path, forced: str | None = None) -> str:
     """Return the output format: ``forced`` if given, else the path's suffix."""
+    if forced is None and path.name.lower().endswith(FHIR_SUFFIX):
+        return "fhir"
     fmt = (forced or path.suffix.lstrip(".")).lower()
     if fmt not in WRITERS:
         shown = forced if forced else (path.suffix or "(no suffix)")
