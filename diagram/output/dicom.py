@@ -10,8 +10,8 @@ Every UID this tool makes comes from one root: ``2.25``, the UUID-derived root o
 (``2.25.`` followed by a random UUID as one integer), never a library's example root. The
 Implementation Class UID is fixed: ``2.25.`` and the integer of the name-based UUID (RFC 4122
 version 5, URL namespace) of ``IMPLEMENTATION_NAME``. Study Time is the time the map is made (the
-study file holds no time of day); Study ID is the accession number (at most 16 characters, PS3.5
-SH) or ``1`` without one. pydicom is imported only here.
+study file holds no time of day; empty in a de-identified file); Study ID is the accession number
+(at most 16 characters, PS3.5 SH) or ``1`` without one. pydicom is imported only here.
 """
 
 from __future__ import annotations
@@ -127,7 +127,8 @@ def encapsulated_pdf(
     # General Study module
     ds.StudyInstanceUID = ident.study_uid or new_uid()
     ds.StudyDate = ident.study_date
-    ds.StudyTime = moment.strftime("%H%M%S")
+    # the moment of making the map; a de-identified file holds no time (PS3.15 E: Z)
+    ds.StudyTime = "" if ident.deidentified else moment.strftime("%H%M%S")
     ds.ReferringPhysicianName = ident.referrer
     ds.StudyID = study_id(ident.accession)
     ds.AccessionNumber = ident.accession

@@ -39,6 +39,7 @@ from diagram.reading.study import (
     LimbPressures,
     Patient,
     Plaque,
+    Presentation,
     Pressures,
     Sample,
     SegmentFinding,
@@ -408,6 +409,7 @@ def _limb(side: str, limb: dict[str, Any], lines: dict[Loc, int]) -> Limb:
             for i, item in enumerate(limb.get("stents", []))
         ),
         grafts=tuple(grafts),
+        presentation=Presentation(limb["presentation"]) if "presentation" in limb else None,
     )
 
 
