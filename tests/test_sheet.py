@@ -42,7 +42,7 @@ from diagram.drawing.template.mapfile import Template, load_template
 from diagram.output.svg import pdf_from_svgs, render_pages, render_svg
 from diagram.pipeline import assess_study
 from diagram.reading.load import load_prior, load_study
-from diagram.reading.study import LimbPressures, Pressures
+from diagram.reading.study import LimbPressures, Presentation, Pressures
 
 ROOT = Path(__file__).resolve().parent.parent
 EXAMPLES = sorted(p.stem for p in (ROOT / "examples").glob("*.yaml"))
@@ -77,9 +77,15 @@ def entry_text(entry: Entry) -> str:
 # ----------------------------------------------------------------------------- pressure boxes
 
 
-def box(brachial: float, pt: float | None = None, toe: float | None = None) -> list[str]:
+def box(
+    brachial: float,
+    pt: float | None = None,
+    toe: float | None = None,
+    presentation: Presentation | None = Presentation.REST_PAIN,
+) -> list[str]:
     pressures = Pressures(brachial, brachial, right=LimbPressures(pt=pt, toe=toe))
-    return [entry_text(e) for e in pressure_entries(limb_indices(pressures, Side.RIGHT))]
+    ix = limb_indices(pressures, Side.RIGHT, presentation)
+    return [entry_text(e) for e in pressure_entries(ix)]
 
 
 @pytest.mark.parametrize(
@@ -138,6 +144,26 @@ def test_ischaemia_line_names_the_grade_and_what_set_it(
     head, basis = line.split(" · ", 1)
     assert head == grade
     assert basis.startswith("worst of ") or basis == "no ankle or toe pressure"
+    if pt is not None:
+        assert basis.endswith("; limb marked rest pain (CLTI)")
+
+
+# WIfI is a CLTI tool (Mills 2014): a claudicant's leg with pressures outside the CLTI range
+# (ESC 2017: toe < 30 mmHg) is not given a grade; one in the range is, and says why.
+@pytest.mark.parametrize(
+    ("toe", "line"),
+    [
+        (31, "Ischaemia (WIfI) not applied · limb marked claudication: WIfI grades CLTI limbs"),
+        (30, "Ischaemia (WIfI) not applied · limb marked claudication: WIfI grades CLTI limbs"),
+        (
+            29,
+            "Ischaemia (WIfI) grade 3 · worst of ABI 1.30 (grade 0), ankle 130 mmHg (grade 0), "
+            "toe 29 mmHg (grade 3); pressures in the CLTI range: toe 29 < 30 mmHg",
+        ),
+    ],
+)
+def test_ischaemia_grade_only_for_clti_legs(toe: float, line: str) -> None:
+    assert box(100, 130, toe, Presentation.CLAUDICATION)[2] == line
 
 
 @pytest.mark.parametrize("stem", EXAMPLES)

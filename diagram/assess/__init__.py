@@ -98,6 +98,7 @@ def assess(
         warnings=tuple(findings),
         criteria_used=tuple((c.name, c.title, c.origin) for c in used),
         planning=planning,
+        criteria_rules=tuple(note for c in used if (note := c.boundary_note())),
     )
     if prior is not None:
         result = replace(result, comparison=compare(result, assess(prior, target=target)))

@@ -197,3 +197,6 @@ class Assessment:
     criteria_used: tuple[tuple[str, str, str], ...] = ()  # (name, title, origin) of each set
     planning: Mapping[Side, Planning] = field(default_factory=dict)
     comparison: Comparison | None = None
+    # each used set's bands with their thresholds as the file writes them (>= or >): the legend
+    # says which side of a boundary goes to the higher band
+    criteria_rules: tuple[str, ...] = ()

@@ -480,10 +480,23 @@ def _worst_lesion_middle(assessment: Assessment, side: Side, seg: str) -> float:
     return (span.start_frac + span.end_frac) / 2
 
 
+def _boundaries(assessment: Assessment) -> tuple[str, ...]:
+    """Return the legend's line on band boundaries: each set's thresholds as its file states them.
+
+    ">=" puts a value exactly on the boundary in the higher band, ">" leaves it in the lower one.
+    """
+    if not assessment.criteria_rules:
+        return ()
+    rules = "; ".join(assessment.criteria_rules).replace(">=", "\u2265")
+    head = "Band thresholds (\u2265: a value on the boundary goes to the higher band; >: not)"
+    return (f"{head}: {rules}.",)
+
+
 def _tables(assessment: Assessment, bands: Mapping[str, BandStyle]) -> list[Table]:
     out = []
     if assessment.planning:
-        out.append(planning_table(assessment.planning, bands))
+        grafts = {side: limb.grafts for side, limb in assessment.limbs.items()}
+        out.append(planning_table(assessment.planning, bands, grafts))
     if assessment.comparison is not None:
         out.append(change_table(assessment.comparison, bands))
     return out
@@ -536,7 +549,9 @@ def layout(
     symbols = sheet.symbols_used(assessment, changes)
     pressure_h = sheet.pressure_height(assessment, style, x0, x1)
     strip = pressure_h + BLOCK_GAP_PT if pressure_h else 0.0
-    note = VELOCITY_NOTE + (" " + PRESSURE_SOURCES if pressure_h else "")
+    note = " ".join(
+        (VELOCITY_NOTE, *_boundaries(assessment), *((PRESSURE_SOURCES,) if pressure_h else ()))
+    )
     legend_h = -sheet.legend(list(bands.values()), symbols, style, x0, x1, 0.0, bands, note)[1]
     room = bottom - 2 * BLOCK_GAP_PT - legend_h - strip - top - SIDE_MARK_STRIP_PT
     need = sheet.tables_height(tables, x0, x1, style)
