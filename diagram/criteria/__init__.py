@@ -347,9 +347,21 @@ def criteria_table(crit: Criteria) -> str:
     ]
     origin = "shipped with limbchart" if crit.origin == "shipped" else f"lab file {crit.origin}"
     head = [f"{crit.name}: {crit.title} ({crit.kind}; {origin})", f"source: {crit.source}"]
+    uses = {k for b in crit.bands for k, v in (("PSV", b.psv_min), ("Vr", b.vr_min)) if v}
+    if len(uses) == 2:
+        rule = "both PSV and Vr reach a band" if crit.match == "all" else "the worse of PSV, Vr"
+        head.append(f"rule: {rule} (a pair in different bands is flagged discordant)")
+    elif uses:
+        head.append(f"rule: {uses.pop()} alone")
     if crit.lesion_floor:
         head.append(f"a documented lesion is graded at least {crit.lesion_floor}")
-    return "\n".join([*head, *body])
+    tail = []
+    if crit.psv_only:
+        listed = "; ".join(f"{r.band} {r.describe()}" for r in crit.psv_only)
+        tail.append(f"PSV only (no valid Vr): {listed}")
+        if crit.psv_only_source:
+            tail.append(f"  source: {crit.psv_only_source}")
+    return "\n".join([*head, *body, *tail])
 
 
 def shipped_names() -> tuple[str, ...]:
