@@ -304,7 +304,7 @@ def _les(**kw: Any) -> LesionResult:
         ({"psv": 390.0, "edv": None, "vr": 4.24}, "PSV 390 / Vr 4.24"),
         ({"psv": 150.5, "edv": None, "vr": None}, "PSV 150.5 / Vr —"),
         ({"psv": None, "edv": None, "vr": None}, "Vr —"),
-        ({"psv": 200.0, "edv": 12.0, "vr": 2.0}, "PSV 200 / EDV 12 / Vr 2.0"),  # boundary value
+        ({"psv": 200.0, "edv": 12.0, "vr": 2.0}, "PSV 200 / EDV 12 / Vr 2.00"),  # boundary value
         ({"psv": 200.0, "edv": None, "vr": 1.96}, "PSV 200 / Vr 1.96"),  # never rounded up to 2
         ({"occluded": True, "length_cm": 6.0, "reconstitutes": "POP-BK"}, "Occl. 6 cm → POP-BK"),
         ({"occluded": True, "length_cm": 6.5, "reconstitutes": None}, "Occl. 6.5 cm"),
