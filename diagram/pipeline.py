@@ -1,4 +1,7 @@
-"""The pipeline in one call: Study ➜ Assessment ➜ Scene ➜ SVG text (no file I/O on the way)."""
+"""The pipeline in one call: Study ➜ Assessment ➜ Scene (no file I/O on the way).
+
+The Drawing it returns carries the Scene; each output format renders it as it needs.
+"""
 
 from __future__ import annotations
 
@@ -15,8 +18,6 @@ from diagram.reading.study import Study
 if TYPE_CHECKING:
     from diagram.drawing.labprofile import LabProfile
 
-PAGES: tuple[str, ...] = ("a4", "letter", "map")
-
 
 def draw(
     study: Study,
@@ -28,7 +29,7 @@ def draw(
     prior: Study | None = None,
     lab: LabProfile | None = None,
 ) -> Drawing:
-    """Assess the study and draw its map; return the SVG pages and the results document.
+    """Assess the study and draw its map; return the Scene and the results document.
 
     A lab profile gives the style, the lab name for the header, and defaults for the template
     and the page; ``template`` and a page other than the default win over it.
@@ -36,7 +37,6 @@ def draw(
     from diagram.drawing.layout import layout
     from diagram.drawing.template.mapfile import load_template
     from diagram.output.results import results_document
-    from diagram.output.svg import render_pages
 
     assessment = assess_study(study, criteria=criteria, target=target, prior=prior)
     style = None
@@ -44,12 +44,8 @@ def draw(
         style = replace(lab.style, lab_name=lab.lab_name)
         template = template if template is not None else lab.template
     scene = layout(assessment, load_template(template), page=page, version=__version__, style=style)
-    first, *more = render_pages(scene)
     return Drawing(
-        svg=first,
-        results=results_document(assessment, version=__version__),
-        study=study,
-        more=tuple(more),
+        results=results_document(assessment, version=__version__), scene=scene, study=study
     )
 
 

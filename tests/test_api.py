@@ -39,7 +39,16 @@ def test_error_tree() -> None:
 
 
 def test_importing_the_package_and_help_stay_light() -> None:
-    heavy = ("cairosvg", "cairocffi", "svgwrite", "fontTools", "jsonschema", "pydicom", "yaml")
+    heavy = (
+        "cairo",
+        "cairosvg",
+        "cairocffi",
+        "svgwrite",
+        "fontTools",
+        "jsonschema",
+        "pydicom",
+        "yaml",
+    )
     code = (
         "import sys\n"
         "from diagram.cli.main import cli\n"

@@ -7,8 +7,8 @@ import pytest
 from diagram.anatomy import SEGMENT_IDS, Side
 from diagram.assess import assess
 from diagram.assess.results import Assessment
-from diagram.drawing.layout import _bands as layout_bands
 from diagram.drawing.layout import _boundaries
+from diagram.drawing.map.vessels import band_styles as layout_bands
 from diagram.drawing.sheet.tables import Entry, Table, planning_table
 from diagram.drawing.style import default_style
 from diagram.reading.study import (

@@ -26,6 +26,7 @@ from diagram.errors import DiagramError, ExportError, Problem, StudyError
 
 if TYPE_CHECKING:
     from diagram.drawing.labprofile import LabProfile
+    from diagram.output.export import Renderer
 
 STUDY_SUFFIXES = (".yaml", ".yml", ".json")
 MANIFEST_SUFFIXES = (".txt", ".list", ".manifest")  # lists of study paths, one a line
@@ -45,6 +46,7 @@ class BatchSettings:
     lab: LabProfile | None = None
     png_dpi: float = 150.0
     overwrite: bool = False
+    renderer: Renderer = "cairo"
 
 
 @dataclass(frozen=True)
@@ -151,7 +153,7 @@ def draw_one(task: BatchTask) -> BatchResult:
             prior=load_prior(study),
             lab=cfg.lab,
         )
-        options = ExportOptions(png_dpi=cfg.png_dpi)
+        options = ExportOptions(png_dpi=cfg.png_dpi, renderer=cfg.renderer)
         blobs = [render_bytes(drawing, fmt, options) for fmt in cfg.formats]
         made: list[Path] = []
         try:

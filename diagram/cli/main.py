@@ -34,6 +34,7 @@ from diagram.errors import DiagramError
 
 if TYPE_CHECKING:
     from diagram.batch.run import BatchSettings
+    from diagram.output.export import Renderer
 
 FORMATS = ("svg", "pdf", "png", "dcm", "json")
 
@@ -91,6 +92,14 @@ def cli() -> None:
     "file's name), {folder} (its folder's name), {accession} {patient_id} {exam_date} (these "
     "three put identifiers in file names).",
 )
+@click.option(
+    "--renderer",
+    type=click.Choice(["cairo", "cairosvg"]),
+    default="cairo",
+    show_default=True,
+    help="How PDF, PNG and DICOM are drawn: cairo paints the sheet directly; cairosvg "
+    "converts its SVG (the slower reference route).",
+)
 def draw(
     studies: tuple[Path, ...],
     output: str,
@@ -106,6 +115,7 @@ def draw(
     quiet: bool,
     overwrite: bool,
     name_pattern: str,
+    renderer: Renderer,
 ) -> None:
     """Draw the map of each STUDY (a file, a folder of files, or a .txt list of paths).
 
@@ -158,9 +168,8 @@ def draw(
             prior=earlier,
             lab=profile,
         )
-        written = export(
-            drawing, Path(output), chosen[0], ExportOptions(png_dpi=png_dpi), overwrite=overwrite
-        )
+        options = ExportOptions(png_dpi=png_dpi, renderer=renderer)
+        written = export(drawing, Path(output), chosen[0], options, overwrite=overwrite)
         if not quiet:
             click.echo(f"wrote {written}", err=True)
         return
@@ -177,6 +186,7 @@ def draw(
         lab=profile,
         png_dpi=png_dpi,
         overwrite=overwrite,
+        renderer=renderer,
     )
     _draw_batch(studies, settings, jobs, quiet)
 
