@@ -131,3 +131,29 @@ def test_bad_lab_profile_is_one_line_per_problem(capsys: pytest.CaptureFixture[s
     assert code == 2 and "Traceback" not in err
     expected = (ROOT / "tests" / "data" / "lab" / "bad.expected").read_text().splitlines()
     assert len(err.splitlines()) == len(expected)
+
+
+def test_every_command_is_on_the_installed_group() -> None:
+    """The group the ``limbchart`` script runs lists every command; no test adds one itself."""
+    from diagram.cli.main import cli
+
+    assert sorted(cli.commands) == [
+        "check",
+        "criteria",
+        "draw",
+        "gallery",
+        "schema",
+        "style",
+        "teach",
+        "template",
+    ]
+
+
+def test_the_script_lists_every_command() -> None:
+    from diagram.cli.main import cli
+
+    out = subprocess.run(
+        [sys.executable, "-m", "diagram", "--help"], capture_output=True, text=True, check=True
+    ).stdout
+    block = out.split("Commands:\n")[1].split("\n\n")[0]
+    assert [line.split()[0] for line in block.splitlines()] == sorted(cli.commands)

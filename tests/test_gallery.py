@@ -9,8 +9,8 @@ from pathlib import Path
 import pytest
 
 from diagram.anatomy import Side
-from diagram.cli.design import COMMANDS
-from diagram.cli.main import cli, main
+from diagram.assess import assess
+from diagram.cli.main import main
 from diagram.design.gallery import (
     PAGE_PT,
     SPECIMEN_NOTE,
@@ -23,14 +23,9 @@ from diagram.drawing.labprofile import load_lab_profile
 from diagram.drawing.style import default_style
 from diagram.drawing.template.mapfile import load_template
 from diagram.errors import ExportError
-from diagram.pipeline import assess_study
 from diagram.reading.load import load_study_text
 
 LAB = Path(__file__).parent / "data" / "lab"
-
-for _command in COMMANDS:
-    cli.add_command(_command)
-
 
 @pytest.mark.parametrize(
     ("colour", "grey"),
@@ -55,7 +50,7 @@ def test_the_specimen_shows_every_band_and_symbol(template: str) -> None:
     prior = load_study_text(
         specimen_yaml(side, set(tpl.vessels), prior=True), "prior.yaml", ".yaml"
     )
-    result = assess_study(study, prior=prior)
+    result = assess(study, prior=prior)
     limb = result.limbs[Side(side)]
     bands = {seg.band for seg in limb.segments.values()} | {les.band for les in limb.lesions}
     assert {"normal", "lt50", "50-74", "75-99", "occluded", "not-assessed"} <= bands

@@ -39,9 +39,9 @@ from diagram.drawing.sheet.tables import (
 )
 from diagram.drawing.style import default_style
 from diagram.drawing.template.mapfile import Template, load_template
+from diagram.inputs import assess_file
 from diagram.output.svg import pdf_from_svgs, render_pages, render_svg
-from diagram.pipeline import assess_study
-from diagram.reading.load import load_prior, load_study
+from diagram.reading.load import load_study
 from diagram.reading.study import LimbPressures, Pressures
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -53,7 +53,7 @@ BUSIEST = ("followup-current", "clti-multilevel")  # most findings, both tables,
 @cache
 def example(stem: str) -> Assessment:
     study = load_study(ROOT / "examples" / f"{stem}.yaml")
-    return assess_study(study, prior=load_prior(study))
+    return assess_file(study)
 
 
 @cache

@@ -10,8 +10,7 @@ from typing import Any
 
 import pytest
 
-from diagram.cli.design import COMMANDS
-from diagram.cli.main import cli, main
+from diagram.cli.main import main
 from diagram.design.stylecheck import (
     CVD_MATRICES,
     MIN_DELTA_E,
@@ -33,10 +32,6 @@ from diagram.drawing.labprofile import load_lab_profile
 from diagram.drawing.style import SEVERITY_ORDER, Hatch, Style, default_style
 
 LAB = Path(__file__).parent / "data" / "lab"
-
-for _command in COMMANDS:
-    cli.add_command(_command)
-
 
 def run(args: list[str], capsys: pytest.CaptureFixture[str]) -> tuple[int, str, str]:
     with pytest.raises(SystemExit) as done:

@@ -1240,11 +1240,8 @@ def test_a_vessel_outside_the_viewbox_is_reported(tmp_path: Path) -> None:
 
 
 def run(args: list[str], capsys: pytest.CaptureFixture[str]) -> tuple[int, str, str]:
-    from diagram.cli.design import COMMANDS
-    from diagram.cli.main import cli, main
+    from diagram.cli.main import main
 
-    for command in COMMANDS:
-        cli.add_command(command)
     with pytest.raises(SystemExit) as done:
         main(args)
     out = capsys.readouterr()

@@ -23,11 +23,11 @@ from types import FrameType
 from typing import TYPE_CHECKING, Any
 
 from diagram.errors import DiagramError, Problem, StudyError
+from diagram.reading.formats import STUDY_SUFFIXES
 
 if TYPE_CHECKING:
     from diagram.drawing.labprofile import LabProfile
 
-STUDY_SUFFIXES = (".yaml", ".yml", ".json")
 MANIFEST_SUFFIXES = (".txt", ".list", ".manifest")
 DEFAULT_NAME = "map-{n:04d}"
 NAME_FIELDS = ("n", "stem", "accession", "patient_id", "exam_date")
@@ -167,9 +167,9 @@ def draw_one(task: BatchTask) -> BatchResult:
     or is interrupted, the ones this call already wrote are removed again, so a study leaves all
     its files or none (a file it replaced under ``--overwrite`` cannot be brought back).
     """
-    from diagram.output.export import Drawing, ExportOptions, render_bytes, write_atomic
-    from diagram.pipeline import draw
-    from diagram.reading.load import load_prior, load_study
+    from diagram.inputs import draw_inputs, load_inputs, load_template_for
+    from diagram.output.export import ExportOptions, render_bytes, write_all
+    from diagram.reading.load import load_study
 
     cfg = task.settings
     try:
@@ -183,28 +183,12 @@ def draw_one(task: BatchTask) -> BatchResult:
                 str(task.study),
                 errors=tuple(f"{t}: exists; use --overwrite to replace it." for t in existing),
             )
-        drawing: Drawing = draw(
-            study,
-            page=cfg.page,
-            template=cfg.template,
-            criteria=cfg.criteria,
-            target=cfg.target,
-            prior=load_prior(study),
-            lab=cfg.lab,
-        )
+        inputs = load_inputs(study, criteria=cfg.criteria)
+        template = load_template_for(cfg.template, cfg.lab)
+        drawing = draw_inputs(inputs, template, page=cfg.page, target=cfg.target, lab=cfg.lab)
         options = ExportOptions(png_dpi=cfg.png_dpi)
         blobs = [render_bytes(drawing, fmt, options) for fmt in cfg.formats]
-        made: list[Path] = []
-        try:
-            for target, blob in zip(targets, blobs, strict=True):
-                write_atomic(target, blob)
-                if target not in existing:
-                    made.append(target)
-        except BaseException:
-            for path in made:
-                with contextlib.suppress(OSError):
-                    path.unlink()
-            raise
+        write_all(list(zip(targets, blobs, strict=True)), keep=existing)
         return BatchResult(task.n, str(task.study), written=tuple(str(t) for t in targets))
     except DiagramError as exc:
         return BatchResult(task.n, str(task.study), errors=tuple(exc.lines()))

@@ -18,6 +18,7 @@ import click
 
 from diagram._version import __version__
 from diagram.caution import CAUTION
+from diagram.cli.design import COMMANDS as DESIGN_COMMANDS
 from diagram.cli.options import (
     criteria_option,
     dpi_option,
@@ -28,6 +29,7 @@ from diagram.cli.options import (
     target_option,
     template_option,
 )
+from diagram.cli.teach import teach
 from diagram.errors import DiagramError
 
 if TYPE_CHECKING:
@@ -36,20 +38,7 @@ if TYPE_CHECKING:
 FORMATS = ("svg", "pdf", "png", "dcm", "json")
 
 
-@click.group(
-    context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100},
-    epilog=CAUTION,
-)
-@click.version_option(__version__, prog_name="limbchart")
-def cli() -> None:
-    """Draw graded leg-artery maps from arterial duplex findings.
-
-    Reads a study file (YAML or JSON), computes velocity ratios and stenosis bands with a
-    published criteria set, and draws the bilateral map as SVG, PDF or PNG.
-    """
-
-
-@cli.command()
+@click.command()
 @click.argument("studies", nargs=-1, required=True, type=click.Path(path_type=Path))
 @click.option(
     "-o",
@@ -106,6 +95,7 @@ def draw(
 ) -> None:
     """Draw the map of each STUDY (a file, a folder of files, or a .txt list of paths)."""
     from diagram.output.export import ExportOptions, export, format_for
+    from diagram.reading.formats import is_study_name
 
     profile = None
     if lab is not None:
@@ -115,30 +105,18 @@ def draw(
     page = page or (profile.page if profile and profile.page else "a4")
 
     as_folder = output.endswith(("/", os.sep)) or _is_folder(output)
-    single = (
-        len(studies) == 1
-        and studies[0].suffix.lower() in (".yaml", ".yml", ".json")
-        and not as_folder
-    )
+    single = len(studies) == 1 and is_study_name(studies[0].name) and not as_folder
     if prior is not None and not single:
         raise click.UsageError("--prior goes with one study; in a batch each study names its own.")
     if single:
-        from diagram.pipeline import draw as draw_study
-        from diagram.reading.load import load_prior, load_study
+        from diagram.inputs import draw_inputs, load_inputs, load_template_for
 
         if len(formats) > 1:
             raise click.UsageError("one output file takes one --format; give a folder for more.")
         chosen = format_for(Path(output), formats[0] if formats else None)  # refuse before any work
-        study = load_study(studies[0])
-        earlier = load_prior(study, prior)
-        drawing = draw_study(
-            study,
-            page=page,
-            template=template,
-            criteria=criteria,
-            target=target,
-            prior=earlier,
-            lab=profile,
+        inputs = load_inputs(studies[0], criteria=criteria, prior=prior)
+        drawing = draw_inputs(
+            inputs, load_template_for(template, profile), page=page, target=target, lab=profile
         )
         written = export(drawing, Path(output), chosen, ExportOptions(png_dpi=dpi))
         if not quiet:
@@ -217,7 +195,7 @@ def _draw_batch(
         sys.exit(summary.exit_status)
 
 
-@cli.command()
+@click.command()
 @click.argument("study", type=click.Path(dir_okay=False, path_type=Path))
 @click.option("--json", "as_json", is_flag=True, help="Print the results document as JSON.")
 @criteria_option
@@ -227,14 +205,10 @@ def check(
     study: Path, as_json: bool, criteria: str | None, target: str | None, prior: Path | None
 ) -> None:
     """Validate a STUDY file and print its computed grading."""
+    from diagram.inputs import assess_file
     from diagram.output.results import results_document, results_table
-    from diagram.pipeline import assess_study
-    from diagram.reading.load import load_prior, load_study
 
-    current = load_study(study)
-    assessment = assess_study(
-        current, criteria=criteria, target=target, prior=load_prior(current, prior)
-    )
+    assessment = assess_file(study, criteria=criteria, target=target, prior=prior)
     if as_json:
         click.echo(json.dumps(results_document(assessment, version=__version__), indent=2))
     else:
@@ -242,7 +216,7 @@ def check(
         click.echo(f"\n{CAUTION}")
 
 
-@cli.group()
+@click.group()
 def criteria() -> None:
     """List and show criteria sets (shipped, or a lab's own file)."""
 
@@ -266,7 +240,7 @@ def criteria_show(name_or_path: str) -> None:
     click.echo(criteria_table(load_criteria(name_or_path)))
 
 
-@cli.command()
+@click.command()
 @click.option("--results", is_flag=True, help="Print the schema of the results document instead.")
 def schema(results: bool) -> None:
     """Print the JSON Schema of the study file (or of the results document)."""
@@ -280,17 +254,19 @@ def schema(results: bool) -> None:
     click.echo(json.dumps(study_schema(), indent=2))
 
 
-def _register() -> None:
-    """Add the commands defined beside their stages (their heavy imports stay inside them)."""
-    from diagram.cli.design import COMMANDS
-    from diagram.cli.teach import teach
+# Every command of the tool, registered here and nowhere else.
+@click.group(
+    commands=[draw, check, criteria, schema, teach, *DESIGN_COMMANDS],
+    context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100},
+    epilog=CAUTION,
+)
+@click.version_option(__version__, prog_name="limbchart")
+def cli() -> None:
+    """Draw graded leg-artery maps from arterial duplex findings.
 
-    cli.add_command(teach)
-    for command in COMMANDS:
-        cli.add_command(command)
-
-
-_register()
+    Reads a study file (YAML or JSON), computes velocity ratios and stenosis bands with a
+    published criteria set, and draws the bilateral map as SVG, PDF or PNG.
+    """
 
 
 class Interrupted(KeyboardInterrupt):

@@ -16,7 +16,7 @@ from importlib import resources
 from pathlib import Path
 from typing import Any
 
-from diagram.errors import CriteriaError, Problem
+from diagram.errors import CriteriaError, Problem, StudyError
 
 NOT_ASSESSED = "not-assessed"
 _MAX_BYTES = 256 * 1024
@@ -250,6 +250,48 @@ def load_criteria(name_or_path: str, *, relative_to: Path | None = None) -> Crit
     except UnicodeDecodeError:
         raise CriteriaError([Problem(str(path), None, "", None, "is not UTF-8 text.")]) from None
     return _cached_parse(text, str(path), str(path))
+
+
+_SET_FIELDS = ("exam.criteria", "exam.stent_criteria", "exam.graft_criteria")
+
+
+def load_sets(
+    names: tuple[str, str, str], *, source: str, relative_to: Path | None = None
+) -> CriteriaSets:
+    """Return the native, stent and graft sets a study names, shipped sets or a lab's files.
+
+    File names are taken relative to ``relative_to`` (the study's folder); a name that is neither
+    a shipped set nor a file is reported as a problem of the study's field (``source`` is the
+    study, for messages). This reads files: the command line and the batch call it, never the
+    assessment.
+    """
+    native, stent, graft = (
+        _load_named(name, relative_to, field, source)
+        for name, field in zip(names, _SET_FIELDS, strict=True)
+    )
+    return CriteriaSets(native=native, stent=stent, graft=graft)
+
+
+def shipped_sets(names: tuple[str, str, str], *, source: str) -> CriteriaSets:
+    """Return the sets a study names when each is shipped with the package (no file is read).
+
+    A lab's own file must be loaded first with :func:`load_sets` and passed in.
+    """
+    for name, field in zip(names, _SET_FIELDS, strict=True):
+        if name not in shipped_names():
+            rule = "is not a shipped criteria set: load the lab's file first and pass the sets in."
+            raise StudyError([Problem(source, None, field, repr(name), rule)])
+    return load_sets(names, source=source)
+
+
+def _load_named(name: str, base: Path | None, field: str, source: str) -> Criteria:
+    try:
+        return load_criteria(name, relative_to=base)
+    except CriteriaError as exc:
+        if len(exc.problems) == 1 and exc.problems[0].field == "exam.criteria":
+            p = exc.problems[0]
+            raise StudyError([Problem(source, None, field, p.value, p.rule, p.hint)]) from None
+        raise
 
 
 @lru_cache(maxsize=32)

@@ -16,7 +16,7 @@ import os
 import secrets
 import signal
 import threading
-from collections.abc import Callable, Iterator
+from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass
 from importlib import resources
 from pathlib import Path
@@ -233,6 +233,30 @@ def write_atomic(path: Path, data: bytes) -> None:
         if owned is not None:
             with contextlib.suppress(OSError):  # gone already once renamed into place
                 os.unlink(owned)
+
+
+def write_all(
+    files: Sequence[tuple[Path, bytes]], *, keep: Iterable[Path] = ()
+) -> tuple[Path, ...]:
+    """Write every file atomically, in order; on any failure remove the ones written, then raise.
+
+    All the files or none: an error or an interrupt between two writes takes back those already
+    written, except ``keep`` (files that existed before and were replaced; they cannot be brought
+    back, so they are left as written).
+    """
+    kept = set(keep)
+    made: list[Path] = []
+    try:
+        for path, data in files:
+            write_atomic(path, data)
+            if path not in kept:
+                made.append(path)
+    except BaseException:
+        for path in made:
+            with contextlib.suppress(OSError):
+                path.unlink()
+        raise
+    return tuple(path for path, _ in files)
 
 
 def _check_target(path: Path, folder: Path) -> None:

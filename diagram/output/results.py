@@ -18,6 +18,7 @@ from diagram.assess.results import (
     StentResult,
 )
 from diagram.caution import CAUTION
+from diagram.reading.plain import CRITERIA_KEYS, exam_data, patient_data
 from diagram.reading.study import Study
 
 RESULTS_FORMAT = 1
@@ -149,23 +150,10 @@ def _plain(value: Any) -> Any:
 
 
 def _study_echo(study: Study) -> dict[str, Any]:
-    p, e = study.patient, study.exam
+    exam = exam_data(study.exam)
     return {
-        "patient": {
-            "name": p.name,
-            "id": p.id,
-            "birth_date": p.birth_date.isoformat() if p.birth_date else None,
-            "sex": p.sex,
-        },
-        "exam": {
-            "date": e.date.isoformat() if e.date else None,
-            "accession": e.accession,
-            "site": e.site,
-            "operator": e.operator,
-            "referrer": e.referrer,
-            "indication": e.indication,
-            "study_uid": e.study_uid,
-        },
+        "patient": patient_data(study.patient),
+        "exam": {k: v for k, v in exam.items() if k not in CRITERIA_KEYS},
     }
 
 
