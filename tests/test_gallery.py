@@ -27,6 +27,7 @@ from diagram.reading.load import load_study_text
 
 LAB = Path(__file__).parent / "data" / "lab"
 
+
 @pytest.mark.parametrize(
     ("colour", "grey"),
     [

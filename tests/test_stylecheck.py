@@ -33,6 +33,7 @@ from diagram.drawing.style import SEVERITY_ORDER, Hatch, Style, default_style
 
 LAB = Path(__file__).parent / "data" / "lab"
 
+
 def run(args: list[str], capsys: pytest.CaptureFixture[str]) -> tuple[int, str, str]:
     with pytest.raises(SystemExit) as done:
         main(args)

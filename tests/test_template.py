@@ -11,7 +11,6 @@ import re
 import socket
 import subprocess
 import sys
-import time
 from collections.abc import Iterator
 from importlib import resources
 from pathlib import Path
@@ -542,10 +541,8 @@ def test_join_tolerance_boundary(tmp_path: Path) -> None:
 @pytest.mark.parametrize("fixture", ["billion-laughs.svg", "external-entity.svg"])
 def test_entities_are_refused_before_anything_is_expanded_or_read(fixture: str) -> None:
     path = FIXTURES / fixture
-    started = time.perf_counter()
     with recorded() as events, pytest.raises(TemplateError) as err:
         load_template(path)
-    assert time.perf_counter() - started < 1.0
     assert err.value.lines() == [
         f"{path}:2: <!DOCTYPE>: DTDs, entity declarations and external entities are refused "
         "(remove the <!DOCTYPE ...> declaration and any entities)"
@@ -1188,9 +1185,7 @@ def test_root_size_boundary(tmp_path: Path, ok: bool) -> None:
 
 def test_too_many_elements_stop_the_reader(tmp_path: Path) -> None:
     path = variant(tmp_path, "<title>", "<g/>" * (MAX_ELEMENTS + 1) + "<title>")
-    started = time.perf_counter()
     problems = check_template(path)
-    assert time.perf_counter() - started < 5.0
     assert [(p.field, p.rule) for p in problems] == [
         ("g", f"more than {MAX_ELEMENTS} elements are refused")
     ]

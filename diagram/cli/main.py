@@ -6,7 +6,6 @@ No domain logic lives here. Heavy libraries are imported by the commands that ne
 
 from __future__ import annotations
 
-import json
 import os
 import signal
 import sys
@@ -30,7 +29,6 @@ from diagram.cli.options import (
     template_option,
 )
 from diagram.cli.teach import teach
-from diagram.errors import DiagramError
 
 if TYPE_CHECKING:
     from diagram.batch.run import BatchSettings
@@ -205,6 +203,8 @@ def check(
     study: Path, as_json: bool, criteria: str | None, target: str | None, prior: Path | None
 ) -> None:
     """Validate a STUDY file and print its computed grading."""
+    import json
+
     from diagram.inputs import assess_file
     from diagram.output.results import results_document, results_table
 
@@ -244,6 +244,8 @@ def criteria_show(name_or_path: str) -> None:
 @click.option("--results", is_flag=True, help="Print the schema of the results document instead.")
 def schema(results: bool) -> None:
     """Print the JSON Schema of the study file (or of the results document)."""
+    import json
+
     if results:
         from diagram.output.results import results_schema
 
@@ -323,6 +325,17 @@ def _printable(line: str) -> str:
     return "".join(ch if ch.isprintable() else ascii(ch)[1:-1] for ch in line)
 
 
+def _tool_error(exc: Exception) -> int:
+    """Print a tool error one line per problem and return its exit status; re-raise a bug."""
+    from diagram.errors import DiagramError  # imported here: ``--help`` needs none of it
+
+    if not isinstance(exc, DiagramError):
+        raise exc
+    for line in exc.lines():
+        click.echo(_printable(line), err=True)
+    return exc.exit_code
+
+
 def main(args: list[str] | None = None, prog_name: str | None = None) -> None:
     """Run the command line; a tool error prints one line per problem and exits with status 2.
 
@@ -337,16 +350,14 @@ def main(args: list[str] | None = None, prog_name: str | None = None) -> None:
                     args=args, prog_name=prog_name or "limbchart", standalone_mode=False
                 )
                 code = result if isinstance(result, int) else 0
-            except DiagramError as exc:
-                for line in exc.lines():
-                    click.echo(_printable(line), err=True)
-                code = exc.exit_code
             except click.exceptions.Abort:  # Ctrl-C or SIGTERM inside a command
                 click.echo("interrupted", err=True)
                 code = 130
             except click.ClickException as exc:
                 exc.show()
                 code = exc.exit_code
+            except Exception as exc:
+                code = _tool_error(exc)
             except SystemExit as exc:  # a command's own status, e.g. a batch's summary
                 code = exc.code
         except KeyboardInterrupt:  # a stop signal while a message above was printed
