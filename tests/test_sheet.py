@@ -283,12 +283,12 @@ def test_change_symbols_lie_beside_their_segment_and_clear_of_labels() -> None:
     ],
 )
 def test_change_symbols_differ_by_shape_and_fill(kind: Change, corners: int, solid: bool) -> None:
-    st = default_style()
-    group = change_mark("m", kind.value, 50.0, 50.0, st)
+    style = default_style()
+    group = change_mark("m", kind.value, 50.0, 50.0, style)
     assert isinstance(group, Group)
     mark = group.items[-1]
     assert isinstance(mark, Polygon) and len(mark.points) == corners
-    assert (mark.fill == st.change_ink) is solid
+    assert (mark.fill == style.change_ink) is solid
     top = min(p[1] for p in mark.points)
     on_top = [p for p in mark.points if p[1] == top]
     # worse and the diamonds have one point on top; better is flat on top (it points down)
@@ -412,14 +412,14 @@ def bounds_walk(item: Item) -> list[Text]:
 
 
 def test_tables_flow_over_pages_row_by_row() -> None:
-    st = default_style()
+    style = default_style()
     rows = tuple(
         Row(f"row {k}", ((Entry((Run(f"value {k}"),)),), (Entry((Run("x"),)),))) for k in range(40)
     )
     table = Table("big", (Run("Big table"),), rows, (Entry((Run("a note"),)),))
     x0, x1, top, bottom = 30.0, 560.0, 40.0, 300.0
-    pages = flow_tables([table], x0, x1, top, bottom, st, {})
-    per_page = (bottom - top) // row_heights(table, x0, x1, st)[0]
+    pages = flow_tables([table], x0, x1, top, bottom, style, {})
+    per_page = (bottom - top) // row_heights(table, x0, x1, style)[0]
     assert len(pages) >= 40 // per_page
     seen = [t for page in pages for t in walk_texts(page) if t.startswith("row ")]
     assert seen == [f"row {k}" for k in range(40)]  # every row once, in order

@@ -180,7 +180,7 @@ def gallery_svg(
     from diagram.output.svg import render_svg
     from diagram.reading.load import load_study_text
 
-    st = style or default_style()
+    style = style or default_style()
     tpl = template or load_template()
     side = tpl.sides[0]
     covered = set(tpl.vessels)
@@ -190,11 +190,11 @@ def gallery_svg(
     )
     assessment = assess(study, prior=earlier)
     map_scene = layout(
-        assessment, tpl, page="map", version=__version__, generated_note=SPECIMEN_NOTE, style=st
+        assessment, tpl, page="map", version=__version__, generated_note=SPECIMEN_NOTE, style=style
     )
     width, height = PAGE_PT["letter" if page == "letter" else "a4"]
     title = "Style gallery" + (f" — {lab_name}" if lab_name else "")
-    items, bands = _panel(st, title, width)
+    items, bands = _panel(style, title, width)
     page_rect = Rect("gallery-page", 0, 0, width, height, fill="#FFFFFF")
     whole = Box(0, 0, width, height)
     panel = Scene(
@@ -202,7 +202,7 @@ def gallery_svg(
         width_pt=width,
         height_pt=height,
         unit="mm" if page != "letter" else "in",
-        font_family=st.font_family,
+        font_family=style.font_family,
         bands=tuple(bands),
         items=(page_rect, *items),
         map_box=whole,

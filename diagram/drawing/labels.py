@@ -178,17 +178,17 @@ def frame(vessel: Vessel, fit: Fit, s: float) -> tuple[Point, Point]:
 # --------------------------------------------------------------------------- collecting labels
 
 
-def collect_labels(assessment: Assessment, template: Template, st: Style) -> list[MarginLabel]:
+def collect_labels(assessment: Assessment, template: Template, style: Style) -> list[MarginLabel]:
     """Return every margin label with its measured size (segment PSVs, lesions, reconstitution)."""
-    asc, desc = line_extents(st.label_pt)
-    height = asc + desc + 2 * st.label_pad_pt
+    asc, desc = line_extents(style.label_pt)
+    height = asc + desc + 2 * style.label_pad_pt
     out: list[MarginLabel] = []
 
     def add(
         lid: str, margin: Side, kind: str, key: str, s: float, text: str, band: str | None
     ) -> None:
         bold = kind != "segment"
-        width = text_width(text, st.label_pt, bold) + 2 * st.label_pad_pt
+        width = text_width(text, style.label_pt, bold) + 2 * style.label_pad_pt
         if band is not None:
             width += SWATCH_PT + 2.0
         out.append(MarginLabel(lid, margin, kind, key, s, text, bold, band, width, height))
@@ -282,15 +282,15 @@ def place_labels(
     bounds: tuple[float, float],
     columns: Mapping[Side, int],
     half_widths: Mapping[str, float],
-    st: Style,
+    style: Style,
     bands: Mapping[str, BandStyle],
 ) -> tuple[list[LabelBox], list[Item], list[Item]]:
     """Return the label boxes, the leader lines and the label items."""
     boxes: list[LabelBox] = []
     leaders: list[Item] = []
     texts: list[Item] = []
-    asc, _ = line_extents(st.label_pt)
-    pad = st.label_pad_pt
+    asc, _ = line_extents(style.label_pt)
+    pad = style.label_pad_pt
     for margin in (Side.RIGHT, Side.LEFT):
         mine = [lb for lb in labels if lb.margin is margin]
         widest = max((lb.width for lb in mine), default=0.0)
@@ -306,7 +306,7 @@ def place_labels(
             tops = pack_1d(
                 [anchors[lb.id][1] for lb in members],
                 [lb.height for lb in members],
-                st.line_gap_pt,
+                style.line_gap_pt,
                 *bounds,
             )
             for lb, top in zip(members, tops, strict=True):
@@ -326,11 +326,11 @@ def place_labels(
                     Line(
                         f"{lb.id}-leader",
                         (start, (elbow, start[1]), anchor),
-                        st.leader_ink,
-                        st.leader_pt,
+                        style.leader_ink,
+                        style.leader_pt,
                     )
                 )
-                leaders.append(Circle(f"{lb.id}-dot", *anchor, 0.9, fill=st.leader_ink))
+                leaders.append(Circle(f"{lb.id}-dot", *anchor, 0.9, fill=style.leader_ink))
                 parts: list[Item] = [Rect(f"{lb.id}-bg", *_xywh(box), fill="#FFFFFF")]
                 x = box.x + pad
                 if lb.band is not None:
@@ -355,9 +355,9 @@ def place_labels(
                         x,
                         top + pad + asc,
                         lb.text,
-                        st.label_pt,
+                        style.label_pt,
                         Weight.BOLD if lb.bold else Weight.NORMAL,
-                        fill=st.text_ink,
+                        fill=style.text_ink,
                     )
                 )
                 texts.append(Group(lb.id, tuple(parts), role=f"label {lb.kind}"))
@@ -372,7 +372,7 @@ def _xywh(box: Box) -> tuple[float, float, float, float]:
 def choose_columns(
     assessment: Assessment,
     template: Template,
-    st: Style,
+    style: Style,
     height: float,
 ) -> tuple[list[MarginLabel], dict[Side, int], Style]:
     """Return the labels, the columns of each margin and the label style that fit ``height``.
@@ -380,9 +380,9 @@ def choose_columns(
     One column at the house size; then one column set denser; then more columns in the margin
     that needs them (the map shrinks to make room: the last resort for very crowded studies).
     """
-    dense = replace(st, label_pt=min(st.label_pt, 6.0), line_gap_pt=0.6, label_pad_pt=0.6)
-    for style in (st, dense):
-        labels = collect_labels(assessment, template, style)
+    dense = replace(style, label_pt=min(style.label_pt, 6.0), line_gap_pt=0.6, label_pad_pt=0.6)
+    for tried in (style, dense):
+        labels = collect_labels(assessment, template, tried)
         label_h = labels[0].height if labels else 0.0
         columns: dict[Side, int] = {}
         for margin in Side:
@@ -391,13 +391,13 @@ def choose_columns(
                 (
                     k
                     for k in range(1, MAX_COLUMNS + 1)
-                    if stack_height(n, k, label_h, style.line_gap_pt) <= height
+                    if stack_height(n, k, label_h, tried.line_gap_pt) <= height
                 ),
                 MAX_COLUMNS,
             )
         if max(columns.values()) == 1:
             break
-    return labels, columns, style
+    return labels, columns, tried
 
 
 def margin_width(labels: Sequence[MarginLabel], margin: Side, columns: int) -> float:

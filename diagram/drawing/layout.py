@@ -97,23 +97,23 @@ MIN_LESION_PT = 2.0  # shortest lesion still drawn visibly
 # --------------------------------------------------------------------------- the map
 
 
-def _bands(assessment: Assessment, st: Style) -> dict[str, BandStyle]:
-    out = {b.id: st.band_for(b.id, b.rank, b.label, b.look) for b in assessment.bands}
+def _bands(assessment: Assessment, style: Style) -> dict[str, BandStyle]:
+    out = {b.id: style.band_for(b.id, b.rank, b.label, b.look) for b in assessment.bands}
     if NOT_ASSESSED not in out:
-        out[NOT_ASSESSED] = st.band_for(NOT_ASSESSED)
+        out[NOT_ASSESSED] = style.band_for(NOT_ASSESSED)
     return out
 
 
-def _band(bands: dict[str, BandStyle], st: Style, band_id: str) -> str:
+def _band(bands: dict[str, BandStyle], style: Style, band_id: str) -> str:
     """Return ``band_id``, registering a style for an id the criteria set did not list."""
     if band_id not in bands:
-        bands[band_id] = st.band_for(band_id)
+        bands[band_id] = style.band_for(band_id)
     return band_id
 
 
-def _half_width(vessel: Vessel, st: Style) -> float:
-    width = vessel.diameter_mm * st.tube_pt_per_mm
-    return min(max(width, st.tube_min_pt), st.tube_max_pt) / 2
+def _half_width(vessel: Vessel, style: Style) -> float:
+    width = vessel.diameter_mm * style.tube_pt_per_mm
+    return min(max(width, style.tube_min_pt), style.tube_max_pt) / 2
 
 
 def _outline(vessel: Vessel, fit: Fit, s0: float, s1: float, hw: float) -> tuple[Point, ...]:
@@ -155,7 +155,7 @@ class _MapOut:
 
 
 def _draw_map(
-    assessment: Assessment, template: Template, fit: Fit, st: Style, bands: dict[str, BandStyle]
+    assessment: Assessment, template: Template, fit: Fit, style: Style, bands: dict[str, BandStyle]
 ) -> _MapOut:
     out = _MapOut()
     results = segment_results(assessment)
@@ -167,29 +167,29 @@ def _draw_map(
         vessel = template.vessels[key]
         res = results.get(key)
         # the lumen shows the segment's own sample; its lesions are drawn over it to scale
-        band = _band(bands, st, (res.base_band or res.band) if res else NOT_ASSESSED)
-        hw = _half_width(vessel, st)
+        band = _band(bands, style, (res.base_band or res.band) if res else NOT_ASSESSED)
+        hw = _half_width(vessel, style)
         out.half_widths[key] = hw
         pts = _outline(vessel, fit, 0.0, vessel.geometry.length(), hw)
         grow(vessel.side or "", _bbox(pts))
-        style = bands[band]
+        look = bands[band]
         out.tubes.append(
             Polygon(
                 make_id("vessel", key),
                 pts,
                 band=band,
-                stroke=style.outline,
-                stroke_width=st.tube_outline_pt,
-                dash=style.outline_dash,
+                stroke=look.outline,
+                stroke_width=style.tube_outline_pt,
+                dash=look.outline_dash,
             )
         )
     for side in (Side.RIGHT, Side.LEFT):
         limb = assessment.limbs.get(side)
         if limb is not None:
             for lesion in limb.lesions:
-                _draw_lesion(lesion, template, fit, st, bands, out)
-        _draw_stents(assessment, side, template, fit, st, out)
-        _draw_grafts(assessment, side, template, fit, st, out, grow)
+                _draw_lesion(lesion, template, fit, style, bands, out)
+        _draw_stents(assessment, side, template, fit, style, out)
+        _draw_grafts(assessment, side, template, fit, style, out, grow)
     return out
 
 
@@ -197,12 +197,12 @@ def _draw_lesion(
     lesion: LesionResult,
     template: Template,
     fit: Fit,
-    st: Style,
+    style: Style,
     bands: dict[str, BandStyle],
     out: _MapOut,
 ) -> None:
-    band = _band(bands, st, lesion.band)
-    style = bands[band]
+    band = _band(bands, style, lesion.band)
+    look = bands[band]
     stretch: list[tuple[Vessel, float, float]] = []
     for span in lesion.spans:
         vessel = template.vessels.get(vessel_key(lesion.side, span.segment))
@@ -214,14 +214,14 @@ def _draw_lesion(
         stretch.append((vessel, s0, s1))
     base = ("lesion", lesion.side.value, lesion.index)
     for j, (vessel, s0, s1) in enumerate(stretch):
-        hw = out.half_widths.get(vessel.key, _half_width(vessel, st))
+        hw = out.half_widths.get(vessel.key, _half_width(vessel, style))
         out.lesions.append(
             Polygon(
                 make_id(*base, "span", j),
                 _outline(vessel, fit, s0, s1, hw),
                 band=band,
-                stroke=style.outline,
-                stroke_width=st.tube_outline_pt * 1.4,
+                stroke=look.outline,
+                stroke_width=style.tube_outline_pt * 1.4,
             )
         )
     if stretch:
@@ -233,13 +233,13 @@ def _draw_lesion(
         for end, vessel, s, span in ends:
             if vessel.segment != span.segment:
                 continue  # the lesion runs on off the map: no tick where the map ends
-            hw = out.half_widths.get(vessel.key, _half_width(vessel, st))
+            hw = out.half_widths.get(vessel.key, _half_width(vessel, style))
             out.marks.append(
                 Line(
                     make_id(*base, "tick", end),
                     _across(vessel, fit, s, hw + 2.2),
-                    st.tick_ink,
-                    st.tick_pt,
+                    style.tick_ink,
+                    style.tick_pt,
                 )
             )
     point = lesion.reconstitution
@@ -247,7 +247,7 @@ def _draw_lesion(
     if point is not None and vessel_back is not None:
         vessel = vessel_back
         s = point.start_frac * vessel.geometry.length()
-        hw = out.half_widths.get(vessel.key, _half_width(vessel, st))
+        hw = out.half_widths.get(vessel.key, _half_width(vessel, style))
         (x, y), _ = frame(vessel, fit, s)
         ring = hw + 1.8
         out.marks.append(
@@ -257,7 +257,7 @@ def _draw_lesion(
                     Line(
                         make_id(*base, "reconstitution", "bar"),
                         _across(vessel, fit, s, ring + 2.6),
-                        st.marker_ink,
+                        style.marker_ink,
                         1.0,
                     ),
                     Circle(
@@ -265,7 +265,7 @@ def _draw_lesion(
                         x,
                         y,
                         ring,
-                        stroke=st.marker_ink,
+                        stroke=style.marker_ink,
                         stroke_width=1.0,
                     ),
                 ),
@@ -275,7 +275,7 @@ def _draw_lesion(
 
 
 def _draw_stents(
-    assessment: Assessment, side: Side, template: Template, fit: Fit, st: Style, out: _MapOut
+    assessment: Assessment, side: Side, template: Template, fit: Fit, style: Style, out: _MapOut
 ) -> None:
     for i, stent in enumerate(assessment.study.limb(side).stents):
         path = chain(stent.from_, stent.to)
@@ -301,8 +301,8 @@ def _draw_stents(
                     fit,
                     s0,
                     s1,
-                    out.half_widths.get(vessel.key, _half_width(vessel, st)),
-                    st,
+                    out.half_widths.get(vessel.key, _half_width(vessel, style)),
+                    style,
                     out.overlays,
                 )
             if left_cm <= 0:
@@ -316,7 +316,7 @@ def _mesh(
     s0: float,
     s1: float,
     hw: float,
-    st: Style,
+    style: Style,
     into: list[Item],
 ) -> None:
     """Draw a stent as two crossing zigzags inside the tube, with bars at its ends."""
@@ -330,15 +330,20 @@ def _mesh(
         off = 0.72 * hw * (1 if k % 2 else -1)
         zig.append((x + nx * off, y + ny * off))
         zag.append((x - nx * off, y - ny * off))
-    halo = st.stent_pt + 0.6  # a pale rim keeps the mesh visible on a dark (occluded) lumen
+    halo = style.stent_pt + 0.6  # a pale rim keeps the mesh visible on a dark (occluded) lumen
     parts: list[Item] = []
     for name, pts in (("a", zig), ("b", zag)):
-        parts.append(Line(f"{base}-{name}-halo", tuple(pts), st.graft_fill, halo))
+        parts.append(Line(f"{base}-{name}-halo", tuple(pts), style.graft_fill, halo))
     for name, pts in (("a", zig), ("b", zag)):
-        parts.append(Line(f"{base}-{name}", tuple(pts), st.stent_ink, st.stent_pt))
+        parts.append(Line(f"{base}-{name}", tuple(pts), style.stent_ink, style.stent_pt))
     for name, s in (("p", s0), ("d", s1)):
         parts.append(
-            Line(f"{base}-{name}", _across(vessel, fit, s, hw * 0.9), st.stent_ink, st.stent_pt * 2)
+            Line(
+                f"{base}-{name}",
+                _across(vessel, fit, s, hw * 0.9),
+                style.stent_ink,
+                style.stent_pt * 2,
+            )
         )
     into.append(Group(base, tuple(parts), role="stent"))
 
@@ -348,7 +353,7 @@ def _draw_grafts(
     side: Side,
     template: Template,
     fit: Fit,
-    st: Style,
+    style: Style,
     out: _MapOut,
     grow: Callable[[str, Box], None],
 ) -> None:
@@ -373,17 +378,22 @@ def _draw_grafts(
                 base,
                 (
                     PathItem(
-                        f"{base}-casing", cmds, stroke=st.graft_ink, stroke_width=st.graft_pt + 1.4
+                        f"{base}-casing",
+                        cmds,
+                        stroke=style.graft_ink,
+                        stroke_width=style.graft_pt + 1.4,
                     ),
-                    PathItem(f"{base}-lumen", cmds, stroke=st.graft_fill, stroke_width=st.graft_pt),
-                    Circle(f"{base}-from", *p0, 1.6, fill=st.graft_ink),
-                    Circle(f"{base}-to", *p3, 1.6, fill=st.graft_ink),
+                    PathItem(
+                        f"{base}-lumen", cmds, stroke=style.graft_fill, stroke_width=style.graft_pt
+                    ),
+                    Circle(f"{base}-from", *p0, 1.6, fill=style.graft_ink),
+                    Circle(f"{base}-to", *p3, 1.6, fill=style.graft_ink),
                 ),
                 role="graft",
             )
         )
         hull = _bbox((p0, p1, p2, p3))
-        pad = st.graft_pt
+        pad = style.graft_pt
         grow(side.value, Box(hull.x - pad, hull.y - pad, hull.w + 2 * pad, hull.h + 2 * pad))
 
 
@@ -405,13 +415,13 @@ def _fit_map(
     return Fit(scale, left - vx * scale, down - vy * scale), Box(left, down, w, h)
 
 
-def _register_bands(assessment: Assessment, st: Style, bands: dict[str, BandStyle]) -> None:
+def _register_bands(assessment: Assessment, style: Style, bands: dict[str, BandStyle]) -> None:
     """Add a style for any band the results use that the criteria sets did not list."""
     for limb in assessment.limbs.values():
         for seg in limb.segments.values():
-            _band(bands, st, seg.band)
+            _band(bands, style, seg.band)
         for les in limb.lesions:
-            _band(bands, st, les.band)
+            _band(bands, style, les.band)
 
 
 def _change_marks(
@@ -420,7 +430,7 @@ def _change_marks(
     fit: Fit,
     map_box: Box,
     half: dict[str, float],
-    st: Style,
+    style: Style,
 ) -> list[Item]:
     """Return the change symbol beside each segment whose band changed since the prior exam.
 
@@ -444,9 +454,9 @@ def _change_marks(
             nx, ny = (nx, ny) if ny < 0 else (-nx, -ny)
         elif (nx > 0) != (mid_x > x if seg != "AO" else True):
             nx, ny = -nx, -ny
-        off = half.get(vessel.key, 3.0) + 1.5 + st.change_mark_pt / 2
+        off = half.get(vessel.key, 3.0) + 1.5 + style.change_mark_pt / 2
         base = make_id("change", vessel.key)
-        out.append(change_mark(base, kinds[(side, seg)], x + nx * off, y + ny * off, st))
+        out.append(change_mark(base, kinds[(side, seg)], x + nx * off, y + ny * off, style))
     return out
 
 
@@ -497,23 +507,23 @@ def layout(
     if page not in PAGES:
         raise ValueError(f"page {page!r} is not one of {', '.join(PAGES)}")
     spec = PAGES[page]
-    st = style or default_style()
-    bands = _bands(assessment, st)
-    _register_bands(assessment, st, bands)
+    style = style or default_style()
+    bands = _bands(assessment, style)
+    _register_bands(assessment, style, bands)
     missing = not_drawn(assessment, template)
     x0, x1 = MARGIN_PT, spec.width_pt - MARGIN_PT
-    rise = sheet.footer_height(assessment, version, generated_note, st, x0, x1)
+    rise = sheet.footer_height(assessment, version, generated_note, style, x0, x1)
     top, bottom = MARGIN_PT, spec.height_pt - MARGIN_PT - rise
 
     head: list[Item] = []
     if spec.furniture:
-        head, top = sheet.header(assessment, st, x0, x1, top, case)
-    caution, bottom = sheet.caution(st, x0, x1, bottom - 2)
+        head, top = sheet.header(assessment, style, x0, x1, top, case)
+    caution, bottom = sheet.caution(style, x0, x1, bottom - 2)
     note_items: list[Item] = []
     if spec.furniture or missing:
         note_items, bottom = sheet.notes(
             assessment,
-            st,
+            style,
             x0,
             x1,
             bottom - BLOCK_GAP_PT / 2,
@@ -524,30 +534,30 @@ def layout(
     tables = _tables(assessment, bands) if spec.furniture else []
     changes = sorted({c.change.value for c in _changed(assessment)})
     symbols = sheet.symbols_used(assessment, changes)
-    pressure_h = sheet.pressure_height(assessment, st, x0, x1)
+    pressure_h = sheet.pressure_height(assessment, style, x0, x1)
     strip = pressure_h + BLOCK_GAP_PT if pressure_h else 0.0
     note = VELOCITY_NOTE + (" " + PRESSURE_SOURCES if pressure_h else "")
-    legend_h = -sheet.legend(list(bands.values()), symbols, st, x0, x1, 0.0, bands, note)[1]
+    legend_h = -sheet.legend(list(bands.values()), symbols, style, x0, x1, 0.0, bands, note)[1]
     room = bottom - 2 * BLOCK_GAP_PT - legend_h - strip - top - SIDE_MARK_STRIP_PT
-    need = sheet.tables_height(tables, x0, x1, st)
+    need = sheet.tables_height(tables, x0, x1, style)
     one_page = room - need >= MIN_MAP_SHARE * (spec.height_pt - 2 * MARGIN_PT)
     table_items: list[Item] = []
     more_pages: list[list[Item]] = []
     if tables and one_page:
-        table_items, _ = sheet.place_tables(tables, x0, x1, bottom - need, st, bands)
+        table_items, _ = sheet.place_tables(tables, x0, x1, bottom - need, style, bands)
         bottom -= need
     elif tables:
-        _, cont_top = sheet.header(assessment, st, x0, x1, MARGIN_PT, case, page_number=2)
+        _, cont_top = sheet.header(assessment, style, x0, x1, MARGIN_PT, case, page_number=2)
         page_bottom = spec.height_pt - MARGIN_PT - rise - 2
-        cont_bottom = sheet.caution(st, x0, x1, page_bottom)[1] - BLOCK_GAP_PT
-        more_pages = sheet.flow_tables(tables, x0, x1, cont_top, cont_bottom, st, bands)
-        table_items, bottom = sheet.see_next_page(tables, st, x0, x1, bottom - BLOCK_GAP_PT / 2)
+        cont_bottom = sheet.caution(style, x0, x1, page_bottom)[1] - BLOCK_GAP_PT
+        more_pages = sheet.flow_tables(tables, x0, x1, cont_top, cont_bottom, style, bands)
+        table_items, bottom = sheet.see_next_page(tables, style, x0, x1, bottom - BLOCK_GAP_PT / 2)
     key, legend_top = sheet.legend(
-        list(bands.values()), symbols, st, x0, x1, bottom - BLOCK_GAP_PT, bands, note
+        list(bands.values()), symbols, style, x0, x1, bottom - BLOCK_GAP_PT, bands, note
     )
     area_top = top + SIDE_MARK_STRIP_PT
     area_bottom = legend_top - BLOCK_GAP_PT - strip
-    labels, columns, label_st = choose_columns(assessment, template, st, area_bottom - area_top)
+    labels, columns, label_st = choose_columns(assessment, template, style, area_bottom - area_top)
     widths = (
         margin_width(labels, Side.RIGHT, columns[Side.RIGHT]),
         margin_width(labels, Side.LEFT, columns[Side.LEFT]),
@@ -555,7 +565,7 @@ def layout(
     if max(columns.values()) == 1:  # keep the map centred on the page
         widths = (max(widths), max(widths))
     fit, map_box = _fit_map(template, x0, x1, area_top, area_bottom, widths)
-    drawn = _draw_map(assessment, template, fit, st, bands)
+    drawn = _draw_map(assessment, template, fit, style, bands)
     label_boxes, leaders, label_items = place_labels(
         labels,
         template,
@@ -567,14 +577,14 @@ def layout(
         label_st,
         bands,
     )
-    change_items = _change_marks(assessment, template, fit, map_box, drawn.half_widths, st)
+    change_items = _change_marks(assessment, template, fit, map_box, drawn.half_widths, style)
     silhouette = tuple(
         PathItem(
             make_id("silhouette", k),
             path_commands(d, fit),
-            fill=st.silhouette_fill,
-            stroke=st.silhouette_stroke,
-            stroke_width=st.silhouette_width_pt,
+            fill=style.silhouette_fill,
+            stroke=style.silhouette_stroke,
+            stroke_width=style.silhouette_width_pt,
         )
         for k, d in enumerate(template.silhouette)
     )
@@ -584,10 +594,10 @@ def layout(
             leg.x + leg.w / 2,
             map_box.y - 3,
             side.value[0].upper(),
-            st.side_mark_pt,
+            style.side_mark_pt,
             Weight.BOLD,
             Anchor.MIDDLE,
-            st.muted_ink,
+            style.muted_ink,
         )
         for side in (Side.RIGHT, Side.LEFT)
         if (leg := drawn.boxes.get(side.value)) is not None
@@ -600,12 +610,12 @@ def layout(
         drawn.boxes,
         map_box,
         (x0, x1, area_bottom + BLOCK_GAP_PT / 2, pressure_h),
-        st,
+        style,
         bands,
     )
     count = 1 + len(more_pages)
     foot, _ = sheet.footer(
-        assessment, version, generated_note, st, x0, x1, spec.height_pt - MARGIN_PT, (1, count)
+        assessment, version, generated_note, style, x0, x1, spec.height_pt - MARGIN_PT, (1, count)
     )
     map_groups = [
         Group("silhouette", silhouette, role="silhouette"),
@@ -649,7 +659,7 @@ def layout(
     )
     rest = tuple(
         sheet.continuation(
-            assessment, spec, st, bands, body, (n, count), version, generated_note, case
+            assessment, spec, style, bands, body, (n, count), version, generated_note, case
         )
         for n, body in enumerate(more_pages, start=2)
     )
@@ -658,7 +668,7 @@ def layout(
         width_pt=spec.width_pt,
         height_pt=spec.height_pt,
         unit=spec.unit,
-        font_family=st.font_family,
+        font_family=style.font_family,
         bands=tuple(bands.values()),
         items=tuple(item for item in items if not (isinstance(item, Group) and not item.items)),
         map_box=map_box,

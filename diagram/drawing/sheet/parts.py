@@ -83,37 +83,45 @@ KIND = "Lower-limb arterial duplex"
 
 
 def _title_line(
-    title: str | None, right: str, st: Style, x0: float, x1: float, y: float
+    title: str | None, right: str, style: Style, x0: float, x1: float, y: float
 ) -> tuple[list[Item], float]:
     """Return a bold title at the left and a muted note at the right; the y below them."""
-    asc, desc = line_extents(st.header_title_pt, True)
+    asc, desc = line_extents(style.header_title_pt, True)
     baseline = y + asc
     items: list[Item] = [
-        Text("header-kind", x1, baseline, right, st.header_pt, anchor=Anchor.END, fill=st.muted_ink)
+        Text(
+            "header-kind",
+            x1,
+            baseline,
+            right,
+            style.header_pt,
+            anchor=Anchor.END,
+            fill=style.muted_ink,
+        )
     ]
     if title:
-        room = x1 - x0 - text_width(right, st.header_pt) - 12
-        shown = ellipsize(title, st.header_title_pt, room, True)
+        room = x1 - x0 - text_width(right, style.header_pt) - 12
+        shown = ellipsize(title, style.header_title_pt, room, True)
         items.append(
             Text(
                 "header-site",
                 x0,
                 baseline,
                 shown,
-                st.header_title_pt,
+                style.header_title_pt,
                 Weight.BOLD,
-                fill=st.text_ink,
+                fill=style.text_ink,
             )
         )
     return items, baseline + desc + 2
 
 
 def _fields(
-    rows: Sequence[Sequence[tuple[str, str | None]]], st: Style, x0: float, x1: float, y: float
+    rows: Sequence[Sequence[tuple[str, str | None]]], style: Style, x0: float, x1: float, y: float
 ) -> tuple[list[Item], float]:
     """Return rows of "name value" pairs (only those with a value), wrapping at ``x1``."""
     items: list[Item] = []
-    h_asc, h_desc = line_extents(st.header_pt)
+    h_asc, h_desc = line_extents(style.header_pt)
     line_h = h_asc + h_desc + 1.5
     for r, row in enumerate(rows):
         present = [(k, v) for k, v in row if v]
@@ -121,7 +129,7 @@ def _fields(
             continue
         x, baseline = x0, y + h_asc
         for k, (name, value) in enumerate(present):
-            name_w = text_width(name + "  ", st.header_pt)
+            name_w = text_width(name + "  ", style.header_pt)
             if k and x + name_w + 40 > x1:
                 x, y = x0, y + line_h
                 baseline = y + h_asc
@@ -131,36 +139,38 @@ def _fields(
                     x,
                     baseline,
                     name,
-                    st.header_pt,
-                    fill=st.muted_ink,
+                    style.header_pt,
+                    fill=style.muted_ink,
                 )
             )
-            shown = ellipsize(str(value), st.header_pt, x1 - x - name_w, True)
+            shown = ellipsize(str(value), style.header_pt, x1 - x - name_w, True)
             items.append(
                 Text(
                     make_id("header", r, k, "value"),
                     x + name_w,
                     baseline,
                     shown,
-                    st.header_pt,
+                    style.header_pt,
                     Weight.BOLD,
-                    fill=st.text_ink,
+                    fill=style.text_ink,
                 )
             )
-            x += name_w + text_width(shown, st.header_pt, True) + 14
+            x += name_w + text_width(shown, style.header_pt, True) + 14
         y += line_h
     return items, y
 
 
-def _rule(items: list[Item], st: Style, x0: float, x1: float, y: float) -> tuple[list[Item], float]:
+def _rule(
+    items: list[Item], style: Style, x0: float, x1: float, y: float
+) -> tuple[list[Item], float]:
     y += 2
-    items.append(Line("header-rule", ((x0, y), (x1, y)), st.rule_ink, 0.5))
+    items.append(Line("header-rule", ((x0, y), (x1, y)), style.rule_ink, 0.5))
     return items, y + BLOCK_GAP_PT
 
 
 def header(
     assessment: Assessment,
-    st: Style,
+    style: Style,
     x0: float,
     x1: float,
     y: float,
@@ -176,17 +186,17 @@ def header(
     more = page_number > 1
     right = KIND if not more else f"{KIND} · continued"
     if case is not None:
-        items, y = _title_line(f"Teaching case {case.case_id}", right, st, x0, x1, y)
+        items, y = _title_line(f"Teaching case {case.case_id}", right, style, x0, x1, y)
         row = (
             ("Year", None if case.year is None else str(case.year)),
             ("Age", case.age),
             ("Sex", case.sex),
         )
-        fields, y = _fields((row,), st, x0, x1, y)
-        return _rule(items + fields, st, x0, x1, y)
+        fields, y = _fields((row,), style, x0, x1, y)
+        return _rule(items + fields, style, x0, x1, y)
     study = assessment.study
     p, e = study.patient, study.exam
-    items, y = _title_line(st.lab_name or study.exam.site, right, st, x0, x1, y)
+    items, y = _title_line(style.lab_name or study.exam.site, right, style, x0, x1, y)
     who = (
         ("Patient", p.name),
         ("ID", p.id),
@@ -195,14 +205,14 @@ def header(
     )
     exam = (("Exam", e.date.isoformat() if e.date else None), ("Accession", e.accession))
     rows = ((*who[:3], exam[0]),) if more else (who, exam, (("Indication", e.indication),))
-    fields, y = _fields(rows, st, x0, x1, y)
-    return _rule(items + fields, st, x0, x1, y)
+    fields, y = _fields(rows, style, x0, x1, y)
+    return _rule(items + fields, style, x0, x1, y)
 
 
 def text_block(
     base: str,
     lines: Sequence[tuple[str, bool]],
-    st: Style,
+    style: Style,
     size: float,
     x: float,
     bottom: float,
@@ -231,7 +241,7 @@ def footer(
     assessment: Assessment,
     version: str,
     note: str | None,
-    st: Style,
+    style: Style,
     x0: float,
     x1: float,
     bottom: float,
@@ -242,15 +252,15 @@ def footer(
     The criteria sets are never cut: they wrap, at a width that leaves room for any page number,
     so that every page of a sheet has the same footer height.
     """
-    asc, desc = line_extents(st.small_pt)
+    asc, desc = line_extents(style.small_pt)
     line_h = asc + desc + 1.0
     right = f"limbchart {version}" if not note else f"{note} · limbchart {version}"
-    room = x1 - x0 - text_width(f"page 99 of 99 · {right}", st.small_pt) - 12
+    room = x1 - x0 - text_width(f"page 99 of 99 · {right}", style.small_pt) - 12
     if page[1] > 1:
         right = f"page {page[0]} of {page[1]} · {right}"
     sets = assessment.criteria_used or ((assessment.criteria_name, assessment.criteria_title, ""),)
     left = "Criteria: " + "; ".join(f"{title} ({name})" for name, title, _ in sets)
-    lines = wrap(left, st.small_pt, room)
+    lines = wrap(left, style.small_pt, room)
     baseline = bottom - desc
     items: list[Item] = [
         Text(
@@ -258,14 +268,20 @@ def footer(
             x0,
             baseline - (len(lines) - 1 - k) * line_h,
             text,
-            st.small_pt,
-            fill=st.muted_ink,
+            style.small_pt,
+            fill=style.muted_ink,
         )
         for k, text in enumerate(lines)
     ]
     items.append(
         Text(
-            "footer-version", x1, baseline, right, st.small_pt, anchor=Anchor.END, fill=st.muted_ink
+            "footer-version",
+            x1,
+            baseline,
+            right,
+            style.small_pt,
+            anchor=Anchor.END,
+            fill=style.muted_ink,
         )
     )
     return items, bottom - asc - desc - (len(lines) - 1) * line_h
@@ -283,21 +299,21 @@ def _free_text(study: Study) -> list[str]:
 
 
 def footer_height(
-    assessment: Assessment, version: str, note: str | None, st: Style, x0: float, x1: float
+    assessment: Assessment, version: str, note: str | None, style: Style, x0: float, x1: float
 ) -> float:
     """Return the height of the footer (the same on every page of a sheet)."""
-    return -footer(assessment, version, note, st, x0, x1, 0.0, (99, 99))[1]
+    return -footer(assessment, version, note, style, x0, x1, 0.0, (99, 99))[1]
 
 
-def caution(st: Style, x0: float, x1: float, bottom: float) -> tuple[list[Item], float]:
+def caution(style: Style, x0: float, x1: float, bottom: float) -> tuple[list[Item], float]:
     """Return the fixed caution, set to end at ``bottom``, and its top."""
-    lines = [(t, False) for t in wrap(CAUTION, st.caution_pt, x1 - x0)]
-    return text_block("caution", lines, st, st.caution_pt, x0, bottom, st.text_ink)
+    lines = [(t, False) for t in wrap(CAUTION, style.caution_pt, x1 - x0)]
+    return text_block("caution", lines, style, style.caution_pt, x0, bottom, style.text_ink)
 
 
 def notes(
     assessment: Assessment,
-    st: Style,
+    style: Style,
     x0: float,
     x1: float,
     bottom: float,
@@ -318,21 +334,21 @@ def notes(
         withheld, messages = len(messages) - len(kept), kept
     if not messages and not extra and not withheld:
         return [], bottom
-    shown = messages[: st.max_warnings]
+    shown = messages[: style.max_warnings]
     lines: list[tuple[str, bool]] = [("Measurement notes", True)]
     for message in (*extra, *shown):
-        wrapped = wrap(message, st.small_pt, x1 - x0 - 10)
+        wrapped = wrap(message, style.small_pt, x1 - x0 - 10)
         lines.extend((("• " if k == 0 else "  ") + text, False) for k, text in enumerate(wrapped))
     if len(messages) > len(shown):
         lines.append((f"+{len(messages) - len(shown)} more in the results file", False))
     if withheld:
         lines.append((f"{withheld} note(s) left out: they quote the study's own text", False))
-    items, top = text_block("notes", lines, st, st.small_pt, x0, bottom, st.warning_ink)
+    items, top = text_block("notes", lines, style, style.small_pt, x0, bottom, style.warning_ink)
     return items, top
 
 
 def _symbol(
-    kind: str, x: float, y: float, w: float, h: float, st: Style, bands: Mapping[str, BandStyle]
+    kind: str, x: float, y: float, w: float, h: float, style: Style, bands: Mapping[str, BandStyle]
 ) -> Item:
     """Draw a legend symbol in the box (x, y, w, h)."""
     base = make_id("legend", "symbol", kind)
@@ -346,7 +362,7 @@ def _symbol(
         parts = [
             tube,
             *(
-                Line(f"{base}-{k}", ((tx, y - 1), (tx, y + h + 1)), st.tick_ink, st.tick_pt)
+                Line(f"{base}-{k}", ((tx, y - 1), (tx, y + h + 1)), style.tick_ink, style.tick_pt)
                 for k, tx in enumerate((x + 5, x + w - 5))
             ),
         ]
@@ -354,8 +370,8 @@ def _symbol(
         cx = x + w / 2
         parts = [
             tube,
-            Line(f"{base}-bar", ((cx, y - 2), (cx, y + h + 2)), st.marker_ink, 1.0),
-            Circle(f"{base}-ring", cx, mid, h / 2 + 1, stroke=st.marker_ink, stroke_width=1.0),
+            Line(f"{base}-bar", ((cx, y - 2), (cx, y + h + 2)), style.marker_ink, 1.0),
+            Circle(f"{base}-ring", cx, mid, h / 2 + 1, stroke=style.marker_ink, stroke_width=1.0),
         ]
     elif kind == "stent":
         step = w / 8
@@ -363,16 +379,18 @@ def _symbol(
         zag = tuple((px, 2 * mid - py) for px, py in zig)
         parts = [
             tube,
-            Line(f"{base}-a", zig, st.stent_ink, st.stent_pt),
-            Line(f"{base}-b", zag, st.stent_ink, st.stent_pt),
+            Line(f"{base}-a", zig, style.stent_ink, style.stent_pt),
+            Line(f"{base}-b", zag, style.stent_ink, style.stent_pt),
         ]
     elif kind in CHANGE_WORDS:
-        return change_mark(base, kind, x + w / 2, mid, st)
+        return change_mark(base, kind, x + w / 2, mid, style)
     else:  # graft
         cmds: tuple[PathCommand, ...] = (("M", (x, mid)), ("L", (x + w, mid)))
         parts = [
-            PathItem(f"{base}-casing", cmds, stroke=st.graft_ink, stroke_width=st.graft_pt + 1.4),
-            PathItem(f"{base}-lumen", cmds, stroke=st.graft_fill, stroke_width=st.graft_pt),
+            PathItem(
+                f"{base}-casing", cmds, stroke=style.graft_ink, stroke_width=style.graft_pt + 1.4
+            ),
+            PathItem(f"{base}-lumen", cmds, stroke=style.graft_fill, stroke_width=style.graft_pt),
         ]
     return Group(base, tuple(parts), role="legend-symbol")
 
@@ -389,7 +407,7 @@ SYMBOL_LABELS: Mapping[str, str] = {
 def legend(
     bands: Sequence[BandStyle],
     symbols: Sequence[str],
-    st: Style,
+    style: Style,
     x0: float,
     x1: float,
     bottom: float,
@@ -403,19 +421,19 @@ def legend(
     placed: list[tuple[int, float, tuple[str, str, str]]] = []
     row, x = 0, x0
     for entry in entries:
-        w = sw_w + 4 + text_width(entry[2], st.legend_pt) + 12
+        w = sw_w + 4 + text_width(entry[2], style.legend_pt) + 12
         if x > x0 and x + w > x1:
             row, x = row + 1, x0
         placed.append((row, x, entry))
         x += w
     note_items, note_top = text_block(
         "legend-note",
-        [(t, False) for t in wrap(note, st.small_pt, x1 - x0)],
-        st,
-        st.small_pt,
+        [(t, False) for t in wrap(note, style.small_pt, x1 - x0)],
+        style,
+        style.small_pt,
         x0,
         bottom,
-        st.muted_ink,
+        style.muted_ink,
     )
     top = note_top - 2 - (row + 1) * row_h
     items: list[Item] = []
@@ -437,18 +455,18 @@ def legend(
                 )
             )
         else:
-            items.append(_symbol(key, ex, sy, sw_w, sw_h, st, all_bands))
+            items.append(_symbol(key, ex, sy, sw_w, sw_h, style, all_bands))
         items.append(
             Text(
                 make_id("legend", "label", what, key),
                 ex + sw_w + 4,
-                sy + sw_h / 2 + 0.36 * st.legend_pt,
+                sy + sw_h / 2 + 0.36 * style.legend_pt,
                 label,
-                st.legend_pt,
-                fill=st.text_ink,
+                style.legend_pt,
+                fill=style.text_ink,
             )
         )
-    rule = Line("legend-rule", ((x0, top - 3), (x1, top - 3)), st.rule_ink, 0.5)
+    rule = Line("legend-rule", ((x0, top - 3), (x1, top - 3)), style.rule_ink, 0.5)
     return [rule, Group("legend", (*items, *note_items), role="legend")], top - 3
 
 
@@ -483,13 +501,13 @@ def pressure_box_width(x0: float, x1: float) -> float:
     return min(PRESSURE_BOX_MAX_PT, (x1 - x0) / 2 - 4)
 
 
-def pressure_height(assessment: Assessment, st: Style, x0: float, x1: float) -> float:
+def pressure_height(assessment: Assessment, style: Style, x0: float, x1: float) -> float:
     """Return the height of the ankle pressure strip (0 without pressures)."""
     if not has_pressures(assessment):
         return 0.0
     width = pressure_box_width(x0, x1)
     return max(
-        box_height(pressure_entries(assessment.indices.get(side)), width, st)
+        box_height(pressure_entries(assessment.indices.get(side)), width, style)
         for side in (Side.RIGHT, Side.LEFT)
     )
 
@@ -499,7 +517,7 @@ def pressure_boxes(
     drawn: Mapping[str, Box],
     map_box: Box,
     span: tuple[float, float, float, float],
-    st: Style,
+    style: Style,
     bands: Mapping[str, BandStyle],
 ) -> tuple[list[Item], tuple[Region, ...]]:
     """Return each leg's pressure box, under its ankle, in ``span`` (x0, x1, top, height)."""
@@ -523,7 +541,7 @@ def pressure_boxes(
         base = make_id("pressure", side.value)
         entries = pressure_entries(assessment.indices.get(side))
         title = f"{side.value.capitalize()} leg"
-        items += draw_box(base, title, entries, box, st, bands)
+        items += draw_box(base, title, entries, box, style, bands)
         regions.append(Region(base, side.value, box))
     return items, tuple(regions)
 
@@ -535,12 +553,12 @@ def _clamp(v: float, lo: float, hi: float) -> float:
 # --------------------------------------------------------------------------- tables on the page
 
 
-def tables_height(tables: Sequence[Table], x0: float, x1: float, st: Style) -> float:
+def tables_height(tables: Sequence[Table], x0: float, x1: float, style: Style) -> float:
     """Return the height the tables take set one under the other (with the gaps between)."""
     total = 0.0
     for table in tables:
-        rows = sum(row_heights(table, x0, x1, st))
-        total += table_head_height(st) + rows + notes_height(table, x0, x1, st) + BLOCK_GAP_PT
+        rows = sum(row_heights(table, x0, x1, style))
+        total += table_head_height(style) + rows + notes_height(table, x0, x1, style) + BLOCK_GAP_PT
     return total
 
 
@@ -549,14 +567,16 @@ def place_tables(
     x0: float,
     x1: float,
     top: float,
-    st: Style,
+    style: Style,
     bands: Mapping[str, BandStyle],
 ) -> tuple[list[Item], float]:
     """Return the tables set one under the other from ``top``, and the y below the last."""
     items: list[Item] = []
     y = top
     for table in tables:
-        more, y = draw_table(table, range(len(table.rows)), x0, x1, y, st, bands, with_notes=True)
+        more, y = draw_table(
+            table, range(len(table.rows)), x0, x1, y, style, bands, with_notes=True
+        )
         items += more
         y += BLOCK_GAP_PT
     return items, y
@@ -568,16 +588,16 @@ def flow_tables(
     x1: float,
     top: float,
     bottom: float,
-    st: Style,
+    style: Style,
     bands: Mapping[str, BandStyle],
 ) -> list[list[Item]]:
     """Return the tables set on as many pages as they need (rows kept whole), page by page."""
     pages: list[list[Item]] = [[]]
     y = top
     for table in tables:
-        heights = row_heights(table, x0, x1, st)
-        foot = notes_height(table, x0, x1, st)
-        head = table_head_height(st)
+        heights = row_heights(table, x0, x1, style)
+        foot = notes_height(table, x0, x1, style)
+        head = table_head_height(style)
         i, continued = 0, False
         while i < len(heights):
             room = bottom - y - head
@@ -593,7 +613,7 @@ def flow_tables(
             j = max(j, i + 1)  # a row taller than a page is set anyway
             last = j == len(heights)
             items, y = draw_table(
-                table, range(i, j), x0, x1, y, st, bands, with_notes=last, continued=continued
+                table, range(i, j), x0, x1, y, style, bands, with_notes=last, continued=continued
             )
             pages[-1] += items
             y += BLOCK_GAP_PT
@@ -602,13 +622,13 @@ def flow_tables(
 
 
 def see_next_page(
-    tables: Sequence[Table], st: Style, x0: float, x1: float, bottom: float
+    tables: Sequence[Table], style: Style, x0: float, x1: float, bottom: float
 ) -> tuple[list[Item], float]:
     """Return the line that sends the reader to page 2 for the tables, ending at ``bottom``."""
     names = {"planning": "planning summary", "changes": "change since the prior exam"}
     what = " and ".join(names.get(t.id, t.id) for t in tables)
     line = [(f"{what[0].upper()}{what[1:]}: page 2.", True)]
-    items, top = text_block("next-page", line, st, st.table_pt, x0, bottom, st.text_ink)
+    items, top = text_block("next-page", line, style, style.table_pt, x0, bottom, style.text_ink)
     return [Group("next-page", tuple(items), role="next-page")], top
 
 
@@ -627,7 +647,7 @@ def blocks(named: Sequence[tuple[str, Sequence[Item]]]) -> tuple[Block, ...]:
 def continuation(
     assessment: Assessment,
     spec: PageSpec,
-    st: Style,
+    style: Style,
     bands: Mapping[str, BandStyle],
     body: list[Item],
     page: tuple[int, int],
@@ -637,11 +657,11 @@ def continuation(
 ) -> Scene:
     """Return a further page: a short header, the tables that did not fit, caution and footer."""
     x0, x1 = MARGIN_PT, spec.width_pt - MARGIN_PT
-    head, _ = header(assessment, st, x0, x1, MARGIN_PT, case, page_number=page[0])
+    head, _ = header(assessment, style, x0, x1, MARGIN_PT, case, page_number=page[0])
     bottom = spec.height_pt - MARGIN_PT
-    foot, _ = footer(assessment, version, generated_note, st, x0, x1, bottom, page)
-    rise = footer_height(assessment, version, generated_note, st, x0, x1)
-    warn, _ = caution(st, x0, x1, bottom - rise - 2)
+    foot, _ = footer(assessment, version, generated_note, style, x0, x1, bottom, page)
+    rise = footer_height(assessment, version, generated_note, style, x0, x1)
+    warn, _ = caution(style, x0, x1, bottom - rise - 2)
     items: list[Item] = [
         Rect("page", 0, 0, spec.width_pt, spec.height_pt, fill="#FFFFFF"),
         Group("header", tuple(head), role="header"),
@@ -663,7 +683,7 @@ def continuation(
         width_pt=spec.width_pt,
         height_pt=spec.height_pt,
         unit=spec.unit,
-        font_family=st.font_family,
+        font_family=style.font_family,
         bands=tuple(bands.values()),
         items=tuple(items),
         map_box=empty,

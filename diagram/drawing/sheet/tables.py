@@ -421,14 +421,14 @@ def change_table(comparison: Comparison, bands: Mapping[str, BandStyle]) -> Tabl
 # --------------------------------------------------------------------------- change symbol
 
 
-def change_mark(base: str, kind: str, cx: float, cy: float, st: Style) -> Item:
+def change_mark(base: str, kind: str, cx: float, cy: float, style: Style) -> Item:
     """Draw the change symbol centred on (cx, cy).
 
     Worse: a solid triangle pointing up; better: an open triangle pointing down; new occlusion:
     a solid diamond; occlusion no longer seen: an open diamond. A white rim keeps each mark
     readable over a vessel.
     """
-    r = st.change_mark_pt / 2
+    r = style.change_mark_pt / 2
     if kind in (Change.WORSE, Change.BETTER):
         sign = 1.0 if kind == Change.WORSE else -1.0
         pts: tuple[Point, ...] = (
@@ -446,8 +446,8 @@ def change_mark(base: str, kind: str, cx: float, cy: float, st: Style) -> Item:
             Polygon(
                 f"{base}-mark",
                 pts,
-                fill=st.change_ink if solid else "#FFFFFF",
-                stroke=st.change_ink,
+                fill=style.change_ink if solid else "#FFFFFF",
+                stroke=style.change_ink,
                 stroke_width=0.9,
             ),
         ),
@@ -465,25 +465,25 @@ class _Piece:
     tone: Tone
 
 
-def _font(tone: Tone, st: Style) -> tuple[float, bool]:
+def _font(tone: Tone, style: Style) -> tuple[float, bool]:
     if tone is Tone.BASIS:
-        return st.small_pt, False
-    return st.table_pt, tone in (Tone.STRONG, Tone.FLAG)
+        return style.small_pt, False
+    return style.table_pt, tone in (Tone.STRONG, Tone.FLAG)
 
 
-def line_height(st: Style) -> float:
+def line_height(style: Style) -> float:
     """Return the height of one line of a table or box."""
-    asc, desc = line_extents(st.table_pt)
+    asc, desc = line_extents(style.table_pt)
     return asc + desc + 1.0
 
 
-def flow(entry: Entry, width: float, st: Style) -> list[list[_Piece]]:
+def flow(entry: Entry, width: float, style: Style) -> list[list[_Piece]]:
     """Break an entry's runs into lines no wider than ``width`` (words kept whole)."""
     lead = (CHIP_PT + 3.0) if entry.chip or entry.mark else 0.0
     lines: list[list[_Piece]] = [[]]
     x = lead
     for run in entry.runs:
-        size, bold = _font(run.tone, st)
+        size, bold = _font(run.tone, style)
         for token in _TOKENS.findall(run.text):
             word = token.rstrip()
             if word and lines[-1] and x + text_width(word, size, bold) > width:
@@ -506,14 +506,14 @@ def _set(
     x: float,
     top: float,
     width: float,
-    st: Style,
+    style: Style,
     bands: Mapping[str, BandStyle],
 ) -> tuple[list[Item], float]:
     """Return the items of one entry set from ``top``, and the y below it."""
-    lh = line_height(st)
-    asc, _ = line_extents(st.table_pt)
+    lh = line_height(style)
+    asc, _ = line_extents(style.table_pt)
     items: list[Item] = []
-    lines = flow(entry, width, st)
+    lines = flow(entry, width, style)
     if entry.chip is not None and entry.chip in bands:
         chip = bands[entry.chip]
         y = top + (lh - CHIP_PT) / 2
@@ -531,11 +531,13 @@ def _set(
             )
         )
     if entry.mark is not None:
-        items.append(change_mark(f"{base}-mark", entry.mark, x + CHIP_PT / 2, top + lh / 2, st))
+        items.append(change_mark(f"{base}-mark", entry.mark, x + CHIP_PT / 2, top + lh / 2, style))
     for i, pieces in enumerate(lines):
         for j, piece in enumerate(pieces):
-            size, bold = _font(piece.tone, st)
-            ink = {Tone.BASIS: st.muted_ink, Tone.FLAG: st.warning_ink}.get(piece.tone, st.text_ink)
+            size, bold = _font(piece.tone, style)
+            ink = {Tone.BASIS: style.muted_ink, Tone.FLAG: style.warning_ink}.get(
+                piece.tone, style.text_ink
+            )
             items.append(
                 Text(
                     f"{base}-{i}-{j}",
@@ -556,13 +558,13 @@ def _set_cell(
     x: float,
     top: float,
     width: float,
-    st: Style,
+    style: Style,
     bands: Mapping[str, BandStyle],
 ) -> tuple[list[Item], float]:
     items: list[Item] = []
     y = top
     for k, entry in enumerate(cell):
-        more, y = _set(f"{base}-{k}", entry, x, y, width, st, bands)
+        more, y = _set(f"{base}-{k}", entry, x, y, width, style, bands)
         items.extend(more)
     return items, y
 
@@ -575,12 +577,12 @@ def draw_box(
     title: str,
     entries: Sequence[Entry],
     box: Box,
-    st: Style,
+    style: Style,
     bands: Mapping[str, BandStyle],
 ) -> list[Item]:
     """Return a framed box with a bold title line and its entries, set inside ``box``."""
-    lh = line_height(st)
-    asc, _ = line_extents(st.table_pt)
+    lh = line_height(style)
+    asc, _ = line_extents(style.table_pt)
     x, y = box.x + CELL_PAD_PT, box.y + CELL_PAD_PT
     items: list[Item] = [
         Rect(
@@ -589,22 +591,22 @@ def draw_box(
             box.y,
             box.w,
             box.h,
-            fill=st.box_fill,
-            stroke=st.rule_ink,
+            fill=style.box_fill,
+            stroke=style.rule_ink,
             stroke_width=0.5,
         ),
-        Text(f"{base}-title", x, y + asc, title, st.table_pt, Weight.BOLD, fill=st.text_ink),
+        Text(f"{base}-title", x, y + asc, title, style.table_pt, Weight.BOLD, fill=style.text_ink),
     ]
     cell, _ = _set_cell(
-        f"{base}-line", tuple(entries), x, y + lh, box.w - 2 * CELL_PAD_PT, st, bands
+        f"{base}-line", tuple(entries), x, y + lh, box.w - 2 * CELL_PAD_PT, style, bands
     )
     return [Group(base, (*items, *cell), role="pressure-box")]
 
 
-def box_height(entries: Sequence[Entry], width: float, st: Style) -> float:
+def box_height(entries: Sequence[Entry], width: float, style: Style) -> float:
     """Return the height ``draw_box`` needs for ``entries`` at ``width``."""
-    lines = sum(len(flow(e, width - 2 * CELL_PAD_PT, st)) for e in entries)
-    return (lines + 1) * line_height(st) + 2 * CELL_PAD_PT
+    lines = sum(len(flow(e, width - 2 * CELL_PAD_PT, style)) for e in entries)
+    return (lines + 1) * line_height(style) + 2 * CELL_PAD_PT
 
 
 @dataclass(frozen=True)
@@ -620,30 +622,30 @@ class _Columns:
         return _Columns((x0, LABEL_COLUMN_PT - CELL_PAD_PT), cells)
 
 
-def row_heights(table: Table, x0: float, x1: float, st: Style) -> list[float]:
+def row_heights(table: Table, x0: float, x1: float, style: Style) -> list[float]:
     """Return the height of each row of ``table`` set between ``x0`` and ``x1``."""
     cols = _Columns.of(x0, x1)
-    lh = line_height(st)
+    lh = line_height(style)
     out = []
     for row in table.rows:
         lines = [
-            sum(len(flow(e, w, st)) for e in cell)
+            sum(len(flow(e, w, style)) for e in cell)
             for cell, (_, w) in zip(row.cells, cols.cells, strict=True)
         ]
-        label_lines = len(flow(_entry(_basis(row.label)), cols.label[1], st))
+        label_lines = len(flow(_entry(_basis(row.label)), cols.label[1], style))
         out.append(max([*lines, label_lines]) * lh + 2.0)
     return out
 
 
-def table_head_height(st: Style) -> float:
+def table_head_height(style: Style) -> float:
     """Return the height of a table's title and column heads."""
-    return 2 * line_height(st) + 3.0
+    return 2 * line_height(style) + 3.0
 
 
-def notes_height(table: Table, x0: float, x1: float, st: Style) -> float:
+def notes_height(table: Table, x0: float, x1: float, style: Style) -> float:
     """Return the height of a table's foot notes."""
-    lines = sum(len(flow(e, x1 - x0, st)) for e in table.notes)
-    return lines * line_height(st) + (2.0 if lines else 0.0)
+    lines = sum(len(flow(e, x1 - x0, style)) for e in table.notes)
+    return lines * line_height(style) + (2.0 if lines else 0.0)
 
 
 def draw_table(
@@ -652,7 +654,7 @@ def draw_table(
     x0: float,
     x1: float,
     top: float,
-    st: Style,
+    style: Style,
     bands: Mapping[str, BandStyle],
     *,
     with_notes: bool,
@@ -660,36 +662,48 @@ def draw_table(
 ) -> tuple[list[Item], float]:
     """Return the items of ``rows`` of ``table`` set from ``top`` (title and heads first)."""
     cols = _Columns.of(x0, x1)
-    lh = line_height(st)
-    asc, _ = line_extents(st.table_pt)
+    lh = line_height(style)
+    asc, _ = line_extents(style.table_pt)
     base = table.id + ("-cont" if continued else "")
     title = table.title + ((_basis(" (continued)"),) if continued else ())
-    items, y = _set(f"{base}-title", Entry(title), x0, top, x1 - x0, st, bands)
+    items, y = _set(f"{base}-title", Entry(title), x0, top, x1 - x0, style, bands)
     for (x, _), name in zip(cols.cells, ("Right", "Left"), strict=True):
         items.append(
             Text(
-                f"{base}-head-{name}", x, y + asc, name, st.table_pt, Weight.BOLD, fill=st.text_ink
+                f"{base}-head-{name}",
+                x,
+                y + asc,
+                name,
+                style.table_pt,
+                Weight.BOLD,
+                fill=style.text_ink,
             )
         )
     y += lh + 1.0
-    items.append(Line(f"{base}-rule", ((x0, y), (x1, y)), st.rule_ink, 0.6))
+    items.append(Line(f"{base}-rule", ((x0, y), (x1, y)), style.rule_ink, 0.6))
     y += 2.0
-    heights = row_heights(table, x0, x1, st)
+    heights = row_heights(table, x0, x1, style)
     for i in rows:
         row = table.rows[i]
         rid = make_id(base, "row", i)
         label, _ = _set(
-            f"{rid}-label", _entry(_basis(row.label)), *cols.label[:1], y, cols.label[1], st, bands
+            f"{rid}-label",
+            _entry(_basis(row.label)),
+            *cols.label[:1],
+            y,
+            cols.label[1],
+            style,
+            bands,
         )
         items.extend(label)
         for k, (cell, (x, w)) in enumerate(zip(row.cells, cols.cells, strict=True)):
-            cell_items, _ = _set_cell(f"{rid}-{k}", cell, x, y, w, st, bands)
+            cell_items, _ = _set_cell(f"{rid}-{k}", cell, x, y, w, style, bands)
             items.extend(cell_items)
         y += heights[i]
-        items.append(Line(f"{rid}-rule", ((x0, y - 1.0), (x1, y - 1.0)), st.table_rule_ink, 0.4))
+        items.append(Line(f"{rid}-rule", ((x0, y - 1.0), (x1, y - 1.0)), style.table_rule_ink, 0.4))
     if with_notes:
         y += 1.0
         for k, entry in enumerate(table.notes):
-            more, y = _set(f"{base}-note-{k}", entry, x0, y, x1 - x0, st, bands)
+            more, y = _set(f"{base}-note-{k}", entry, x0, y, x1 - x0, style, bands)
             items.extend(more)
     return [Group(base, tuple(items), role="table")], y
