@@ -138,10 +138,13 @@ def test_lab_profile_names_the_lab_and_sets_page_and_template(
     assert code == 0 and 'width="210mm"' in out.read_text()
 
 
-def test_bad_lab_profile_is_one_line_per_problem(capsys: pytest.CaptureFixture[str]) -> None:
+def test_bad_lab_profile_is_one_line_per_problem(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
     lab = ROOT / "tests" / "data" / "lab" / "bad.yaml"
-    code, _, err = run(["draw", str(EXAMPLES[0]), "--lab", str(lab), "-o", "/tmp/x.svg"], capsys)
-    assert code == 2 and "Traceback" not in err
+    out = tmp_path / "x.svg"
+    code, _, err = run(["draw", str(EXAMPLES[0]), "--lab", str(lab), "-o", str(out)], capsys)
+    assert code == 2 and "Traceback" not in err and not out.exists()
     expected = (ROOT / "tests" / "data" / "lab" / "bad.expected").read_text().splitlines()
     assert err.splitlines() == [line.replace("{f}", str(lab)) for line in expected]
 

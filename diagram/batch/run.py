@@ -23,7 +23,7 @@ from types import FrameType
 from typing import TYPE_CHECKING, Any
 
 from diagram.errors import DiagramError, Problem, StudyError
-from diagram.reading.formats import STUDY_SUFFIXES
+from diagram.reading.formats import study_suffixes
 
 if TYPE_CHECKING:
     from diagram.drawing.labprofile import LabProfile
@@ -105,7 +105,7 @@ def expand_inputs(inputs: Iterable[Path]) -> list[Path]:
     problems: list[Problem] = []
     for item in inputs:
         if item.is_dir():
-            found = sorted(p for p in item.iterdir() if p.suffix.lower() in STUDY_SUFFIXES)
+            found = sorted(p for p in item.iterdir() if p.suffix.lower() in study_suffixes())
             if not found:
                 problems.append(
                     Problem(str(item), None, "", None, "is a folder with no study files in it.")

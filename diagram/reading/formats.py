@@ -56,7 +56,10 @@ READERS: tuple[StudyReader, ...] = (
     StudyReader("JSON", (".json",), _json),
 )
 
-STUDY_SUFFIXES: tuple[str, ...] = tuple(s for r in READERS for s in r.suffixes)
+
+def study_suffixes() -> tuple[str, ...]:
+    """Return every study format's suffixes, in the registry's order."""
+    return tuple(s for r in READERS for s in r.suffixes)
 
 
 def reader_for(data: bytes, suffix: str) -> StudyReader | None:
@@ -70,7 +73,7 @@ def reader_for(data: bytes, suffix: str) -> StudyReader | None:
 
 def is_study_name(name: str) -> bool:
     """Return True for a file name with a study format's suffix."""
-    return name.lower().endswith(STUDY_SUFFIXES)
+    return name.lower().endswith(study_suffixes())
 
 
 def read_limit() -> int:
@@ -80,5 +83,5 @@ def read_limit() -> int:
 
 def suffix_list() -> str:
     """Return the suffixes in words: ``.yaml, .yml or .json``."""
-    *rest, last = STUDY_SUFFIXES
+    *rest, last = study_suffixes()
     return f"{', '.join(rest)} or {last}" if rest else last
