@@ -1,10 +1,10 @@
 """The export stage: write a drawing as SVG, PDF, PNG or JSON, atomically.
 
 One ``export()`` with a registry of writers keyed by format; the format comes from the output
-suffix unless given. Every write goes to a temporary file in the destination folder and is renamed
-into place only when complete, so a failed run leaves no partial file and an existing output is
-replaced only by a complete new one. CairoSVG runs in its safe mode (``unsafe=False``): it never
-fetches anything but ``data:`` URLs.
+suffix unless given. Every write goes to a temporary file in the destination folder and is given
+its name only when complete, so a failed run leaves no partial file. An existing output is never
+replaced unless asked for (``overwrite``), and then only by a complete new one. CairoSVG runs in
+its safe mode (``unsafe=False``): it never fetches anything but ``data:`` URLs.
 """
 
 from __future__ import annotations
@@ -16,7 +16,7 @@ import os
 import secrets
 import signal
 import threading
-from collections.abc import Callable, Iterable, Iterator, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 from importlib import resources
 from pathlib import Path
@@ -198,12 +198,17 @@ _CREATE_NEW = (
 )
 
 
-def write_atomic(path: Path, data: bytes) -> None:
-    """Write ``data`` to ``path`` through a temporary file and a rename.
+def write_atomic(path: Path, data: bytes, *, overwrite: bool = True) -> None:
+    """Write ``data`` to ``path`` through a temporary file and a rename (or a link).
 
     The temporary file (``.NAME.RANDOM.part`` beside the target) is named before it is created,
     so it is removed whatever stops the write: an OSError, or an interrupt arriving between any
-    two steps. The target is either untouched or replaced by the complete new file.
+    two steps. The target is either untouched or holds the complete new file.
+
+    With ``overwrite`` false the complete file is linked to its name, which fails if the name
+    exists, however it got there: a file made meanwhile by another process is never replaced
+    (there is no moment between a check and a rename). File systems without hard links get
+    the name reserved with an exclusive create, then the complete file renamed onto it.
     """
     folder = path.parent  # Path("m.svg").parent is Path(".")
     _check_target(path, folder)
@@ -214,9 +219,9 @@ def write_atomic(path: Path, data: bytes) -> None:
     try:
         try:
             fd = os.open(tmp, _CREATE_NEW, 0o666)
-        except FileExistsError:
+        except FileExistsError as exc:
             owned = None  # another writer's file: never ours to remove
-            raise
+            raise ExportError(_cannot_write(path, folder, exc)) from None
         try:
             view = memoryview(data)
             while view:
@@ -224,7 +229,12 @@ def write_atomic(path: Path, data: bytes) -> None:
             os.fsync(fd)
         finally:
             os.close(fd)
-        os.replace(tmp, path)
+        if overwrite:
+            os.replace(tmp, path)
+        else:
+            _link_new(tmp, path)
+    except FileExistsError:
+        raise ExportError(exists_message(path)) from None
     except OSError as exc:
         raise ExportError(_cannot_write(path, folder, exc)) from None
     except ValueError:  # a NUL character, or text no file name can hold
@@ -235,21 +245,19 @@ def write_atomic(path: Path, data: bytes) -> None:
                 os.unlink(owned)
 
 
-def write_all(
-    files: Sequence[tuple[Path, bytes]], *, keep: Iterable[Path] = ()
-) -> tuple[Path, ...]:
+def write_all(files: Sequence[tuple[Path, bytes]], *, overwrite: bool = True) -> tuple[Path, ...]:
     """Write every file atomically, in order; on any failure remove the ones written, then raise.
 
     All the files or none: an error or an interrupt between two writes takes back those already
-    written, except ``keep`` (files that existed before and were replaced; they cannot be brought
-    back, so they are left as written).
+    written, except files that existed before and were replaced under ``overwrite`` (they cannot
+    be brought back). Without ``overwrite`` each file is created exclusively (:func:`write_atomic`).
     """
-    kept = set(keep)
     made: list[Path] = []
     try:
         for path, data in files:
-            write_atomic(path, data)
-            if path not in kept:
+            existed = overwrite and os.path.lexists(path)
+            write_atomic(path, data, overwrite=overwrite)
+            if not existed:
                 made.append(path)
     except BaseException:
         for path in made:
@@ -257,6 +265,32 @@ def write_all(
                 path.unlink()
         raise
     return tuple(path for path, _ in files)
+
+
+def exists_message(path: Path) -> str:
+    """Return the line that refuses to replace an existing output."""
+    return f"{path}: exists already and was left as it was (give --overwrite to replace it)."
+
+
+_NO_HARD_LINKS = {errno.EPERM, errno.EMLINK, errno.EXDEV, errno.ENOTSUP, errno.EOPNOTSUPP}
+
+
+def _link_new(tmp: Path, path: Path) -> None:
+    """Give the complete file ``tmp`` the name ``path``; FileExistsError if the name is taken."""
+    try:
+        os.link(tmp, path)
+        return
+    except OSError as exc:
+        if isinstance(exc, FileExistsError) or exc.errno not in _NO_HARD_LINKS:
+            raise
+    fd = os.open(path, _CREATE_NEW, 0o666)  # the name is ours from here on
+    os.close(fd)
+    try:
+        os.replace(tmp, path)
+    except BaseException:
+        with contextlib.suppress(OSError):
+            os.unlink(path)  # the empty placeholder made just above
+        raise
 
 
 def _check_target(path: Path, folder: Path) -> None:
@@ -293,10 +327,30 @@ def _cannot_write(path: Path, folder: Path, exc: OSError) -> str:
 
 
 def export(
-    drawing: Drawing, path: str | Path, fmt: str | None = None, options: ExportOptions | None = None
+    drawing: Drawing,
+    path: str | Path,
+    fmt: str | None = None,
+    options: ExportOptions | None = None,
+    *,
+    overwrite: bool = False,
 ) -> Path:
-    """Write the drawing to ``path`` in its format; return the path written."""
+    """Write the drawing to ``path`` in its format; return the path written.
+
+    An existing file at ``path`` is refused (``ExportError``, the file untouched) unless
+    ``overwrite`` is true.
+    """
     out = Path(path)
     chosen = format_for(out, fmt)
-    write_atomic(out, render_bytes(drawing, chosen, options))
+    refuse_existing(out, overwrite)
+    write_atomic(out, render_bytes(drawing, chosen, options), overwrite=overwrite)
     return out
+
+
+def refuse_existing(path: Path, overwrite: bool) -> None:
+    """Refuse an existing file at ``path`` before any work, unless ``overwrite``.
+
+    Only a quick answer for the user: the write itself is what guarantees that a file made
+    meanwhile is not replaced.
+    """
+    if not overwrite and os.path.lexists(path) and not path.is_dir():
+        raise ExportError(exists_message(path))

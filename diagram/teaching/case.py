@@ -292,4 +292,4 @@ def write_case(outputs: CaseOutputs, out_dir: Path) -> tuple[Path, ...]:
     taken = [t.name for t in targets if t.exists()]
     if taken:
         raise ExportError(f"{out_dir}: {', '.join(taken)} exist already; nothing written.")
-    return write_all([(target, outputs.files[target.name]) for target in targets])
+    return write_all([(t, outputs.files[t.name]) for t in targets], overwrite=False)
