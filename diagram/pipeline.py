@@ -1,7 +1,8 @@
-"""The pipeline in one call: Study ➜ Assessment ➜ Scene ➜ SVG text (no file I/O on the way).
+"""The pipeline in one call: Study ➜ Assessment ➜ Scene (no file I/O on the way).
 
 Everything read from files (criteria sets, the prior exam, the template, the lab profile) comes
-in as values; :mod:`diagram.inputs` reads them.
+in as values; :mod:`diagram.inputs` reads them. The Drawing it returns carries the Scene; each
+output format renders it as it needs.
 """
 
 from __future__ import annotations
@@ -33,7 +34,7 @@ def draw(
     target: str | None = None,
     lab: LabProfile | None = None,
 ) -> Drawing:
-    """Assess the study and draw its map; return the SVG pages and the results document.
+    """Assess the study and draw its map; return the Scene and the results document.
 
     ``criteria`` and ``prior_criteria`` are the loaded sets (the shipped sets each study names
     when None); ``template`` the loaded map (the shipped bilateral map when None). A lab profile
@@ -42,7 +43,6 @@ def draw(
     from diagram.drawing.layout import layout
     from diagram.drawing.template.mapfile import load_template
     from diagram.output.results import results_document
-    from diagram.output.svg import render_pages
 
     assessment = assess(
         study, criteria=criteria, target=target, prior=prior, prior_criteria=prior_criteria
@@ -50,10 +50,6 @@ def draw(
     style = replace(lab.style, lab_name=lab.lab_name) if lab is not None else None
     tpl = template if template is not None else load_template()
     scene = layout(assessment, tpl, page=page, version=__version__, style=style)
-    first, *more = render_pages(scene)
     return Drawing(
-        svg=first,
-        results=results_document(assessment, version=__version__),
-        study=study,
-        more=tuple(more),
+        results=results_document(assessment, version=__version__), scene=scene, study=study
     )

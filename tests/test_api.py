@@ -114,7 +114,7 @@ def test_a_lab_criteria_file_is_read_at_the_edge_not_by_the_assessment(tmp_path:
     assert assessment.criteria_used[0][2] == str(lab)
 
 
-LIGHT = ("cairosvg", "cairocffi", "svgwrite", "fontTools", "jsonschema", "pydicom", "yaml")
+LIGHT = ("cairo", "cairosvg", "cairocffi", "svgwrite", "fontTools", "jsonschema", "pydicom", "yaml")
 NEVER_ON_HELP = (*LIGHT, "diagram.assess", "diagram.criteria", "diagram.reading.checks")
 
 

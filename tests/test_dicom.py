@@ -22,10 +22,10 @@ SVG = (
 @pytest.fixture()
 def dcm(tmp_path: Path) -> tuple[Path, bytes]:
     study = load_study(ROOT / "examples" / "claudicant-sfa.yaml")
-    out = export(Drawing(svg=SVG, results={}, study=study), tmp_path / "sheet.dcm")
+    out = export(Drawing(results={}, svg_pages=(SVG,), study=study), tmp_path / "sheet.dcm")
     from diagram.output.export import render_bytes
 
-    pdf = render_bytes(Drawing(svg=SVG, results={}), "pdf")
+    pdf = render_bytes(Drawing(results={}, svg_pages=(SVG,)), "pdf")
     return out, pdf
 
 

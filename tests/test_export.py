@@ -3,11 +3,13 @@
 from __future__ import annotations
 
 import errno
-import importlib
 import io
 import json
 import multiprocessing
 import os
+import shutil
+import subprocess
+import sys
 from pathlib import Path
 from typing import Any
 
@@ -15,6 +17,7 @@ import pytest
 
 from diagram.errors import ExportError
 from diagram.output.export import (
+    WRITERS,
     Drawing,
     ExportOptions,
     export,
@@ -28,7 +31,7 @@ SVG = (
     '<rect x="10" y="10" width="60" height="60" fill="#333"/>'
     '<text x="80" y="50" font-family="DejaVu Sans" font-size="14">PSV 385 &lt;50%</text></svg>'
 )
-DRAWING = Drawing(svg=SVG, results={"results_format": 1, "warnings": []})
+DRAWING = Drawing(results={"results_format": 1, "warnings": []}, svg_pages=(SVG,))
 
 
 @pytest.mark.parametrize(
@@ -92,9 +95,7 @@ def test_svg_is_written_as_given(tmp_path: Path) -> None:
     assert export(DRAWING, tmp_path / "m.svg").read_text() == SVG
 
 
-def test_existing_file_replaced_only_by_a_complete_one(
-    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
-) -> None:
+def test_existing_file_replaced_only_by_a_complete_one(tmp_path: Path) -> None:
     target = tmp_path / "m.pdf"
     target.write_bytes(b"old")
 
@@ -104,11 +105,9 @@ def test_existing_file_replaced_only_by_a_complete_one(
     def failing_writer(drawing: Drawing, options: ExportOptions) -> bytes:
         raise Boom
 
-    export_mod = importlib.import_module("diagram.output.export")  # the package re-exports export()
-
-    monkeypatch.setitem(export_mod.WRITERS, "pdf", failing_writer)
+    writers = {**WRITERS, "pdf": failing_writer}
     with pytest.raises(Boom):
-        export(DRAWING, target, overwrite=True)
+        export(DRAWING, target, overwrite=True, writers=writers)
     assert target.read_bytes() == b"old"
     assert sorted(os.listdir(tmp_path)) == ["m.pdf"]
 
@@ -130,6 +129,107 @@ def test_unwritable_folder_leaves_nothing(tmp_path: Path) -> None:
     finally:
         tmp_path.chmod(0o700)
     assert os.listdir(tmp_path) == []
+
+
+def test_writer_registry_is_read_only() -> None:
+    with pytest.raises(TypeError):
+        WRITERS["pdf"] = WRITERS["svg"]  # type: ignore[index]
+    assert set(WRITERS) == {"svg", "pdf", "png", "dcm", "json"}
+
+
+def test_unknown_format_is_named_from_the_given_writers(tmp_path: Path) -> None:
+    with pytest.raises(ExportError, match=r"'\.pdf' is not one of svg, json;"):
+        export(
+            DRAWING, tmp_path / "m.pdf", writers={"svg": WRITERS["svg"], "json": WRITERS["json"]}
+        )
+    assert os.listdir(tmp_path) == []
+
+
+def test_a_drawing_needs_a_scene_or_svg() -> None:
+    with pytest.raises(ValueError, match="scene or the SVG"):
+        Drawing(results={})
+
+
+def test_pipeline_drawing_carries_the_scene_and_renders_svg_from_it() -> None:
+    from diagram.output.svg import render_pages
+    from diagram.pipeline import draw
+    from diagram.reading.load import load_study
+
+    drawing = draw(load_study(EXAMPLES / "clti-multilevel.yaml"))
+    assert drawing.scene is not None and drawing.svg_pages == ()
+    assert drawing.pages == render_pages(drawing.scene)
+    assert drawing.page_count == drawing.scene.page_count == 2
+    assert drawing.svg == drawing.pages[0]
+
+
+EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
+HOSTILE_CONF = """<?xml version="1.0"?>
+<!DOCTYPE fontconfig SYSTEM "urn:fontconfig:fonts.dtd">
+<fontconfig>
+  <dir>{fonts}</dir>
+  <cachedir>{cache}</cachedir>
+  <match target="pattern">
+    <edit name="family" mode="assign" binding="strong"><string>Liberation Mono</string></edit>
+  </match>
+</fontconfig>
+"""
+
+
+@pytest.mark.skipif(shutil.which("pdffonts") is None, reason="needs poppler's pdffonts")
+@pytest.mark.parametrize("fmt", ["pdf", "dcm"])
+def test_shipped_font_is_used_whatever_fontconfig_file_says(tmp_path: Path, fmt: str) -> None:
+    """A FONTCONFIG_FILE that renames every family and lists other fonts changes nothing."""
+    conf = tmp_path / "fonts.conf"
+    conf.write_text(
+        HOSTILE_CONF.format(fonts=tmp_path / "fonts", cache=tmp_path / "cache"), encoding="utf-8"
+    )
+    other = tmp_path / "fonts"
+    other.mkdir()
+    system = Path("/usr/share/fonts/truetype/liberation/LiberationMono-Regular.ttf")
+    if system.exists():  # another sans the hostile configuration would otherwise substitute
+        shutil.copy(system, other)
+    out = tmp_path / f"m.{fmt}"
+    env = {**os.environ, "FONTCONFIG_FILE": str(conf)}
+    subprocess.run(
+        [
+            sys.executable,
+            "-m",
+            "diagram",
+            "draw",
+            str(EXAMPLES / "clti-multilevel.yaml"),
+            "-o",
+            str(out),
+        ],
+        env=env,
+        check=True,
+        capture_output=True,
+        timeout=120,
+    )
+    pdf = tmp_path / "m.pdf"
+    if fmt == "dcm":
+        import pydicom
+
+        pdf.write_bytes(bytes(pydicom.dcmread(out).EncapsulatedDocument).rstrip(b"\0"))
+    listed = subprocess.run(["pdffonts", str(pdf)], check=True, capture_output=True, text=True)
+    names = {line.split()[0].split("+")[-1] for line in listed.stdout.splitlines()[2:]}
+    assert names == {"DejaVuSans", "DejaVuSans-Bold"}, listed.stdout
+    from pypdf import PdfReader
+
+    reader = PdfReader(pdf)
+    base = {
+        str(f["/BaseFont"]).split("+")[-1]
+        for p in reader.pages
+        for f in p["/Resources"]["/Font"].values()  # type: ignore[index]
+    }
+    assert base == {"DejaVuSans", "DejaVuSans-Bold"}
+
+
+def test_rendering_leaves_the_environment_alone(monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.delenv("FONTCONFIG_FILE", raising=False)
+    before = dict(os.environ)
+    render_bytes(DRAWING, "pdf")
+    render_bytes(DRAWING, "png")
+    assert dict(os.environ) == before
 
 
 def _create(path: Path, data: bytes, start: Any) -> bool:

@@ -221,7 +221,7 @@ def test_change_table_and_map_symbols() -> None:
     assert "0.95 \u2192 0.63 (\u22120.32)" in shown
     assert "0.79 \u2192 0.80 (+0.01)" in shown and "significant" not in joined.split("ABI")[0]
     assert "new stent" in shown and "SFA-M at 3 cm" in shown
-    assert "PSV 230 \u2192 410 cm/s (+78.3%)" in joined  # (410 - 230) / 230 = 78.26%
+    assert "PSV 230 \u2192 410 cm/s (+78%)" in joined  # (410 - 230) / 230 = 78.26%: whole percent
     on_map = {
         "_".join(g.id.removeprefix("change-").split("_")[:2]): g.role
         for g in scene.walk()
@@ -437,9 +437,9 @@ def test_tables_flow_over_pages_row_by_row() -> None:
 def test_pdf_from_svgs_makes_one_page_per_svg() -> None:
     from pypdf import PdfReader
 
-    from diagram.output.export import _use_shipped_fonts
+    from diagram.output.fonts import use_shipped_fonts
 
-    _use_shipped_fonts()
+    use_shipped_fonts()
     svgs = render_pages(sheet("clti-multilevel"))
     letter = render_pages(sheet("clti-multilevel", "letter"))
     data = pdf_from_svgs([*svgs, letter[0]])

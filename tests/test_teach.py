@@ -278,7 +278,7 @@ def test_pdf_info_is_emptied_in_place(tmp_path: Path) -> None:
     from diagram.teaching.clean import CleanError, strip_pdf_info
 
     svg = render_case(load_study(EXAMPLE), new_case_id(), ("svg",)).files
-    raw = render_bytes(Drawing(svg=next(iter(svg.values())).decode(), results={}), "pdf")
+    raw = render_bytes(Drawing(results={}, svg_pages=(next(iter(svg.values())).decode(),)), "pdf")
     assert b"/Producer" in raw and b"/CreationDate" in raw  # what cairo writes
     clean = strip_pdf_info(raw)
     assert len(clean) == len(raw) and b"/Producer" not in clean and b"/CreationDate" not in clean

@@ -41,7 +41,7 @@ class SegmentChange:
     change: Change
     psv_before: float | None
     psv_after: float | None
-    psv_change_pct: float | None  # (after - before) / before x 100, one decimal
+    psv_change_pct: float | None  # (after - before) / before x 100, whole percent
 
 
 @dataclass(frozen=True)

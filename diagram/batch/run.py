@@ -27,6 +27,7 @@ from diagram.reading.formats import study_suffixes
 
 if TYPE_CHECKING:
     from diagram.drawing.labprofile import LabProfile
+    from diagram.output.export import Renderer
 
 MANIFEST_SUFFIXES = (".txt", ".list", ".manifest")  # lists of study paths, one a line
 
@@ -45,6 +46,7 @@ class BatchSettings:
     lab: LabProfile | None = None
     png_dpi: float = 150.0
     overwrite: bool = False
+    renderer: Renderer = "cairo"
 
 
 @dataclass(frozen=True)
@@ -145,7 +147,7 @@ def draw_one(task: BatchTask) -> BatchResult:
         inputs = load_inputs(study, criteria=cfg.criteria)
         template = load_template_for(cfg.template, cfg.lab)
         drawing = draw_inputs(inputs, template, page=cfg.page, target=cfg.target, lab=cfg.lab)
-        options = ExportOptions(png_dpi=cfg.png_dpi)
+        options = ExportOptions(png_dpi=cfg.png_dpi, renderer=cfg.renderer)
         blobs = [render_bytes(drawing, fmt, options) for fmt in cfg.formats]
         write_all(list(zip(targets, blobs, strict=True)), overwrite=cfg.overwrite)
         return BatchResult(task.n, str(task.study), written=tuple(str(t) for t in targets))

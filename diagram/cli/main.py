@@ -18,6 +18,7 @@ import click
 from diagram._version import __version__
 from diagram.caution import CAUTION
 from diagram.cli.design import COMMANDS as DESIGN_COMMANDS
+from diagram.cli.importing import import_report
 from diagram.cli.options import (
     DEFAULT_DPI,
     criteria_option,
@@ -34,6 +35,7 @@ from diagram.cli.teach import teach
 
 if TYPE_CHECKING:
     from diagram.batch.run import BatchSettings
+    from diagram.output.export import Renderer
 
 FORMATS = ("svg", "pdf", "png", "dcm", "json")
 
@@ -78,6 +80,14 @@ FORMATS = ("svg", "pdf", "png", "dcm", "json")
     "file's name), {folder} (its folder's name), {accession} {patient_id} {exam_date} (these "
     "three put identifiers in file names).",
 )
+@click.option(
+    "--renderer",
+    type=click.Choice(["cairo", "cairosvg"]),
+    default="cairo",
+    show_default=True,
+    help="How PDF, PNG and DICOM are drawn: cairo paints the sheet directly; cairosvg "
+    "converts its SVG (the slower reference route).",
+)
 def draw(
     studies: tuple[Path, ...],
     output: str,
@@ -93,6 +103,7 @@ def draw(
     quiet: bool,
     overwrite: bool,
     name_pattern: str,
+    renderer: Renderer,
 ) -> None:
     """Draw the map of each STUDY (a file, a folder of files, or a .txt list of paths).
 
@@ -131,14 +142,16 @@ def draw(
     page = page or (profile.page if profile and profile.page else "a4")
     if single:
         from diagram.inputs import draw_inputs, load_inputs, load_template_for
+        from diagram.reading.load import load_study
 
-        inputs = load_inputs(studies[0], criteria=criteria, prior=prior)
+        study = load_study(studies[0])
+        _show_import_notes(study.import_notes)
+        inputs = load_inputs(study, criteria=criteria, prior=prior)
         drawing = draw_inputs(
             inputs, load_template_for(template, profile), page=page, target=target, lab=profile
         )
-        written = export(
-            drawing, Path(output), chosen[0], ExportOptions(png_dpi=png_dpi), overwrite=overwrite
-        )
+        options = ExportOptions(png_dpi=png_dpi, renderer=renderer)
+        written = export(drawing, Path(output), chosen[0], options, overwrite=overwrite)
         if not quiet:
             click.echo(f"wrote {written}", err=True)
         return
@@ -155,15 +168,33 @@ def draw(
         lab=profile,
         png_dpi=png_dpi,
         overwrite=overwrite,
+        renderer=renderer,
     )
     _draw_batch(studies, settings, jobs, quiet)
 
 
 def _is_study_file(path: Path) -> bool:
-    """Return True for a path that names one study file (not a folder, not a list of paths)."""
-    from diagram.reading.formats import is_study_name
+    """Return True for a path that names one study file (not a folder, not a list of paths).
 
-    return is_study_name(path.name) and not _is_folder(str(path))
+    A structured report (DICOM SR) counts, recognised by its suffix or by its content.
+    """
+    if _is_folder(str(path)):
+        return False
+    if path.suffix.lower() in (".yaml", ".yml", ".json", ".dcm"):
+        return True
+    from diagram.reading.sr import looks_like_dicom
+
+    try:
+        with open(path, "rb") as handle:
+            return looks_like_dicom(handle.read(132))
+    except OSError:
+        return False
+
+
+def _show_import_notes(notes: tuple[str, ...]) -> None:
+    """Print what an imported report held that could not be placed, one line per item."""
+    for line in notes:
+        click.echo(_printable(line), err=True)
 
 
 def _check_dpi(dpi: float | None, formats: tuple[str, ...]) -> None:
@@ -234,8 +265,11 @@ def check(
 
     from diagram.inputs import assess_file
     from diagram.output.results import results_document, results_table
+    from diagram.reading.load import load_study
 
-    assessment = assess_file(study, criteria=criteria, target=target, prior=prior)
+    current = load_study(study)
+    _show_import_notes(current.import_notes)
+    assessment = assess_file(current, criteria=criteria, target=target, prior=prior)
     if as_json:
         click.echo(json.dumps(results_document(assessment, version=__version__), indent=2))
     else:
@@ -285,7 +319,7 @@ def schema(results: bool) -> None:
 
 # Every command of the tool, registered here and nowhere else.
 @click.group(
-    commands=[draw, check, criteria, schema, teach, *DESIGN_COMMANDS],
+    commands=[draw, check, criteria, schema, teach, import_report, *DESIGN_COMMANDS],
     context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100},
     epilog=CAUTION,
 )

@@ -1,9 +1,6 @@
 """Criteria sets as values: the bands of a set, a set, and the three sets one study uses.
 
-A set lists bands mildest first. A band applies when its ``when`` conditions hold (``vr_min``
-and/or ``psv_min``, combined with ``match: all`` (default) or ``any``); the worst band that
-applies wins, so a value on a boundary belongs to the higher band. A band with
-``occlusion: true`` is the band for an occluded vessel. ``not-assessed`` is built in.
+The rules these values follow are in the package's docstring (:mod:`diagram.criteria`).
 """
 
 from __future__ import annotations
@@ -12,6 +9,15 @@ from dataclasses import dataclass
 
 NOT_ASSESSED = "not-assessed"
 LOOKS = ("normal", "lt50", "50-74", "75-99", "occluded")
+
+
+def _meets(value: float, limit: float, strict: bool) -> bool:
+    return value > limit if strict else value >= limit
+
+
+def _condition(name: str, limit: float, strict: bool) -> str:
+    unit = " cm/s" if name == "PSV" else ""
+    return f"{name} {'>' if strict else '>='} {limit:g}{unit}"
 
 
 @dataclass(frozen=True)
@@ -27,32 +33,82 @@ class BandRule:
     occlusion: bool = False
     source: str = ""
     look: str = ""  # the house look (hatch and tint) it is drawn with: one of LOOKS
+    vr_strict: bool = False  # True: Vr must be above vr_min (vr_over); False: at least
+    psv_strict: bool = False  # True: PSV must be above psv_min (psv_over)
+    flow_below: float | None = None  # graft flow velocity must be below this, cm/s
 
-    def applies(self, vr: float | None, psv: float | None) -> bool | None:
+    def holds_vr(self, vr: float | None) -> bool | None:
+        """Return whether the Vr condition holds (None: no Vr, or the band has none)."""
+        if self.vr_min is None or vr is None:
+            return None
+        return _meets(vr, self.vr_min, self.vr_strict)
+
+    def holds_psv(self, psv: float | None) -> bool | None:
+        """Return whether the PSV condition holds (None: no PSV, or the band has none)."""
+        if self.psv_min is None or psv is None:
+            return None
+        return _meets(psv, self.psv_min, self.psv_strict)
+
+    def applies(
+        self, vr: float | None, psv: float | None, flow: float | None = None
+    ) -> bool | None:
         """Return whether this band's conditions hold; None when a missing value decides it."""
         tests: list[bool | None] = []
         if self.vr_min is not None:
-            tests.append(None if vr is None else vr >= self.vr_min)
+            tests.append(self.holds_vr(vr))
         if self.psv_min is not None:
-            tests.append(None if psv is None else psv >= self.psv_min)
+            tests.append(self.holds_psv(psv))
+        if self.flow_below is not None and (flow is None or flow >= self.flow_below):
+            return False  # a further condition: no graft flow velocity, no flow band
         if not tests:
             return True
         if self.match == "all":
             return False if False in tests else (None if None in tests else True)
         return True if True in tests else (None if None in tests else False)
 
+    def conditions(self) -> list[str]:
+        """Return the band's velocity conditions in words (``Vr >= 2``, ``PSV > 300 cm/s``)."""
+        parts = []
+        if self.psv_min is not None:
+            parts.append(_condition("PSV", self.psv_min, self.psv_strict))
+        if self.vr_min is not None:
+            parts.append(_condition("Vr", self.vr_min, self.vr_strict))
+        return parts
+
     def describe(self) -> str:
         """Return the band's rule in words, e.g. ``Vr >= 2.0``."""
-        parts = []
-        if self.vr_min is not None:
-            parts.append(f"Vr >= {self.vr_min:g}")
-        if self.psv_min is not None:
-            parts.append(f"PSV >= {self.psv_min:g} cm/s")
         if self.occlusion:
             return "occlusion recorded"
+        parts = self.conditions()
         if not parts:
             return "below the next band's threshold"
-        return (" and " if self.match == "all" else " or ").join(parts)
+        text = (" and " if self.match == "all" else " or ").join(parts)
+        if self.flow_below is not None:
+            text = f"({text}) with graft flow velocity < {self.flow_below:g} cm/s"
+        return text
+
+
+@dataclass(frozen=True)
+class PsvOnlyRule:
+    """One row of a set's PSV-only rule: the band a PSV reaches when there is no valid Vr."""
+
+    band: str
+    psv_min: float
+    psv_strict: bool = False
+    flow_below: float | None = None
+
+    def holds(self, psv: float, flow: float | None) -> bool:
+        """Return whether the PSV (and graft flow velocity, where named) reach the band."""
+        if self.flow_below is not None and (flow is None or flow >= self.flow_below):
+            return False
+        return _meets(psv, self.psv_min, self.psv_strict)
+
+    def describe(self) -> str:
+        """Return the row in words: ``PSV >= 200 cm/s``."""
+        text = _condition("PSV", self.psv_min, self.psv_strict)
+        if self.flow_below is not None:
+            text += f" with graft flow velocity < {self.flow_below:g} cm/s"
+        return text
 
 
 @dataclass(frozen=True)
@@ -66,6 +122,9 @@ class Criteria:
     lesion_floor: str | None
     bands: tuple[BandRule, ...]  # mildest first; occlusion band included
     origin: str  # "shipped" or the path of a lab's file
+    match: str = "all"  # the set's one rule for PSV and Vr: "all" (both) or "any" (either)
+    psv_only: tuple[PsvOnlyRule, ...] = ()  # mildest first
+    psv_only_source: str = ""
 
     @property
     def band_ids(self) -> tuple[str, ...]:
@@ -92,19 +151,83 @@ class Criteria:
         if nxt is None:
             return band.describe()
         limits = []
-        if nxt.vr_min is not None:
-            limits.append(f"Vr < {nxt.vr_min:g}")
         if nxt.psv_min is not None:
-            limits.append(f"PSV < {nxt.psv_min:g} cm/s")
+            limits.append(f"PSV {'<=' if nxt.psv_strict else '<'} {nxt.psv_min:g} cm/s")
+        if nxt.vr_min is not None:
+            limits.append(f"Vr {'<=' if nxt.vr_strict else '<'} {nxt.vr_min:g}")
         joiner = " or " if nxt.match == "all" else " and "
         return joiner.join(limits)
+
+    def boundary_note(self) -> str:
+        """Return, for the legend, which band a value exactly on each boundary goes to."""
+        parts = []
+        for b in self.bands:
+            if b.occlusion or not b.conditions():
+                continue
+            parts.append(f"{b.label} {b.describe()}")
+        if not parts:
+            return ""
+        return f"{self.name}: " + "; ".join(parts)
+
+    def grade_psv_only(
+        self, psv: float, *, lesion: bool, flow: float | None = None
+    ) -> BandRule | None:
+        """Return the band of the set's PSV-only rule, never below the lesion floor."""
+        found: BandRule | None = None
+        for row in reversed(self.psv_only):
+            if row.holds(psv, flow):
+                found = self.band(row.band)
+                break
+        if not self.psv_only:
+            return None
+        if found is None:
+            found = self.bands[0]
+        if lesion and self.lesion_floor is not None:
+            floor = self.band(self.lesion_floor)
+            if found.rank < floor.rank:
+                return floor
+        return found
+
+    def psv_only_row(self, band_id: str) -> PsvOnlyRule | None:
+        """Return the PSV-only row that gives this band, if any."""
+        return next((r for r in self.psv_only if r.band == band_id), None)
+
+    def discordant(
+        self, vr: float | None, psv: float | None, flow: float | None = None
+    ) -> tuple[BandRule, BandRule] | None:
+        """Return (band by PSV alone, band by Vr alone) when the two disagree, else None.
+
+        Only sets whose bands state both a PSV and a Vr condition can disagree; the set's
+        ``match`` rule decides the grade, this only says that the pair was discordant.
+        """
+        if vr is None or psv is None:
+            return None
+        graded = [b for b in self.bands if not b.occlusion]
+        if not any(b.psv_min is not None for b in graded) or not any(
+            b.vr_min is not None for b in graded
+        ):
+            return None
+
+        def worst(test: str) -> BandRule:
+            for b in reversed(graded):
+                held = b.holds_psv(psv) if test == "psv" else b.holds_vr(vr)
+                if held and (b.flow_below is None or (flow is not None and flow < b.flow_below)):
+                    return b
+                if held is None and b.conditions() == []:
+                    return b
+            return graded[0]
+
+        by_psv, by_vr = worst("psv"), worst("vr")
+        return None if by_psv.id == by_vr.id else (by_psv, by_vr)
 
     @property
     def occlusion_band(self) -> BandRule:
         """Return the band for an occluded vessel."""
         return next(b for b in self.bands if b.occlusion)
 
-    def grade(self, vr: float | None, psv: float | None, *, lesion: bool) -> BandRule | None:
+    def grade(
+        self, vr: float | None, psv: float | None, *, lesion: bool, flow: float | None = None
+    ) -> BandRule | None:
         """Return the worst band that applies, or None when a missing measurement could change it.
 
         Bands are tried worst first: the first that holds wins; one that cannot be decided
@@ -115,7 +238,7 @@ class Criteria:
         for b in reversed(self.bands):
             if b.occlusion:
                 continue
-            holds = b.applies(vr, psv)
+            holds = b.applies(vr, psv, flow)
             if holds is None:
                 return None
             if holds:

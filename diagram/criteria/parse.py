@@ -8,20 +8,33 @@ from __future__ import annotations
 
 import difflib
 import math
-from dataclasses import replace
 from typing import Any
 
-from diagram.criteria.model import LOOKS, NOT_ASSESSED, BandRule, Criteria
+from diagram.criteria.model import LOOKS, NOT_ASSESSED, BandRule, Criteria, PsvOnlyRule
 from diagram.errors import CriteriaError, Problem
 
 _MAX_DEPTH = 20
 _BAND_KEYS = ("id", "label", "look", "when", "occlusion", "source")
-_WHEN_KEYS = ("vr_min", "psv_min", "match")
-_TOP_KEYS = ("format", "name", "title", "kind", "source", "lesion_floor", "bands")
+_WHEN_KEYS = ("vr_min", "vr_over", "psv_min", "psv_over", "flow_below", "match")
+_PSV_ONLY_KEYS = ("band", "psv_min", "psv_over", "flow_below")
+_TOP_KEYS = (
+    "format",
+    "name",
+    "title",
+    "kind",
+    "source",
+    "match",
+    "lesion_floor",
+    "psv_only",
+    "psv_only_source",
+    "bands",
+)
 
 
 def _default_looks(bands: list[BandRule]) -> list[BandRule]:
     """Give each band without a look the house look of its place in the severity order."""
+    from dataclasses import replace
+
     graded = [b for b in bands if not b.occlusion]
     out = []
     for b in bands:
@@ -35,29 +48,7 @@ def _default_looks(bands: list[BandRule]) -> list[BandRule]:
     return out
 
 
-class _Report:
-    """The problems found so far in one criteria file."""
-
-    def __init__(self, file: str) -> None:
-        self.file = file
-        self.problems: list[Problem] = []
-
-    def bad(
-        self, line: int | None, field: str, value: Any, rule: str, hint: str | None = None
-    ) -> None:
-        shown = None if value is None else repr(value)
-        self.problems.append(Problem(self.file, line, field, shown, rule, hint))
-
-    def refuse(self, at: Any, rule: str) -> CriteriaError:
-        return CriteriaError([Problem(self.file, at.line + 1 if at else None, "", None, rule)])
-
-
-def _near(word: object, choices: tuple[str, ...] | list[str]) -> str | None:
-    found = difflib.get_close_matches(str(word), choices, n=1)
-    return f"did you mean {found[0]}?" if found else None
-
-
-def _refuse_complex_keys(root: Any, report: _Report) -> None:
+def _refuse_complex_keys(root: Any, refuse: Any) -> None:
     """Refuse a key that is a list or a mapping (YAML allows it; we do not), or given twice."""
     import yaml
 
@@ -68,9 +59,9 @@ def _refuse_complex_keys(root: Any, report: _Report) -> None:
             seen: set[str] = set()
             for key, value in node.value:
                 if not isinstance(key, yaml.ScalarNode):
-                    raise report.refuse(key.start_mark, "must use plain words as keys.")
+                    raise refuse(key.start_mark, "must use plain words as keys.")
                 if key.value in seen:  # PyYAML would silently keep the last one
-                    raise report.refuse(key.start_mark, f"gives the key {key.value!r} twice.")
+                    raise refuse(key.start_mark, f"gives the key {key.value!r} twice.")
                 seen.add(key.value)
                 stack.append(value)
         elif isinstance(node, yaml.SequenceNode):
@@ -81,195 +72,262 @@ def _is_number(v: Any) -> bool:
     return isinstance(v, int | float) and not isinstance(v, bool) and math.isfinite(v)
 
 
-def _screen(text: str, report: _Report) -> tuple[Any, Any]:
-    """Return the file's node tree and its plain data, refusing hostile YAML before building.
-
-    Anchors and aliases (how a YAML bomb expands), explicit tags (object construction) and deep
-    nesting are refused from the event stream, before anything is built.
-    """
+def parse_criteria(text: str, file: str, origin: str) -> Criteria:
+    """Validate a criteria file's text and return the set; every problem is reported at once."""
     import yaml
 
+    problems: list[Problem] = []
+
+    def bad(line: int | None, field: str, value: Any, rule: str, hint: str | None = None) -> None:
+        shown = None if value is None else repr(value)
+        problems.append(Problem(file, line, field, shown, rule, hint))
+
+    def refuse(at: Any, rule: str) -> CriteriaError:
+        return CriteriaError([Problem(file, at.line + 1 if at else None, "", None, rule)])
+
     try:
+        # Screen the event stream before anything is built: anchors and aliases (how a YAML
+        # bomb expands), explicit tags (object construction) and deep nesting are refused.
         depth = 0
         for event in yaml.parse(text, Loader=yaml.SafeLoader):
             if isinstance(event, yaml.AliasEvent) or getattr(event, "anchor", None):
-                raise report.refuse(event.start_mark, "must not use YAML anchors or aliases.")
+                raise refuse(event.start_mark, "must not use YAML anchors or aliases.")
             implicit = getattr(event, "implicit", True)
             explicit = not any(implicit) if isinstance(implicit, tuple) else not implicit
             if getattr(event, "tag", None) is not None and explicit:
-                raise report.refuse(event.start_mark, "must not use explicit YAML tags.")
+                raise refuse(event.start_mark, "must not use explicit YAML tags.")
             if isinstance(event, yaml.CollectionStartEvent):
                 depth += 1
                 if depth > _MAX_DEPTH:
-                    rule = f"is nested deeper than {_MAX_DEPTH} levels."
-                    raise report.refuse(event.start_mark, rule)
+                    raise refuse(event.start_mark, f"is nested deeper than {_MAX_DEPTH} levels.")
             elif isinstance(event, yaml.CollectionEndEvent):
                 depth -= 1
         node = yaml.compose(text, Loader=yaml.SafeLoader)
         if node is not None:
-            _refuse_complex_keys(node, report)
+            _refuse_complex_keys(node, refuse)
         raw = yaml.safe_load(text)
     except yaml.YAMLError as exc:
         mark: Any = getattr(exc, "problem_mark", None)
         line = mark.line + 1 if mark is not None else None
-        raise CriteriaError([Problem(report.file, line, "", None, "is not valid YAML.")]) from None
+        raise CriteriaError([Problem(file, line, "", None, "is not valid YAML.")]) from None
     if node is None or not isinstance(node, yaml.MappingNode) or not isinstance(raw, dict):
-        rule = "must be a mapping of criteria fields."
-        raise CriteriaError([Problem(report.file, 1, "", None, rule)])
-    return node, raw
+        raise CriteriaError([Problem(file, 1, "", None, "must be a mapping of criteria fields.")])
+    lines = {k.value: k.start_mark.line + 1 for k, _ in node.value}
 
-
-def _check_top(raw: dict[Any, Any], lines: dict[Any, int], report: _Report) -> str:
-    """Check the set's own fields; return its kind."""
     for key in raw:
         if key not in _TOP_KEYS:
-            hint = _near(key, _TOP_KEYS)
-            report.bad(lines.get(key), str(key), None, "is not a criteria field.", hint)
+            near = difflib.get_close_matches(str(key), _TOP_KEYS, n=1)
+            bad(
+                lines.get(key),
+                str(key),
+                None,
+                "is not a criteria field.",
+                f"did you mean {near[0]}?" if near else None,
+            )
     if raw.get("format") != 1:
-        report.bad(lines.get("format"), "format", raw.get("format"), "must be 1.")
+        bad(lines.get("format"), "format", raw.get("format"), "must be 1.")
     for key in ("name", "title", "source"):
         if not isinstance(raw.get(key), str) or not raw.get(key):
-            report.bad(lines.get(key, 1), key, raw.get(key), "must be a non-empty text.")
+            bad(lines.get(key, 1), key, raw.get(key), "must be a non-empty text.")
     kind = raw.get("kind", "native")
     if kind not in ("native", "stent", "graft"):
-        report.bad(lines.get("kind"), "kind", kind, "must be one of native, stent, graft.")
-    return str(kind)
+        bad(lines.get("kind"), "kind", kind, "must be one of native, stent, graft.")
 
-
-class _Bands:
-    """The bands read so far, with what a later band is checked against."""
-
-    def __init__(self) -> None:
-        self.rules: list[BandRule] = []
-        self.seen: set[str] = set()
-        self.last_vr = -math.inf
-
-
-def _check_when(when: Any, where: str, line: int | None, report: _Report) -> dict[str, Any]:
-    """Check a band's conditions; return them as a mapping (empty when unusable)."""
-    if not isinstance(when, dict):
-        report.bad(line, f"{where}.when", when, "must be a mapping of vr_min, psv_min, match.")
-        return {}
-    for key in when:
-        if key not in _WHEN_KEYS:
-            hint = _near(key, _WHEN_KEYS)
-            report.bad(line, f"{where}.when.{key}", None, "is not a condition.", hint)
-    for key, hi in (("vr_min", 50.0), ("psv_min", 800.0)):
-        val = when.get(key)
-        if val is not None and (not _is_number(val) or not 0 < val <= hi):
-            rule = f"must be a number above 0 and at most {hi:g}."
-            report.bad(line, f"{where}.when.{key}", val, rule)
-    if when.get("match", "all") not in ("all", "any"):
-        report.bad(line, f"{where}.when.match", when.get("match"), "must be all or any.")
-    return when
-
-
-def _check_band_fields(rb: dict[Any, Any], where: str, line: int | None, report: _Report) -> None:
-    for key in rb:
-        if key not in _BAND_KEYS:
-            hint = _near(key, _BAND_KEYS)
-            report.bad(line, f"{where}.{key}", None, "is not a band field.", hint)
-
-
-def _read_band(
-    i: int, rb: Any, line: int | None, bands: _Bands, report: _Report
-) -> BandRule | None:
-    """Check one band and return it (None when it cannot be used at all)."""
-    where = f"bands[{i}]"
-    if not isinstance(rb, dict):
-        report.bad(line, where, None, "must be a mapping with id, label and when.")
-        return None
-    _check_band_fields(rb, where, line, report)
-    bid, label = rb.get("id"), rb.get("label")
-    if not isinstance(bid, str) or not bid or bid == NOT_ASSESSED:
-        report.bad(line, f"{where}.id", bid, f"must be a text other than {NOT_ASSESSED}.")
-        return None
-    if bid in bands.seen:
-        report.bad(line, f"{where}.id", bid, "is used by an earlier band.")
-    bands.seen.add(bid)
-    if not isinstance(label, str) or not label:
-        report.bad(line, f"{where}.label", label, "must be a non-empty text.")
-    when = rb.get("when", {})
-    occlusion = rb.get("occlusion", False)
-    if not isinstance(occlusion, bool):
-        report.bad(line, f"{where}.occlusion", occlusion, "must be true or false.")
-        occlusion = False
-    when = _check_when(when, where, line, report)
-    look = rb.get("look")
-    if look is not None and look not in LOOKS:
-        rule = f"must be one of {', '.join(LOOKS)}."
-        report.bad(line, f"{where}.look", look, rule, _near(look, LOOKS))
-        look = None
-    vr_min: Any = when.get("vr_min")
-    psv_min: Any = when.get("psv_min")
-    match = when.get("match", "all")
-    if not occlusion and _is_number(vr_min):
-        if vr_min <= bands.last_vr:
-            rule = "must be higher than the vr_min of the milder bands before it."
-            report.bad(line, f"{where}.when.vr_min", vr_min, rule)
-        bands.last_vr = vr_min
-    return BandRule(
-        id=bid,
-        label=str(label),
-        rank=len(bands.rules),
-        vr_min=float(vr_min) if _is_number(vr_min) else None,
-        psv_min=float(psv_min) if _is_number(psv_min) else None,
-        match=match if match in ("all", "any") else "all",
-        occlusion=occlusion,
-        source=str(rb.get("source", "")),
-        look=look or "",
-    )
-
-
-def _read_bands(node: Any, raw: dict[Any, Any], lines: dict[Any, int], report: _Report) -> _Bands:
-    """Check the list of bands and each band in it."""
-    import yaml
-
+    set_match = raw.get("match", "all")
+    if set_match not in ("all", "any"):
+        bad(lines.get("match"), "match", set_match, "must be all or any.")
+        set_match = "all"
     band_nodes = next((v for k, v in node.value if k.value == "bands"), None)
+    bands: list[BandRule] = []
     raw_bands = raw.get("bands")
-    bands = _Bands()
     if (
         not isinstance(raw_bands, list)
         or not raw_bands
         or not isinstance(band_nodes, yaml.SequenceNode)
     ):
-        report.bad(lines.get("bands", 1), "bands", None, "must be a non-empty list of bands.")
-        return bands
+        bad(lines.get("bands", 1), "bands", None, "must be a non-empty list of bands.")
+        raw_bands = []
+    seen: set[str] = set()
+    last_vr = -math.inf
     for i, rb in enumerate(raw_bands):
-        line = band_nodes.value[i].start_mark.line + 1
-        band = _read_band(i, rb, line, bands, report)
-        if band is not None:
-            bands.rules.append(band)
-    rules = bands.rules
-    if sum(b.occlusion for b in rules) != 1:
-        rule = "must hold exactly one band with occlusion: true."
-        report.bad(lines.get("bands"), "bands", None, rule)
-    if rules and not rules[-1].occlusion and any(b.occlusion for b in rules):
-        rule = "must list the occlusion band last (the worst)."
-        report.bad(lines.get("bands"), "bands", None, rule)
-    return bands
-
-
-def parse_criteria(text: str, file: str, origin: str) -> Criteria:
-    """Validate a criteria file's text and return the set; every problem is reported at once."""
-    report = _Report(file)
-    node, raw = _screen(text, report)
-    lines = {k.value: k.start_mark.line + 1 for k, _ in node.value}
-    kind = _check_top(raw, lines, report)
-    bands = _read_bands(node, raw, lines, report)
+        bline = band_nodes.value[i].start_mark.line + 1 if band_nodes is not None else None
+        where = f"bands[{i}]"
+        if not isinstance(rb, dict):
+            bad(bline, where, None, "must be a mapping with id, label and when.")
+            continue
+        for key in rb:
+            if key not in _BAND_KEYS:
+                near = difflib.get_close_matches(str(key), _BAND_KEYS, n=1)
+                bad(
+                    bline,
+                    f"{where}.{key}",
+                    None,
+                    "is not a band field.",
+                    f"did you mean {near[0]}?" if near else None,
+                )
+        bid, label = rb.get("id"), rb.get("label")
+        if not isinstance(bid, str) or not bid or bid == NOT_ASSESSED:
+            bad(bline, f"{where}.id", bid, f"must be a text other than {NOT_ASSESSED}.")
+            continue
+        if bid in seen:
+            bad(bline, f"{where}.id", bid, "is used by an earlier band.")
+        seen.add(bid)
+        if not isinstance(label, str) or not label:
+            bad(bline, f"{where}.label", label, "must be a non-empty text.")
+        when = rb.get("when", {})
+        occlusion = rb.get("occlusion", False)
+        if not isinstance(occlusion, bool):
+            bad(bline, f"{where}.occlusion", occlusion, "must be true or false.")
+            occlusion = False
+        if not isinstance(when, dict):
+            bad(bline, f"{where}.when", when, "must be a mapping of vr_min, psv_min, match.")
+            when = {}
+        for key in when:
+            if key not in _WHEN_KEYS:
+                near = difflib.get_close_matches(str(key), _WHEN_KEYS, n=1)
+                bad(
+                    bline,
+                    f"{where}.when.{key}",
+                    None,
+                    "is not a condition.",
+                    f"did you mean {near[0]}?" if near else None,
+                )
+        look = rb.get("look")
+        if look is not None and look not in LOOKS:
+            near = difflib.get_close_matches(str(look), LOOKS, n=1)
+            bad(
+                bline,
+                f"{where}.look",
+                look,
+                f"must be one of {', '.join(LOOKS)}.",
+                f"did you mean {near[0]}?" if near else None,
+            )
+            look = None
+        vr = _threshold(when, "vr", 50.0, f"{where}.when", bline, bad)
+        psv = _threshold(when, "psv", 800.0, f"{where}.when", bline, bad)
+        flow = _flow_below(when, f"{where}.when", bline, bad)
+        match = when.get("match", set_match)
+        if match not in ("all", "any"):
+            bad(bline, f"{where}.when.match", match, "must be all or any.")
+        vr_min = vr[0] if vr else None
+        if not occlusion and vr_min is not None:
+            if vr_min < last_vr or (vr_min == last_vr and flow is None):
+                bad(
+                    bline,
+                    f"{where}.when.{'vr_over' if vr and vr[1] else 'vr_min'}",
+                    vr_min,
+                    "must be higher than the Vr threshold of the milder bands before it.",
+                )
+            last_vr = vr_min
+        bands.append(
+            BandRule(
+                id=bid,
+                label=str(label),
+                rank=len(bands),
+                vr_min=vr_min,
+                psv_min=psv[0] if psv else None,
+                match=match if match in ("all", "any") else "all",
+                occlusion=occlusion,
+                source=str(rb.get("source", "")),
+                look=look or "",
+                vr_strict=bool(vr and vr[1]),
+                psv_strict=bool(psv and psv[1]),
+                flow_below=flow,
+            )
+        )
+    if raw_bands and sum(b.occlusion for b in bands) != 1:
+        bad(lines.get("bands"), "bands", None, "must hold exactly one band with occlusion: true.")
+    if bands and bands[-1:] and not bands[-1].occlusion and any(b.occlusion for b in bands):
+        bad(lines.get("bands"), "bands", None, "must list the occlusion band last (the worst).")
     floor = raw.get("lesion_floor")
-    if floor is not None and (not isinstance(floor, str) or floor not in bands.seen):
-        hint = _near(floor, sorted(bands.seen))
-        rule = "must be one of the set's band ids."
-        report.bad(lines.get("lesion_floor"), "lesion_floor", floor, rule, hint)
-    if report.problems:
-        raise CriteriaError(sorted(report.problems, key=lambda p: (p.line or 0, p.field)))
+    if floor is not None and (not isinstance(floor, str) or floor not in seen):
+        near = difflib.get_close_matches(str(floor), sorted(seen), n=1)
+        bad(
+            lines.get("lesion_floor"),
+            "lesion_floor",
+            floor,
+            "must be one of the set's band ids.",
+            f"did you mean {near[0]}?" if near else None,
+        )
+    psv_only = _psv_only(raw.get("psv_only"), lines.get("psv_only"), seen, bad)
+    psv_only_source = raw.get("psv_only_source", "")
+    if not isinstance(psv_only_source, str):
+        bad(lines.get("psv_only_source"), "psv_only_source", None, "must be a text.")
+        psv_only_source = ""
+    if problems:
+        raise CriteriaError(sorted(problems, key=lambda p: (p.line or 0, p.field)))
+    bands = _default_looks(bands)
     return Criteria(
         name=raw["name"],
         title=raw["title"],
         kind=kind,
         source=" ".join(str(raw["source"]).split()),
         lesion_floor=floor,
-        bands=tuple(_default_looks(bands.rules)),
+        bands=tuple(bands),
         origin=origin,
+        match=set_match,
+        psv_only=psv_only,
+        psv_only_source=" ".join(psv_only_source.split()),
     )
+
+
+def _threshold(
+    when: dict[str, Any], name: str, high: float, where: str, line: int | None, bad: Any
+) -> tuple[float, bool] | None:
+    """Return (limit, strict) from ``NAME_min`` (>=) or ``NAME_over`` (>), reporting problems."""
+    given = [(k, when[k]) for k in (f"{name}_min", f"{name}_over") if k in when]
+    if len(given) > 1:
+        bad(line, f"{where}.{name}_over", None, f"must not be given with {name}_min.")
+        return None
+    if not given:
+        return None
+    key, val = given[0]
+    if not _is_number(val) or not 0 < val <= high:
+        bad(line, f"{where}.{key}", val, f"must be a number above 0 and at most {high:g}.")
+        return None
+    return float(val), key.endswith("_over")
+
+
+def _flow_below(when: dict[str, Any], where: str, line: int | None, bad: Any) -> float | None:
+    val = when.get("flow_below")
+    if val is None:
+        return None
+    if not _is_number(val) or not 0 < val <= 800:
+        bad(line, f"{where}.flow_below", val, "must be a number above 0 and at most 800.")
+        return None
+    return float(val)
+
+
+def _psv_only(raw: Any, line: int | None, band_ids: set[str], bad: Any) -> tuple[PsvOnlyRule, ...]:
+    """Return the set's PSV-only rule, mildest row first, reporting every problem."""
+    if raw is None:
+        return ()
+    if not isinstance(raw, list):
+        bad(line, "psv_only", None, "must be a list of rows with band and psv_min or psv_over.")
+        return ()
+    rows: list[PsvOnlyRule] = []
+    for i, row in enumerate(raw):
+        where = f"psv_only[{i}]"
+        if not isinstance(row, dict):
+            bad(line, where, None, "must be a mapping with band and psv_min or psv_over.")
+            continue
+        for key in row:
+            if key not in _PSV_ONLY_KEYS:
+                near = difflib.get_close_matches(str(key), _PSV_ONLY_KEYS, n=1)
+                hint = f"did you mean {near[0]}?" if near else None
+                bad(line, f"{where}.{key}", None, "is not a PSV-only field.", hint)
+        band = row.get("band")
+        if not isinstance(band, str) or band not in band_ids:
+            near = difflib.get_close_matches(str(band), sorted(band_ids), n=1)
+            hint = f"did you mean {near[0]}?" if near else None
+            bad(line, f"{where}.band", band, "must be one of the set's band ids.", hint)
+            continue
+        psv = _threshold(row, "psv", 800.0, where, line, bad)
+        if psv is None:
+            if "psv_min" not in row and "psv_over" not in row:
+                bad(line, where, None, "must give psv_min or psv_over.")
+            continue
+        if rows and psv[0] < rows[-1].psv_min:
+            bad(line, f"{where}.psv_min", psv[0], "must not be below the rows before it.")
+        rows.append(PsvOnlyRule(band, psv[0], psv[1], _flow_below(row, where, line, bad)))
+    return tuple(rows)

@@ -256,4 +256,5 @@ def write_gallery(
         page=profile.page if profile else None,
     )
     options = ExportOptions(png_dpi=150.0)
-    return export(Drawing(svg=svg, results={}), path, fmt, options, overwrite=overwrite)
+    drawing = Drawing(results={}, svg_pages=(svg,))
+    return export(drawing, path, fmt, options, overwrite=overwrite)

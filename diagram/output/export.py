@@ -1,10 +1,14 @@
-"""The export stage: write a drawing as SVG, PDF, PNG or JSON, atomically.
+"""The export stage: write a drawing as SVG, PDF, PNG, DICOM or JSON, atomically.
 
-One ``export()`` with a registry of writers keyed by format; the format comes from the output
-suffix unless given. Every write goes to a temporary file in the destination folder and is given
-its name only when complete, so a failed run leaves no partial file. An existing output is never
-replaced unless asked for (``overwrite``), and then only by a complete new one. CairoSVG runs in
-its safe mode (``unsafe=False``): it never fetches anything but ``data:`` URLs.
+One ``export()`` with a fixed registry of writers keyed by format (``WRITERS``, read-only; a
+caller that needs other behaviour passes its own mapping as ``writers=``); the format comes from
+the output suffix unless given. PDF and PNG are painted from the drawing's Scene by cairo
+(``output.cairo_backend``) or, with ``ExportOptions(renderer="cairosvg")`` or a drawing given only
+as SVG text, converted from the SVG by CairoSVG in its safe mode (``unsafe=False``: it never
+fetches anything but ``data:`` URLs). Either way the shipped DejaVu Sans is the only font cairo
+sees (``output.fonts``). Every write goes to a temporary file in the destination folder and is
+given its name only when complete, so a failed run leaves no partial file. An existing output is
+never replaced unless asked for (``overwrite``), and then only by a complete new one.
 """
 
 from __future__ import annotations
@@ -16,63 +20,87 @@ import os
 import secrets
 import signal
 import threading
-from collections.abc import Callable, Iterator, Sequence
+from collections.abc import Callable, Iterator, Mapping, Sequence
 from dataclasses import dataclass
-from importlib import resources
+from functools import cached_property
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from types import MappingProxyType
+from typing import TYPE_CHECKING, Any, Literal
 
 from diagram.errors import ExportError
 
 if TYPE_CHECKING:
+    from diagram.drawing.scene import Scene
     from diagram.output.dicom import DicomIdentity
     from diagram.reading.study import Study
 
 
 @dataclass(frozen=True)
 class Drawing:
-    """What the pipeline produced for one study: the SVG text and the results document.
+    """What the pipeline produced for one study: the Scene and the results document.
 
-    ``svg`` is page 1; ``more`` holds the further pages of a sheet whose tables did not fit.
+    ``scene`` is the laid-out sheet (its further pages in ``scene.more``); each format's writer
+    renders it as it needs. A drawing may instead be given as SVG text (``svg_pages``, page 1
+    first), which is then what the SVG writer writes and what CairoSVG converts.
     ``study`` gives the DICOM header its patient and exam attributes; ``dicom`` overrides them
     (the teaching export passes de-identified ones).
     """
 
-    svg: str
     results: dict[str, Any]
+    scene: Scene | None = None
+    svg_pages: tuple[str, ...] = ()
     study: Study | None = None
     dicom: DicomIdentity | None = None
-    more: tuple[str, ...] = ()
+
+    def __post_init__(self) -> None:
+        if self.scene is None and not self.svg_pages:
+            raise ValueError("a Drawing needs a scene or the SVG text of its pages")
+
+    @cached_property
+    def pages(self) -> tuple[str, ...]:
+        """Return the SVG text of every page, page 1 first (rendered once, when first asked)."""
+        if self.svg_pages:
+            return self.svg_pages
+        from diagram.output.svg import render_pages
+
+        assert self.scene is not None  # __post_init__
+        return render_pages(self.scene)
 
     @property
-    def pages(self) -> tuple[str, ...]:
-        """Return the SVG text of every page, page 1 first."""
-        return (self.svg, *self.more)
+    def svg(self) -> str:
+        """Return the SVG text of page 1."""
+        return self.pages[0]
+
+    @property
+    def page_count(self) -> int:
+        """Return the number of pages."""
+        if self.svg_pages:
+            return len(self.svg_pages)
+        assert self.scene is not None  # __post_init__
+        return self.scene.page_count
 
 
 @dataclass(frozen=True)
 class ExportOptions:
-    """Format-specific settings."""
+    """Format-specific settings.
+
+    ``renderer`` chooses how PDF and PNG are drawn: ``"cairo"`` paints the Scene directly,
+    ``"cairosvg"`` converts the SVG text (the reference route, and the one taken for a drawing
+    given only as SVG text).
+    """
 
     png_dpi: float = 150.0
+    renderer: Renderer = "cairo"
 
 
+Renderer = Literal["cairo", "cairosvg"]
+RENDERERS: tuple[Renderer, ...] = ("cairo", "cairosvg")
 Writer = Callable[[Drawing, ExportOptions], bytes]
 
 
-def _use_shipped_fonts() -> None:
-    """Point fontconfig at the package's fonts before cairo first looks a font up.
-
-    The label layout measures text with the shipped DejaVu Sans; rendering with the same file
-    keeps the PDF and PNG text exactly as wide as the layout assumed.
-    """
-    if "FONTCONFIG_FILE" not in os.environ:
-        conf = resources.files("diagram") / "fonts" / "fonts.conf"
-        os.environ["FONTCONFIG_FILE"] = str(conf)
-
-
 def _cairosvg() -> Any:
-    _use_shipped_fonts()
+    from diagram.output.fonts import use_shipped_fonts
+
     try:
         import cairosvg
     except OSError as exc:  # the Python package is there but the system cairo library is not
@@ -80,6 +108,7 @@ def _cairosvg() -> Any:
             f"PDF and PNG output need the cairo library ({exc}); install it, e.g. "
             "'apt-get install -y libcairo2'."
         ) from None
+    use_shipped_fonts()
     return cairosvg
 
 
@@ -89,19 +118,36 @@ def _svg(drawing: Drawing, options: ExportOptions) -> bytes:
     return stack_svgs(drawing.pages).encode("utf-8")
 
 
+def _scene(drawing: Drawing, options: ExportOptions) -> Scene | None:
+    """Return the Scene to paint with cairo, or None for the CairoSVG route."""
+    return drawing.scene if options.renderer == "cairo" and not drawing.svg_pages else None
+
+
 def _pdf(drawing: Drawing, options: ExportOptions) -> bytes:
+    scene = _scene(drawing, options)
+    if scene is not None:
+        from diagram.output.cairo_backend import pdf_bytes
+
+        return pdf_bytes(scene)
     cairosvg = _cairosvg()
-    if not drawing.more:
-        data: bytes = cairosvg.svg2pdf(bytestring=drawing.svg.encode("utf-8"), unsafe=False)
+    pages = drawing.pages
+    if len(pages) == 1:
+        data: bytes = cairosvg.svg2pdf(bytestring=pages[0].encode("utf-8"), unsafe=False)
         return data
     from diagram.output.svg import pdf_from_svgs
 
-    return pdf_from_svgs(drawing.pages)
+    return pdf_from_svgs(pages)
 
 
 def _png(drawing: Drawing, options: ExportOptions) -> bytes:
     from diagram.output.pages import GAP_PT, stack_pngs
 
+    gap = round(GAP_PT * options.png_dpi / 72)
+    scene = _scene(drawing, options)
+    if scene is not None:
+        from diagram.output.cairo_backend import png_pages
+
+        return stack_pngs(png_pages(scene, options.png_dpi), gap)
     cairosvg = _cairosvg()
     images = [
         cairosvg.svg2png(
@@ -112,7 +158,7 @@ def _png(drawing: Drawing, options: ExportOptions) -> bytes:
         )
         for page in drawing.pages
     ]
-    return stack_pngs(images, round(GAP_PT * options.png_dpi / 72))
+    return stack_pngs(images, gap)
 
 
 def _dcm(drawing: Drawing, options: ExportOptions) -> bytes:
@@ -138,35 +184,46 @@ def _json(drawing: Drawing, options: ExportOptions) -> bytes:
         return (json.dumps(drawing.results, indent=2, sort_keys=False) + "\n").encode("ascii")
 
 
-WRITERS: dict[str, Writer] = {
-    "svg": _svg,
-    "pdf": _pdf,
-    "png": _png,
-    "dcm": _dcm,
-    "json": _json,
-}
+WRITERS: Mapping[str, Writer] = MappingProxyType(
+    {
+        "svg": _svg,
+        "pdf": _pdf,
+        "png": _png,
+        "dcm": _dcm,
+        "json": _json,
+    }
+)
 FORMATS: tuple[str, ...] = tuple(WRITERS)
 
 
-def format_for(path: Path, forced: str | None = None) -> str:
+def format_for(
+    path: Path, forced: str | None = None, writers: Mapping[str, Writer] = WRITERS
+) -> str:
     """Return the output format: ``forced`` if given, else the path's suffix."""
     fmt = (forced or path.suffix.lstrip(".")).lower()
-    if fmt not in WRITERS:
+    if fmt not in writers:
         shown = forced if forced else (path.suffix or "(no suffix)")
         raise ExportError(
-            f"{path}: output format {shown!r} is not one of {', '.join(FORMATS)}; "
+            f"{path}: output format {shown!r} is not one of {', '.join(writers)}; "
             "give a suffix such as .pdf or use --format."
         )
     return fmt
 
 
-def render_bytes(drawing: Drawing, fmt: str, options: ExportOptions | None = None) -> bytes:
+def render_bytes(
+    drawing: Drawing,
+    fmt: str,
+    options: ExportOptions | None = None,
+    *,
+    writers: Mapping[str, Writer] = WRITERS,
+) -> bytes:
     """Return the drawing encoded in one format, without writing anything.
 
-    SIGINT and SIGTERM are held meanwhile (see ``held_signals``) and handled once it returns.
+    ``writers`` replaces the registry (e.g. a test's writer that fails). SIGINT and SIGTERM are
+    held meanwhile (see ``held_signals``) and handled once it returns.
     """
     with held_signals():
-        return WRITERS[fmt](drawing, options or ExportOptions())
+        return writers[fmt](drawing, options or ExportOptions())
 
 
 @contextlib.contextmanager
@@ -333,16 +390,18 @@ def export(
     options: ExportOptions | None = None,
     *,
     overwrite: bool = False,
+    writers: Mapping[str, Writer] = WRITERS,
 ) -> Path:
     """Write the drawing to ``path`` in its format; return the path written.
 
     An existing file at ``path`` is refused (``ExportError``, the file untouched) unless
-    ``overwrite`` is true.
+    ``overwrite`` is true. ``writers`` replaces the registry of writers by format (its keys are
+    the formats known).
     """
     out = Path(path)
-    chosen = format_for(out, fmt)
+    chosen = format_for(out, fmt, writers)
     refuse_existing(out, overwrite)
-    write_atomic(out, render_bytes(drawing, chosen, options), overwrite=overwrite)
+    write_atomic(out, render_bytes(drawing, chosen, options, writers=writers), overwrite=overwrite)
     return out
 
 

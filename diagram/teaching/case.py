@@ -191,7 +191,7 @@ def _drawing(pages: tuple[str, ...]) -> Drawing:
     """Return the pages as a Drawing for the export writers (no study: nothing to identify)."""
     from diagram.output.export import Drawing
 
-    return Drawing(svg=pages[0], results={}, more=pages[1:])
+    return Drawing(results={}, svg_pages=pages)
 
 
 def _yaml_text(case: TeachCase) -> str:

@@ -11,6 +11,10 @@ Sections:
   cold    `limbchart --help` and `limbchart check` against `python -c "import click"`.
   batch   200 generated studies to PDF with --jobs 1 and --jobs 2: studies/s and speed-up
           (target >= 1.7x on two cores); parent peak memory for 50 vs 500 studies.
+  cairo   the Scene painted by cairo against the SVG converted by CairoSVG, side by side:
+          cold `limbchart draw BUSIEST -o x.pdf` against a cold `python -m cairosvg` of the
+          same SVG (target <= 0.6x); warm PDF per page (target <= 25 ms); a batch of 200 to
+          PDF with both renderers at the same --jobs (target >= 4x the studies/s).
 
 Not a test: nothing here asserts. Write the printed figures into DEVELOPERS.md.
 """
@@ -88,7 +92,7 @@ def stages() -> None:
             )
         )
         t_render = best_of(lambda s=scene: render_svg(s))  # type: ignore[misc]
-        drawing = Drawing(svg=svg, results={})
+        drawing = Drawing(results={}, svg_pages=(svg,))
         t_pdf = best_of(lambda d=drawing: render_bytes(d, "pdf"), repeat=5)  # type: ignore[misc]
         ours = t_load + t_assess + t_layout + t_render
         print(
@@ -168,14 +172,14 @@ def cold() -> None:
         print(f"  {name:27s} {t * 1e3:7.1f}  {t / base:.2f}x")
 
 
-def _batch_once(folder: Path, jobs: int) -> tuple[float, float]:
+def _batch_once(folder: Path, jobs: int, renderer: str = "cairo") -> tuple[float, float]:
     out = Path(tempfile.mkdtemp())
     code = (
         "import resource, sys\n"
         "from diagram.cli.main import main\n"
         "try:\n"
         f"    main(['draw', {str(folder)!r}, '-o', {str(out) + '/'!r}, '--format', 'pdf',"
-        f" '--jobs', '{jobs}', '--quiet'])\n"
+        f" '--jobs', '{jobs}', '--quiet', '--renderer', {renderer!r}])\n"
         "except SystemExit:\n"
         "    pass\n"
         "print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss)\n"
@@ -205,7 +209,89 @@ def batch() -> None:
     )
 
 
-SECTIONS = {"stages": stages, "labels": labels, "cold": cold, "batch": batch}
+def _busiest() -> Path:
+    """Return the example whose sheet holds the most characters of text."""
+    from diagram.drawing.scene import Text
+    from diagram.pipeline import draw
+    from diagram.reading.load import load_study
+
+    def chars(path: Path) -> int:
+        scene = draw(load_study(path)).scene
+        assert scene is not None
+        return sum(len(i.text) for p in scene.pages() for i in p.walk() if isinstance(i, Text))
+
+    return max(sorted((ROOT / "examples").glob("*.yaml")), key=chars)
+
+
+def cairo() -> None:
+    from diagram.output.export import ExportOptions, render_bytes
+    from diagram.pipeline import draw
+    from diagram.reading.load import load_study
+
+    busiest = _busiest()
+    tmp = Path(tempfile.mkdtemp())
+    svg = tmp / "busiest.svg"
+    py = sys.executable
+    subprocess.run([py, "-m", "diagram", "draw", str(busiest), "-o", str(svg)], check=True)
+
+    def run(args: list[str]) -> float:
+        def once() -> None:
+            for old in tmp.glob("x*.pdf"):
+                old.unlink()
+            subprocess.run(args, check=True, capture_output=True)
+
+        return best_of(once, repeat=5)
+
+    # one after the other in each round, so both see the same load on a shared machine
+    alone = run([py, "-m", "cairosvg", str(svg), "-o", str(tmp / "x0.pdf")])
+    ours = run([py, "-m", "diagram", "draw", str(busiest), "-o", str(tmp / "x1.pdf")])
+    old = run(
+        [
+            py,
+            "-m",
+            "diagram",
+            "draw",
+            str(busiest),
+            "-o",
+            str(tmp / "x2.pdf"),
+            "--renderer",
+            "cairosvg",
+        ]
+    )
+    print(f"cairo renderer (busiest example: {busiest.name}; median of 5 cold processes, ms)")
+    print(f"  python -m cairosvg busiest.svg -o x.pdf         {alone * 1e3:7.1f}  1.00x")
+    print(
+        f"  limbchart draw busiest -o x.pdf                 {ours * 1e3:7.1f}  {ours / alone:.2f}x"
+        "  (target <= 0.6x)"
+    )
+    print(f"  limbchart draw ... --renderer cairosvg          {old * 1e3:7.1f}  {old / alone:.2f}x")
+    drawing = draw(load_study(busiest))
+    pages = drawing.page_count
+    options = {name: ExportOptions(renderer=name) for name in ("cairo", "cairosvg")}
+    warm = {
+        name: best_of(lambda o=chosen: render_bytes(drawing, "pdf", o))  # type: ignore[misc]
+        for name, chosen in options.items()
+    }
+    whole = best_of(lambda: render_bytes(draw(load_study(busiest)), "pdf"))
+    print(f"warm PDF of the busiest example ({pages} pages; median of 7, ms per page)")
+    print(f"  cairo     {warm['cairo'] * 1e3 / pages:7.1f}  (target <= 25)")
+    print(
+        f"  cairosvg  {warm['cairosvg'] * 1e3 / pages:7.1f}  ({warm['cairosvg'] / warm['cairo']:.1f}x)"
+    )
+    print(f"  load + assess + layout + cairo PDF  {whole * 1e3 / pages:7.1f}")
+    write_studies(tmp / "s200", 200)
+    jobs = 2
+    t_old, _ = _batch_once(tmp / "s200", jobs, "cairosvg")
+    t_new, _ = _batch_once(tmp / "s200", jobs, "cairo")
+    print(f"batch: 200 generated studies to PDF, --jobs {jobs}, on {os.cpu_count()} CPUs")
+    print(f"  --renderer cairosvg  {t_old:6.1f} s  {200 / t_old:6.1f} studies/s")
+    print(
+        f"  --renderer cairo     {t_new:6.1f} s  {200 / t_new:6.1f} studies/s  "
+        f"{t_old / t_new:.2f}x  (target >= 4x)"
+    )
+
+
+SECTIONS = {"stages": stages, "labels": labels, "cold": cold, "batch": batch, "cairo": cairo}
 
 if __name__ == "__main__":
     wanted = sys.argv[1:] or list(SECTIONS)
