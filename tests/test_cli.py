@@ -157,6 +157,7 @@ def test_every_command_is_on_the_installed_group() -> None:
         "criteria",
         "draw",
         "gallery",
+        "import",
         "schema",
         "style",
         "teach",
