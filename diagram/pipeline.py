@@ -20,8 +20,6 @@ if TYPE_CHECKING:
     from diagram.drawing.labprofile import LabProfile
     from diagram.drawing.template.mapfile import Template
 
-PAGES: tuple[str, ...] = ("a4", "letter", "map")
-
 
 def draw(
     study: Study,

@@ -156,6 +156,7 @@ def test_every_command_is_on_the_installed_group() -> None:
         "check",
         "criteria",
         "draw",
+        "edit",
         "gallery",
         "import",
         "schema",

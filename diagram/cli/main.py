@@ -18,6 +18,7 @@ import click
 from diagram._version import __version__
 from diagram.caution import CAUTION
 from diagram.cli.design import COMMANDS as DESIGN_COMMANDS
+from diagram.cli.edit import edit
 from diagram.cli.importing import import_report
 from diagram.cli.options import (
     DEFAULT_DPI,
@@ -319,7 +320,7 @@ def schema(results: bool) -> None:
 
 # Every command of the tool, registered here and nowhere else.
 @click.group(
-    commands=[draw, check, criteria, schema, teach, import_report, *DESIGN_COMMANDS],
+    commands=[draw, check, criteria, schema, teach, import_report, edit, *DESIGN_COMMANDS],
     context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100},
     epilog=CAUTION,
 )

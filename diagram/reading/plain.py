@@ -1,8 +1,10 @@
-"""A Study as the plain data of a study file (DESIGN.md §3): the inverse of reading it.
+"""A Study back as a study file (DESIGN.md §3): its plain data, and that data as YAML text.
 
 Only the file's own keys, in the file's order, each only when it has a value; numbers as whole
-numbers where they are whole. The teaching export writes it as YAML and the results document
-echoes the patient and exam fields from it, so both say the same thing the same way.
+numbers where they are whole, written as plain decimals (the loader refuses YAML 1.1 exponent
+forms). ``load_study`` reads the text back to an equal study, apart from the line numbers and the
+source name. The teaching export and the editor write it; the results document echoes the
+patient and exam fields from the same functions, so all say the same thing the same way.
 """
 
 from __future__ import annotations
@@ -174,3 +176,34 @@ def study_data(study: Study) -> dict[str, Any]:
     if study.notes is not None:
         data["notes"] = study.notes
     return data
+
+
+def study_yaml(study: Study, *, comments: tuple[str, ...] = ()) -> str:
+    """Return the study file text; ``comments`` open it as ``#`` lines."""
+    return dump_study(study_data(study), comments=comments)
+
+
+def dump_study(data: Mapping[str, Any], *, comments: tuple[str, ...] = ()) -> str:
+    """Return study file data (:func:`study_data`) as YAML text; ``comments`` open it."""
+    import yaml
+
+    def represent_float(dumper: yaml.SafeDumper, value: float) -> yaml.Node:
+        text = repr(value)
+        if "e" in text or "n" in text:  # exponent, inf, nan: the loader reads none of them
+            text = f"{value:.10f}".rstrip("0").rstrip(".")
+        return dumper.represent_scalar("tag:yaml.org,2002:float", text)
+
+    class _Dumper(yaml.SafeDumper):
+        """A safe dumper writing floats as plain decimals (a subclass: no global change)."""
+
+    _Dumper.add_representer(float, represent_float)
+    body = yaml.dump(
+        dict(data),
+        Dumper=_Dumper,
+        sort_keys=False,
+        allow_unicode=True,
+        default_flow_style=False,
+        width=100,
+    )
+    head = "".join(f"# {line}\n" for line in comments)
+    return head + body
