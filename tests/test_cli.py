@@ -63,14 +63,14 @@ def test_check_json_has_the_documented_fields(capsys: pytest.CaptureFixture[str]
 def test_check_json_warnings_carry_their_fields(capsys: pytest.CaptureFixture[str]) -> None:
     code, out, _ = run(["check", str(ROOT / "examples" / "clti-multilevel.yaml"), "--json"], capsys)
     assert code == 0
-    # 2016 AHA/ACC PAD guideline and WIfI: ABI < 0.40, ankle < 50 mmHg, toe < 30 mmHg
+    # 2016 AHA/ACC PAD guideline and WIfI: ABI < 0.40, ankle < 50 mmHg, toe and TcPO2 < 30 mmHg
     assert json.loads(out)["warnings"] == [
         {
             "code": "clti-pressure",
             "side": "right",
             "segment": None,
             "message": "pressures in the range of chronic limb-threatening ischaemia: "
-            "ABI 0.29 < 0.40, ankle 44 < 50 mmHg, toe 18 < 30 mmHg.",
+            "ABI 0.29 < 0.40, ankle 44 < 50 mmHg, toe 18 < 30 mmHg, TcPO2 16 < 30 mmHg.",
         }
     ]
 
