@@ -39,7 +39,7 @@ def study_sets(study: Study) -> CriteriaSets:
 def assess(
     study: Study,
     *,
-    criteria: CriteriaSets | None = None,
+    criteria: CriteriaSets | Criteria | None = None,
     target: str | None = None,
     prior: Study | None = None,
     prior_criteria: CriteriaSets | None = None,
@@ -56,7 +56,10 @@ def assess(
         problems = check_prior(study, prior)
         if problems:
             raise StudyError(problems)
-    sets = criteria if criteria is not None else study_sets(study)
+    if isinstance(criteria, Criteria):  # a native set alone: the study's shipped others with it
+        sets = replace(study_sets(study), native=criteria)
+    else:
+        sets = criteria if criteria is not None else study_sets(study)
     study, findings = with_shift_velocities(study)
     limbs, grading_findings = grade_limbs(study, sets)
     findings.extend(grading_findings)
