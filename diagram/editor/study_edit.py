@@ -160,25 +160,23 @@ def vessel_hooks(template: Any) -> dict[str, dict[str, str]]:
 
 
 def preview(study: Study, edited: EditedStudy) -> dict[str, Any]:
-    """Assess and draw page 1 of the sheet; return its SVG (with hooks), the results, the map box.
+    """Draw the study with the pipeline; return page 1 as SVG with hooks, the results, the map box.
 
-    The same stages as ``draw`` (assess, layout, render), with the vessels marked for the page.
+    The same call as ``draw`` (assess, layout), rendered with each vessel marked for the page.
     """
-    from diagram.assess import assess
-    from diagram.drawing.layout import layout
     from diagram.drawing.template.mapfile import load_template
-    from diagram.output.results import results_document
     from diagram.output.svg import render_svg
+    from diagram.pipeline import draw
 
-    assessment = assess(study, **_inputs(study, edited))
     template = load_template(edited.template)
-    scene = layout(assessment, template, page=edited.page, version=__version__)
+    drawing = draw(study, page=edited.page, template=template, **_inputs(study, edited))
+    assert drawing.scene is not None  # the pipeline hands over the Scene
     hooks = vessel_hooks(template)
-    svg = render_svg(scene, annotate=lambda item: hooks.get(item.id))
-    box = scene.map_box
+    svg = render_svg(drawing.scene, annotate=lambda item: hooks.get(item.id))
+    box = drawing.scene.map_box
     return {
         "svg": svg[svg.index("<svg") :],  # inline in the page: no XML declaration
-        "results": results_document(assessment, version=__version__),
+        "results": drawing.results,
         "map_box": [box.x, box.y, box.w, box.h],
     }
 
