@@ -32,9 +32,9 @@ from diagram._version import __version__
 from diagram.drawing.template.mapfile import load_template
 from diagram.editor.app import TOKEN_HEADER, make_app
 from diagram.editor.study_edit import MAX_BODY, EditedStudy, open_study
+from diagram.inputs import assess_file
 from diagram.output.results import results_document
-from diagram.pipeline import assess_study
-from diagram.reading.load import load_prior, load_study
+from diagram.reading.load import load_study
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLES = ROOT / "examples"
@@ -71,8 +71,7 @@ def opened(client: TestClient) -> dict[str, Any]:
 
 
 def expected_results(path: Path) -> dict[str, Any]:
-    study = load_study(path)
-    return results_document(assess_study(study, prior=load_prior(study)), version=__version__)
+    return results_document(assess_file(path), version=__version__)
 
 
 # --- the guard ----------------------------------------------------------------------------------
@@ -355,10 +354,17 @@ def test_preview_follows_a_change_of_psv(client: TestClient) -> None:
 
 
 def test_draw_output_without_hooks_is_unchanged(study_file: Path) -> None:
+    from diagram.output.svg import render_svg
     from diagram.pipeline import draw
 
-    svg = draw(load_study(study_file)).svg
+    drawing = draw(load_study(study_file))
+    assert drawing.scene is not None
+    svg = drawing.svg
     assert "data-segment" not in svg and "data-side" not in svg
+    # hooks only add attributes: take them out and the text is the draw command's, byte for byte
+    marked = render_svg(drawing.scene, annotate=lambda item: {"data-x": "1"})
+    assert marked != svg and marked.replace(' data-x="1"', "") == svg
+    assert render_svg(drawing.scene, annotate=lambda item: None) == svg
 
 
 @pytest.mark.parametrize("fmt", ["svg", "pdf", "png", "dcm", "json"])

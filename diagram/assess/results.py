@@ -10,8 +10,8 @@ from diagram.anatomy import Side
 from diagram.reading.study import Study
 
 if TYPE_CHECKING:  # defined downstream of this module; annotations only
-    from diagram.assess.compare import Comparison
-    from diagram.assess.planning import Planning
+    from diagram.assess.compare_results import Comparison
+    from diagram.assess.plan_results import Planning
 
 
 @dataclass(frozen=True)
