@@ -16,6 +16,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 from diagram.anatomy import vessel_key
+from diagram.drawing.paper import PAGES
 from diagram.drawing.style import BandStyle, Style, default_style
 from diagram.errors import ExportError
 
@@ -24,8 +25,6 @@ if TYPE_CHECKING:
     from diagram.drawing.scene import Item
     from diagram.drawing.template.mapfile import Template
 
-PT_PER_MM = 72.0 / 25.4
-PAGE_PT = {"a4": (210 * PT_PER_MM, 297 * PT_PER_MM), "letter": (612.0, 792.0)}
 MARGIN_PT = 28.0
 PANEL_PT = 166.0  # height of the band panel above the map
 FORMATS = ("svg", "pdf", "png")
@@ -173,11 +172,11 @@ def gallery_svg(
 ) -> str:
     """Return the gallery page as SVG text (A4 unless ``page`` is ``letter``)."""
     from diagram._version import __version__
+    from diagram.assess import assess
     from diagram.drawing.layout import layout
     from diagram.drawing.scene import Box, Rect, Scene
     from diagram.drawing.template.mapfile import load_template
     from diagram.output.svg import render_svg
-    from diagram.pipeline import assess_study
     from diagram.reading.load import load_study_text
 
     style = style or default_style()
@@ -188,11 +187,12 @@ def gallery_svg(
     earlier = load_study_text(
         specimen_yaml(side, covered, prior=True), "specimen-prior.yaml", ".yaml"
     )
-    assessment = assess_study(study, prior=earlier)
+    assessment = assess(study, prior=earlier)
     map_scene = layout(
         assessment, tpl, page="map", version=__version__, generated_note=SPECIMEN_NOTE, style=style
     )
-    width, height = PAGE_PT["letter" if page == "letter" else "a4"]
+    spec = PAGES["letter" if page == "letter" else "a4"]
+    width, height = spec.width_pt, spec.height_pt
     title = "Style gallery" + (f" — {lab_name}" if lab_name else "")
     items, bands = _panel(style, title, width)
     page_rect = Rect("gallery-page", 0, 0, width, height, fill="#FFFFFF")

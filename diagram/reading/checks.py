@@ -39,12 +39,15 @@ class Parsed:
     kind: str = "yaml"
     tree: object = None
     lines: dict[Loc, int] = field(default_factory=dict)
+    places: dict[Loc, str] = field(default_factory=dict)  # where no line applies (e.g. DICOM)
     raw: dict[Loc, str] = field(default_factory=dict)  # source text of non-string scalars
     problems: list[Problem] = field(default_factory=list)
     unreadable: set[Loc] = field(default_factory=set)  # values already refused
 
-    def note(self, loc: Loc, line: int, rule: str, value: str | None = None) -> None:
-        self.problems.append(Problem("", line, dotted(loc), value, rule))
+    def note(
+        self, loc: Loc, line: int | None, rule: str, value: str | None = None, at: str | None = None
+    ) -> None:
+        self.problems.append(Problem("", line, dotted(loc), value, rule, at=at))
 
 
 _NO_VALUE = object()  # a problem about a key or an item, not about a value
@@ -73,6 +76,18 @@ _TYPE_RULES = {
     "array": "must be a list",
 }
 _LIMIT_LABELS = {"psv": "PSV", "edv": "EDV", "proximal_psv": "a proximal PSV"}
+# fields whose plausible range (the schema's minimum and maximum, each with its basis in the
+# schema's $comment) is stated in words: what the value is and its unit
+_RANGE_LABELS = {
+    "vr": ("a velocity ratio", ""),
+    "prf_hz": ("a pulse repetition frequency", " Hz"),
+    "f0_mhz": ("a transmit frequency", " MHz"),
+    "shift_hz": ("a Doppler shift", " Hz"),
+    "brachial": ("a brachial pressure", " mmHg"),
+    "from_cm": ("an offset", " cm"),
+    "length_cm": ("a length", " cm"),
+}
+_BOUNDS = ("minimum", "maximum", "exclusiveMinimum", "exclusiveMaximum")
 _PATIENT_KEYS = {f.name for f in dataclasses.fields(Patient)}
 _YAML_BOOLEAN_WORDS = {"yes", "no", "on", "off"}
 _PLAIN_DECIMAL = re.compile(r"[-+]?(0|[1-9][0-9]*)(\.[0-9]*)?([eE][-+]?[0-9]+)?|[-+]?\.[0-9]+")
@@ -118,6 +133,24 @@ def _close(word: str, choices: list[str]) -> str | None:
     return f"did you mean {folded[match[0]]}?" if match else None
 
 
+def _range_field(loc: Loc) -> str:
+    """Return the name a plausible range is known by: the key, or "brachial" for its sides."""
+    if loc[:2] == ("pressures", "brachial"):
+        return "brachial"
+    return str(loc[-1]) if loc else ""
+
+
+def _range_rule(name: str, schema: dict[str, Any]) -> str:
+    """Return the rule of a plausible range, from the schema's bounds."""
+    label, unit = _RANGE_LABELS[name]
+    high = _num(schema["maximum"])
+    if "exclusiveMinimum" in schema:
+        span = f"above {_num(schema['exclusiveMinimum'])} and at most {high}{unit}"
+    else:
+        span = f"between {_num(schema['minimum'])} and {high}{unit}"
+    return f"is refused: {label} must be {span} to be plausible."
+
+
 _SURROGATE = re.compile("[\ud800-\udfff]")
 
 
@@ -127,9 +160,7 @@ class Checker:
     def __init__(self, name: str, parsed: Parsed) -> None:
         self.name = name
         self.parsed = parsed
-        self.problems: list[Problem] = [
-            Problem(name, p.line, p.field, p.value, p.rule, p.hint) for p in parsed.problems
-        ]
+        self.problems: list[Problem] = [dataclasses.replace(p, file=name) for p in parsed.problems]
         self.bad: set[Loc] = set(parsed.unreadable)
         self.seen: set[tuple[int | None, str, str]] = set()
 
@@ -137,6 +168,12 @@ class Checker:
         for end in range(len(loc), -1, -1):
             if loc[:end] in self.parsed.lines:
                 return self.parsed.lines[loc[:end]]
+        return None
+
+    def place(self, loc: Loc) -> str | None:
+        for end in range(len(loc), -1, -1):
+            if loc[:end] in self.parsed.places:
+                return self.parsed.places[loc[:end]]
         return None
 
     def show(self, loc: Loc, value: object) -> str | None:
@@ -167,7 +204,8 @@ class Checker:
         if (line, dotted(loc), rule) in self.seen:
             return
         self.seen.add((line, dotted(loc), rule))
-        self.problems.append(Problem(self.name, line, dotted(loc), text, rule, hint))
+        at = self.place(loc) if line is None else None
+        self.problems.append(Problem(self.name, line, dotted(loc), text, rule, hint, at))
 
     def refuse(
         self, item: dict[str, object], loc: Loc, key: str, rule: str, hint: str | None = None
@@ -229,6 +267,8 @@ class Checker:
         elif kind in ("minimum", "maximum") and loc[-1:] == ("angle",):
             low, high = _num(schema["minimum"]), _num(schema["maximum"])
             rule = f"must be between {low} and {high} degrees."
+        elif kind in _BOUNDS and _range_field(loc) in _RANGE_LABELS:
+            rule = _range_rule(_range_field(loc), schema)
         elif kind == "minimum":
             limit = error.validator_value
             rule = "must not be negative." if limit == 0 else f"must be at least {_num(limit)}."

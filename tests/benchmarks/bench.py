@@ -16,6 +16,12 @@ Sections:
           same SVG (target <= 0.6x); warm PDF per page (target <= 25 ms); a batch of 200 to
           PDF with both renderers at the same --jobs (target >= 4x the studies/s).
 
+  edit    the editor's change round trip over HTTP (request, validate, assess, layout, SVG,
+          response) against a running `limbchart edit`, per example: median and 95th
+          percentile of 200 changes; target p95 <= 150 ms for the busiest example. Beside it the
+          server's CPU time per change (from /proc: what a change costs, whatever else the
+          machine does) and the same preview made in-process, as a ratio.
+
 Not a test: nothing here asserts. Write the printed figures into DEVELOPERS.md.
 """
 
@@ -105,7 +111,7 @@ def labels() -> None:
     """Label layout core: measure each label's text with the font metrics, then pack them."""
     import random
 
-    from diagram.drawing.labels import pack_1d
+    from diagram.drawing.map.labels import pack_1d
     from diagram.drawing.textmetrics import text_width
 
     print("label layout: text measured with font metrics + packed in columns (median of 7)")
@@ -130,23 +136,46 @@ def labels() -> None:
         print(
             f"{n:7d} {t * 1e3:8.3f} {per:16.5f}  ({per / base:.2f}x the 10-label cost per n log n)"
         )
+    centres = [float(i % 50) for i in range(20000)]  # worst case: all wanted in one cluster
+    t = best_of(lambda: pack_1d(centres, [1.0] * 20000, 0.0, 0.0, 1e6), repeat=3)
+    print(f"  20000 labels in one cluster: {t * 1e3:.0f} ms packing (an O(n^2) merge: minutes)")
+
+
+def _interleaved(commands: dict[str, list[str]], rounds: int) -> dict[str, float]:
+    """Return each command's median wall time, the commands run in turn in every round.
+
+    Taking turns puts every command under the same load on a shared machine, so the ratios
+    hold even when the absolute times drift.
+    """
+    times: dict[str, list[float]] = {name: [] for name in commands}
+    for args in commands.values():  # warm the file cache and the bytecode
+        subprocess.run(args, check=True, capture_output=True)
+    for _ in range(rounds):
+        for name, args in commands.items():
+            t0 = time.perf_counter()
+            subprocess.run(args, check=True, capture_output=True)
+            times[name].append(time.perf_counter() - t0)
+    return {name: statistics.median(ts) for name, ts in times.items()}
 
 
 def cold() -> None:
-    def run(args: list[str]) -> float:
-        def once() -> None:
-            subprocess.run(args, check=True, capture_output=True)
-
-        return best_of(once, repeat=5)
-
+    """`limbchart --help` (and each command's --help) against `python -c "import click"`."""
     py = sys.executable
-    click_t = run([py, "-c", "import click"])
-    help_t = run([py, "-m", "diagram", "--help"])
-    check_t = run([py, "-m", "diagram", "check", str(ROOT / "examples" / "normal.yaml")])
-    print("cold start (median of 5 processes, ms)")
-    print(f"  python -c 'import click'  {click_t * 1e3:7.1f}  1.00x")
-    print(f"  limbchart --help          {help_t * 1e3:7.1f}  {help_t / click_t:.2f}x")
-    print(f"  limbchart check (small)   {check_t * 1e3:7.1f}  {check_t / click_t:.2f}x")
+    script = str(Path(py).with_name("limbchart"))
+    commands = {
+        "python -c 'import click'": [py, "-c", "import click"],
+        "limbchart --help": [script, "--help"],
+        "limbchart draw --help": [script, "draw", "--help"],
+        "limbchart teach --help": [script, "teach", "--help"],
+        "limbchart template --help": [script, "template", "--help"],
+        "limbchart check (small)": [script, "check", str(ROOT / "examples" / "normal.yaml")],
+    }
+    rounds = 21
+    got = _interleaved(commands, rounds)
+    base = got["python -c 'import click'"]
+    print(f"cold start (median of {rounds} interleaved runs, ms; target --help <= 1.3x)")
+    for name, t in got.items():
+        print(f"  {name:27s} {t * 1e3:7.1f}  {t / base:.2f}x")
 
 
 def _batch_once(folder: Path, jobs: int, renderer: str = "cairo") -> tuple[float, float]:
@@ -184,6 +213,98 @@ def batch() -> None:
         f"  parent peak memory: 50 studies {m50:.1f} MB, 500 studies {m500:.1f} MB "
         f"({m500 / m50:.2f}x)"
     )
+
+
+def _edit_round_trips(path: Path, changes: int) -> tuple[list[float], float, float]:
+    """Time ``changes`` preview round trips of one study (s).
+
+    Return the round trips, the in-process median and the server's CPU seconds per change.
+    """
+    import http.client
+    import json
+    import shutil
+    import signal
+    from urllib.parse import urlsplit
+
+    from diagram.editor.study_edit import EditedStudy, preview
+    from diagram.reading.load import load_study
+    from diagram.reading.plain import study_data
+
+    with tempfile.TemporaryDirectory() as folder:
+        copy = Path(folder) / path.name
+        shutil.copy(path, copy)
+        for sibling in path.parent.glob("*.yaml"):  # a prior is named relative to its study
+            if not (Path(folder) / sibling.name).exists():
+                shutil.copy(sibling, Path(folder) / sibling.name)
+        process = subprocess.Popen(
+            [sys.executable, "-m", "diagram", "edit", str(copy), "--no-browser"],
+            stdout=subprocess.PIPE,
+            stderr=subprocess.DEVNULL,
+            text=True,
+        )
+        assert process.stdout is not None
+        url = urlsplit(process.stdout.readline().strip())
+        token = url.query.split("=", 1)[1]
+        study = load_study(copy)
+        doc = study_data(study)
+        limbs = doc.setdefault("limbs", {})
+        segments = limbs.setdefault("right", {}).setdefault("segments", {})
+        sample = segments.setdefault("SFA-M", {})
+        conn = http.client.HTTPConnection(url.hostname or "127.0.0.1", url.port, timeout=30)
+        headers = {"Content-Type": "application/json", "X-Limbchart-Token": token}
+        times = []
+        cpu = 0.0
+        try:
+            for k in range(changes + 5):  # the first five warm up
+                if k == 5:
+                    cpu = -_cpu_seconds(process.pid)
+                sample["psv"] = 80 + (k % 40) * 5  # every change moves the band or the label
+                body = json.dumps(doc)
+                t0 = time.perf_counter()
+                conn.request("POST", "/api/preview", body=body, headers=headers)
+                answer = conn.getresponse()
+                data = answer.read()
+                elapsed = time.perf_counter() - t0
+                assert answer.status == 200 and b'"svg"' in data, data[:200]
+                if k >= 5:
+                    times.append(elapsed)
+            cpu += _cpu_seconds(process.pid)
+        finally:
+            conn.close()
+            process.send_signal(signal.SIGINT)
+            process.wait(timeout=30)
+        edited = EditedStudy(copy, copy.parent)
+        in_process = best_of(lambda: preview(study, edited), repeat=15)
+    return times, in_process, cpu / changes
+
+
+def _cpu_seconds(pid: int) -> float:
+    """Return the CPU time (user + system) a process has used, from /proc."""
+    fields = Path(f"/proc/{pid}/stat").read_text().rsplit(")", 1)[1].split()
+    return (int(fields[11]) + int(fields[12])) / os.sysconf("SC_CLK_TCK")
+
+
+def edit() -> None:
+    changes = 200
+    print(f"editor change round trip over HTTP ({changes} changes per study, ms)")
+    print(
+        f"{'study':24} {'median':>7} {'p95':>7} {'max':>7} {'server cpu':>11} "
+        f"{'in-process':>11} {'http/in':>8}"
+    )
+    worst = ("", 0.0)
+    for path in sorted((ROOT / "examples").glob("*.yaml")):
+        times, in_process, cpu = _edit_round_trips(path, changes)
+        times.sort()
+        p95 = times[math.ceil(0.95 * len(times)) - 1]
+        median = statistics.median(times)
+        print(
+            f"{path.stem:24} {median * 1e3:7.1f} {p95 * 1e3:7.1f} {times[-1] * 1e3:7.1f} "
+            f"{cpu * 1e3:11.1f} {in_process * 1e3:11.1f} {median / in_process:7.2f}x"
+        )
+        if p95 > worst[1]:
+            worst = (path.stem, p95)
+    print(f"busiest: {worst[0]}, p95 {worst[1] * 1e3:.1f} ms (target <= 150 ms)")
+    print(f"load average while measured: {os.getloadavg()[0]:.1f} on {os.cpu_count()} CPUs")
 
 
 def _busiest() -> Path:
@@ -268,7 +389,14 @@ def cairo() -> None:
     )
 
 
-SECTIONS = {"stages": stages, "labels": labels, "cold": cold, "batch": batch, "cairo": cairo}
+SECTIONS = {
+    "stages": stages,
+    "labels": labels,
+    "cold": cold,
+    "batch": batch,
+    "cairo": cairo,
+    "edit": edit,
+}
 
 if __name__ == "__main__":
     wanted = sys.argv[1:] or list(SECTIONS)
