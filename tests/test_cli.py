@@ -119,9 +119,8 @@ def test_lab_profile_names_the_lab_and_sets_page_and_template(
     assert 'width="8.5in"' in svg  # the profile's Letter page
     assert "#7FB3D5" in svg.upper() or "#7fb3d5" in svg  # the profile's 50-74 tint
     # an explicit option beats the profile
-    code, _, _ = run(
-        ["draw", str(EXAMPLES[0]), "--lab", str(lab), "--page", "a4", "-o", str(out)], capsys
-    )
+    args = ["draw", str(EXAMPLES[0]), "--lab", str(lab), "--page", "a4", "-o", str(out)]
+    code, _, _ = run([*args, "--overwrite"], capsys)
     assert code == 0 and 'width="210mm"' in out.read_text()
 
 

@@ -15,6 +15,7 @@ from diagram.assess.compare import (
     check_prior,
     classify,
     compare,
+    psv_change_pct,
 )
 from diagram.reading.study import (
     Exam,
@@ -124,6 +125,21 @@ def test_segment_psv_change_percent() -> None:
     got = {s.segment: (s.psv_before, s.psv_after, s.psv_change_pct) for s in c.segments}
     assert got["SFA-P"] == (100.0, 150.0, 50.0)
     assert got["CFA"] == (115.0, 100.0, -13.0)
+
+
+# Whole percent, halves away from zero (common practice: PSVs are read to the whole cm/s).
+@pytest.mark.parametrize(
+    ("before", "after", "pct"),
+    [
+        (1000, 1004.9, 0.0),
+        (1000, 1005, 1.0),
+        (1000, 1005.1, 1.0),
+        (1000, 995, -1.0),
+        (230, 410, 78.0),  # +78.26%, not "+78.3%"
+    ],
+)
+def test_psv_change_is_whole_percent(before: float, after: float, pct: float) -> None:
+    assert psv_change_pct(before, after) == pct
 
 
 def test_lesion_psv_change_matched_by_nearest_start() -> None:

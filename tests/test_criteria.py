@@ -51,8 +51,8 @@ def test_lab_file_is_read_and_graded_with_any_match(tmp_path: Path) -> None:
         ),
         (
             ("vr_min: 1.5", "vr_min: 3.0"),
-            "lab.yaml:10: bands[2].when.vr_min: 2.5 must be higher than the vr_min of the milder "
-            "bands before it.",
+            "lab.yaml:10: bands[2].when.vr_min: 2.5 must be higher than the Vr threshold of the "
+            "milder bands before it.",
         ),
         (
             ("lesion_floor: mild", "lesion_floor: mlid"),
@@ -126,19 +126,20 @@ def test_criteria_commands(capsys: pytest.CaptureFixture[str], tmp_path: Path) -
     assert capsys.readouterr().err.strip().endswith("lab.yaml:1: format: 2 must be 1.")
 
 
-# In-stent restenosis (Bandyk group angioplasty-site criteria, confirmed secondary):
-# >= 50% PSV 180-300 and Vr 2-3.5; >= 70% PSV > 300 and Vr > 3.5 (boundaries to the higher band).
+# In-stent restenosis, Bui TD et al., J Vasc Surg 2012;55:346 (confirmed): normal PSV < 200 and
+# Vr < 2; moderate PSV 200-300 or Vr 2-3; severe PSV > 300 or Vr > 3. "or": the worse decides.
 @pytest.mark.parametrize(
     ("vr", "psv", "band"),
     [
-        (1.99, 250, "isr-lt50"),
-        (2.0, 179, "isr-lt50"),
-        (2.0, 180, "isr-50-69"),
-        (3.49, 320, "isr-50-69"),
-        (3.5, 299, "isr-50-69"),
-        (3.5, 300, "isr-70-99"),
-        (None, 150, "isr-lt50"),  # PSV alone rules out restenosis >= 50%
-        (None, 350, None),  # PSV alone cannot decide: left ungraded
+        (1.99, 199, "isr-normal"),  # just below both
+        (2.0, 199, "isr-moderate"),  # Vr on 2: moderate ("2-3")
+        (1.99, 200, "isr-moderate"),  # PSV on 200: moderate ("200-300")
+        (3.0, 300, "isr-moderate"),  # on 300 and 3: still moderate ("> 300", "> 3")
+        (3.01, 250, "isr-severe"),  # Vr just above 3, PSV moderate: "or" -> severe
+        (2.5, 301, "isr-severe"),  # PSV just above 300, Vr moderate: "or" -> severe
+        (5.67, 170, "isr-severe"),  # discordant: Vr severe, PSV normal -> severe (Bui "or")
+        (2.67, 400, "isr-severe"),  # discordant: PSV severe, Vr moderate -> severe
+        (None, 150, None),  # no ratio: the grade is the PSV-only rule's (see below)
     ],
 )
 def test_stent_set_boundaries(vr: float | None, psv: float, band: str | None) -> None:
@@ -146,22 +147,119 @@ def test_stent_set_boundaries(vr: float | None, psv: float, band: str | None) ->
     assert (rule.id if rule else None) == band
 
 
-# Vein graft surveillance (SVS 2018, Zierler; after Bandyk 1988, confirmed): low PSV < 180 and
-# Vr < 2.0; moderate PSV 180-300 or Vr > 2.0; high PSV > 300 and Vr > 3.5.
+# PSV-only rule of each set, just below / on / just above each threshold. Native: Khan SZ et al.,
+# J Vasc Surg 2011 (>= 200 cm/s for >= 70%, confirmed) and Cossman 1989 (> 400 cm/s > 75%, from
+# memory); stent: Bui 2012 PSV column; graft: SVS 2018 (after Bandyk 1988) PSV column.
 @pytest.mark.parametrize(
-    ("vr", "psv", "band"),
+    ("name", "psv", "flow", "band"),
     [
-        (1.99, 179, "graft-low"),
-        (2.0, 150, "graft-moderate"),
-        (1.5, 180, "graft-moderate"),
-        (3.5, 299, "graft-moderate"),
-        (3.49, 310, "graft-moderate"),
-        (3.5, 300, "graft-high"),
+        ("native", 199, None, "lt50"),  # never below the lowest disease band for a lesion
+        ("native", 200, None, "50-74"),  # Khan 2011
+        ("native", 400, None, "50-74"),  # Cossman "200-400" (from memory)
+        ("native", 401, None, "75-99"),  # Cossman "> 400" (from memory)
+        ("stent", 199, None, "isr-normal"),
+        ("stent", 200, None, "isr-moderate"),
+        ("stent", 300, None, "isr-moderate"),
+        ("stent", 301, None, "isr-severe"),
+        ("graft", 179, None, "graft-low"),
+        ("graft", 180, None, "graft-moderate"),
+        ("graft", 300, None, "graft-moderate"),
+        ("graft", 301, 45, "graft-high"),  # flow 45 is not "< 45"
+        ("graft", 301, 44, "graft-highest"),
     ],
 )
-def test_graft_set_boundaries(vr: float, psv: float, band: str) -> None:
-    rule = load_criteria("graft").grade(vr, psv, lesion=False)
+def test_psv_only_boundaries(name: str, psv: float, flow: float | None, band: str) -> None:
+    rule = load_criteria(name).grade_psv_only(psv, lesion=True, flow=flow)
     assert rule is not None and rule.id == band
+
+
+# Vein graft surveillance (SVS 2018 graft surveillance, after Bandyk 1988, confirmed): low PSV
+# < 180 and Vr < 2.0; moderate PSV 180-300, Vr > 2.0; high PSV > 300, Vr > 3.5, flow > 45;
+# highest the same with graft flow velocity < 45. A pair in different rows: the worse (common
+# practice). Vr 2.0 exactly, which the table leaves unplaced, goes to moderate (from memory).
+@pytest.mark.parametrize(
+    ("vr", "psv", "flow", "band"),
+    [
+        (1.99, 179, 60, "graft-low"),
+        (2.0, 150, 60, "graft-moderate"),
+        (1.5, 180, 60, "graft-moderate"),
+        (3.5, 300, 60, "graft-moderate"),  # on both "> 300" and "> 3.5": not yet high
+        (3.51, 250, 60, "graft-high"),  # Vr just above 3.5: high (the worse of the pair)
+        (2.92, 350, 60, "graft-high"),  # PSV just above 300 with a moderate Vr: high
+        (5.0, 250, 60, "graft-high"),
+        (6.0, 420, 45, "graft-high"),  # flow exactly 45: not "< 45"
+        (6.0, 420, 44.9, "graft-highest"),  # SVS 2018 graft surveillance, after Bandyk 1988
+        (3.5, 300, 30, "graft-moderate"),  # low flow alone does not make a lesion high risk
+        (6.0, 420, None, "graft-high"),  # no graft body sampled: flow unknown
+    ],
+)
+def test_graft_set_boundaries(vr: float, psv: float, flow: float | None, band: str) -> None:
+    rule = load_criteria("graft").grade(vr, psv, lesion=False, flow=flow)
+    assert rule is not None and rule.id == band
+
+
+@pytest.mark.parametrize(
+    ("name", "vr", "psv", "pair"),
+    [
+        ("stent", 5.67, 170, ("isr-normal", "isr-severe")),
+        ("stent", 2.67, 400, ("isr-severe", "isr-moderate")),
+        ("stent", 2.5, 250, None),  # both moderate: concordant
+        ("graft", 2.92, 350, ("graft-high", "graft-moderate")),
+        ("graft", 5.0, 250, ("graft-moderate", "graft-high")),
+        ("native", 5.0, 100, None),  # a Vr-only set is never discordant
+    ],
+)
+def test_discordant_pairs_are_named(
+    name: str, vr: float, psv: float, pair: tuple[str, str] | None
+) -> None:
+    found = load_criteria(name).discordant(vr, psv)
+    assert (None if found is None else (found[0].id, found[1].id)) == pair
+
+
+def test_each_shipped_set_states_one_rule_for_psv_and_vr() -> None:
+    for name in ("native", "stent", "graft"):
+        crit = load_criteria(name)
+        assert {b.match for b in crit.bands} == {crit.match}
+    assert load_criteria("stent").match == "any"  # Bui 2012 writes "or"
+
+
+@pytest.mark.parametrize(
+    ("name", "quoted"),
+    [
+        (
+            "stent",
+            "moderate stenosis PSV 200-300 cm/s or Vr 2-3; severe stenosis PSV > 300 cm/s or",
+        ),
+        ("graft", "highest risk PSV > 300 cm/s, Vr > 3.5, graft flow velocity < 45 cm/s"),
+        ("native", "1.3 to < 2.0 20-49%; >= 2.0 50-99%"),
+    ],
+)
+def test_source_lines_quote_their_tables(name: str, quoted: str) -> None:
+    crit = load_criteria(name)
+    assert quoted in crit.source
+    stent = load_criteria("stent")
+    assert stent.band("isr-normal").source == "PSV < 200 and Vr < 2 (Bui 2012)"
+
+
+def test_strict_and_inclusive_thresholds_are_read_and_told_apart() -> None:
+    text = GOOD.replace("vr_min: 2.5", "vr_over: 2.5")
+    crit = parse_criteria(text, "lab.yaml", "lab.yaml")
+    worst = [b for b in crit.bands if not b.occlusion][-1]
+    assert worst.vr_strict and worst.describe() == "PSV >= 250 cm/s or Vr > 2.5"
+    assert crit.grade(2.5, 100, lesion=False).id == "mild"  # type: ignore[union-attr]
+    assert crit.grade(2.51, 100, lesion=False).id == "severe"  # type: ignore[union-attr]
+    both = GOOD.replace("vr_min: 2.5", "vr_min: 2.5, vr_over: 2.5")
+    with pytest.raises(CriteriaError, match="must not be given with vr_min"):
+        parse_criteria(both, "lab.yaml", "lab.yaml")
+
+
+def test_a_psv_only_row_naming_an_unknown_band_is_refused() -> None:
+    text = GOOD + "psv_only:\n  - {band: mid, psv_min: 200}\n"
+    with pytest.raises(
+        CriteriaError,
+        match=r"psv_only\[0\]\.band: 'mid' must be one of the set's band ids\. \(did you mean mild\?\)",
+    ):
+        parse_criteria(text, "lab.yaml", "lab.yaml")
 
 
 def test_a_key_given_twice_is_refused_not_overwritten() -> None:

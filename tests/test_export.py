@@ -2,13 +2,16 @@
 
 from __future__ import annotations
 
+import errno
 import io
 import json
+import multiprocessing
 import os
 import shutil
 import subprocess
 import sys
 from pathlib import Path
+from typing import Any
 
 import pytest
 
@@ -104,7 +107,7 @@ def test_existing_file_replaced_only_by_a_complete_one(tmp_path: Path) -> None:
 
     writers = {**WRITERS, "pdf": failing_writer}
     with pytest.raises(Boom):
-        export(DRAWING, target, writers=writers)
+        export(DRAWING, target, overwrite=True, writers=writers)
     assert target.read_bytes() == b"old"
     assert sorted(os.listdir(tmp_path)) == ["m.pdf"]
 
@@ -227,3 +230,76 @@ def test_rendering_leaves_the_environment_alone(monkeypatch: pytest.MonkeyPatch)
     render_bytes(DRAWING, "pdf")
     render_bytes(DRAWING, "png")
     assert dict(os.environ) == before
+
+
+def _create(path: Path, data: bytes, start: Any) -> bool:
+    start.wait()
+    try:
+        write_atomic(path, data, overwrite=False)
+    except ExportError:
+        return False
+    return True
+
+
+@pytest.mark.parametrize("attempt", range(5))  # repeated: a check-then-rename race would show
+def test_creating_a_file_never_replaces_one_another_process_made(
+    tmp_path: Path, attempt: int
+) -> None:
+    ctx = multiprocessing.get_context(
+        "fork" if "fork" in multiprocessing.get_all_start_methods() else None
+    )
+    target = tmp_path / "m.json"
+    with ctx.Manager() as manager:
+        start = manager.Barrier(4)
+        with ctx.Pool(4) as pool:
+            won = pool.starmap(
+                _create, [(target, bytes([65 + i]) * 100_000, start) for i in range(4)]
+            )
+    assert won.count(True) == 1
+    assert target.read_bytes() == bytes([65 + won.index(True)]) * 100_000
+    assert os.listdir(tmp_path) == ["m.json"]  # no temporary file left by the losers
+
+
+def test_a_name_taken_between_the_check_and_the_write_is_left_alone(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    target = tmp_path / "m.svg"
+    real_fsync = os.fsync
+
+    def someone_else_writes(fd: int) -> None:
+        real_fsync(fd)
+        target.write_text("theirs")
+
+    monkeypatch.setattr(os, "fsync", someone_else_writes)
+    with pytest.raises(ExportError) as caught:
+        write_atomic(target, b"<svg/>", overwrite=False)
+    assert caught.value.lines() == [
+        f"{target}: exists already and was left as it was (give --overwrite to replace it)."
+    ]
+    assert target.read_text() == "theirs" and os.listdir(tmp_path) == ["m.svg"]
+
+
+@pytest.mark.parametrize("code", [errno.EPERM, errno.EOPNOTSUPP])  # FAT, some network shares
+def test_creating_without_hard_links_still_refuses_an_existing_name(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, code: int
+) -> None:
+    def no_links(src: object, dst: object) -> None:
+        raise OSError(code, os.strerror(code))
+
+    monkeypatch.setattr(os, "link", no_links)
+    write_atomic(tmp_path / "m.svg", b"<svg/>", overwrite=False)
+    assert (tmp_path / "m.svg").read_bytes() == b"<svg/>"
+    with pytest.raises(ExportError, match="exists already"):
+        write_atomic(tmp_path / "m.svg", b"<svg>2</svg>", overwrite=False)
+    assert (tmp_path / "m.svg").read_bytes() == b"<svg/>"
+    assert os.listdir(tmp_path) == ["m.svg"]
+
+
+def test_export_refuses_an_existing_file_unless_overwrite(tmp_path: Path) -> None:
+    target = tmp_path / "r.json"
+    target.write_text("kept")
+    with pytest.raises(ExportError, match="exists already"):
+        export(DRAWING, target)
+    assert target.read_text() == "kept"
+    export(DRAWING, target, overwrite=True)
+    assert json.loads(target.read_text()) == DRAWING.results

@@ -75,7 +75,9 @@ def test_ratio_is_rounded_before_grading() -> None:
     assert (r.vr, r.band) == (1.3, "lt50")
 
 
-def test_upstream_walk_skips_stenotic_and_missing_samples() -> None:
+def test_upstream_walk_skips_missing_samples_and_stops_at_a_stenosis() -> None:
+    # Jager 1985 method: the reference is the normal segment just above the lesion; a sample
+    # across a stenosis >= 50% is no valid reference (common practice).
     limb = Limb(
         side=Side.LEFT,
         segments=dict([seg("CFA", psv=100), seg("SFA-P", psv=250)]),  # SFA-P Vr 2.5: stenotic
@@ -84,8 +86,17 @@ def test_upstream_walk_skips_stenotic_and_missing_samples() -> None:
     a = assess(make_study(left=limb))
     les = a.limbs[Side.LEFT].lesions[0]
     assert a.limbs[Side.LEFT].segments["SFA-P"].band == "50-74"
-    assert les.reference is not None
-    assert (les.reference.segment, les.vr) == ("CFA", 3.0)  # SFA-M empty, SFA-P stenotic
+    assert les.reference is None and les.vr is None
+    # PSV-only rule: 300 >= 200 cm/s (Khan 2011)
+    assert les.band == "50-74" and "PSV only" in les.basis
+    assert [w.code for w in a.warnings] == ["psv-only"]
+    skip = Limb(
+        side=Side.LEFT,
+        segments=dict([seg("CFA", psv=100)]),  # SFA-P, SFA-M not sampled: walked past
+        lesions=(Lesion(at="SFA-D", psv=300, length_cm=2),),
+    )
+    les = assess(make_study(left=skip)).limbs[Side.LEFT].lesions[0]
+    assert les.reference is not None and (les.reference.segment, les.vr) == ("CFA", 3.0)
 
 
 def test_proximal_psv_given_wins_over_the_walk() -> None:
@@ -100,20 +111,25 @@ def test_measured_vr_is_used_as_given() -> None:
     assert (les.vr, les.vr_source, les.band) == (2.2, "measured", "50-74")
 
 
-def test_no_reference_without_band_warns_and_leaves_vr_null() -> None:
+def test_no_reference_and_no_psv_only_rule_warns_and_leaves_vr_null() -> None:
+    lab = load_criteria("native")
+    from dataclasses import replace
+
+    no_rule = replace(lab, psv_only=())
     limb = Limb(side=Side.LEFT, lesions=(Lesion(at="SFA-M", psv=300, length_cm=2),))
-    a = assess(make_study(left=limb))
+    a = assess(make_study(left=limb), criteria=no_rule)
     les = a.limbs[Side.LEFT].lesions[0]
     assert les.vr is None and les.band == "not-assessed"
     assert [w.code for w in a.warnings] == ["no-reference"]
 
 
-def test_no_reference_with_band_given_uses_the_band() -> None:
+def test_no_reference_with_band_given_uses_the_band_as_recorded() -> None:
     limb = Limb(side=Side.LEFT, lesions=(Lesion(at="SFA-M", psv=300, length_cm=2, band="75-99"),))
     a = assess(make_study(left=limb))
     les = a.limbs[Side.LEFT].lesions[0]
-    assert (les.vr, les.band, les.basis) == (None, "75-99", "band given by hand")
-    assert a.warnings == ()
+    assert (les.vr, les.band) == (None, "75-99")
+    assert les.basis == "as recorded (no valid velocity ratio)"
+    assert a.warnings == ()  # nothing above it was sampled: nothing to explain
 
 
 def test_band_given_that_disagrees_is_flagged_and_velocities_win() -> None:

@@ -6,7 +6,7 @@ import pytest
 
 from diagram.anatomy import Side
 from diagram.assess.indices import abi_category, limb_indices, pressure_findings, round2
-from diagram.reading.study import LimbPressures, Pressures
+from diagram.reading.study import LimbPressures, Presentation, Pressures
 
 
 def pressures(
@@ -153,3 +153,63 @@ def test_missing_pressures_say_what_could_not_be_computed(
 ) -> None:
     ix = limb_indices(p, Side.LEFT)
     assert (ix.abi_basis, ix.tbi_basis) == (abi_basis, tbi_basis)
+
+
+# CLTI haemodynamic range, ESC 2017 PAD guideline (review table, confirmed): ABI < 0.40, ankle
+# < 50 mmHg, toe < 30 mmHg, TcPO2 < 30 mmHg - all written "<", so an ABI of 0.40 is outside.
+@pytest.mark.parametrize(
+    ("ankle", "tcpo2", "in_range"),
+    [
+        (100, None, False),  # ABI 1.00
+        (39, None, True),  # ABI 0.39 (and ankle < 50)
+        (60, None, False),  # ABI 0.60, ankle 60
+        (49, None, True),  # ankle 49 < 50 mmHg
+        (50, None, False),  # ankle 50: outside (ABI 0.50)
+        (100, 29, True),  # TcPO2 29 < 30
+        (100, 30, False),
+        (100, 31, False),
+    ],
+)
+def test_clti_range_and_tcpo2(ankle: float, tcpo2: float | None, in_range: bool) -> None:
+    p = Pressures(100, 100, left=LimbPressures(pt=ankle, tcpo2=tcpo2))
+    ix = limb_indices(p, Side.LEFT)
+    codes = [f.code for f in pressure_findings(p, {Side.LEFT: ix})]
+    assert ("clti-pressure" in codes) is in_range
+    assert ix.ischaemia_applies is in_range  # no presentation given: the pressures decide
+
+
+def test_abi_040_exactly_is_outside_the_clti_range() -> None:
+    # ESC 2017: ABI "< 0.40"; with a brachial of 100 the ABI is the ankle pressure / 100 exactly
+    for pt, inside in ((39, True), (40, False), (41, False)):
+        p = Pressures(100, 100, left=LimbPressures(pt=pt, dp=None))
+        ix = limb_indices(p, Side.LEFT)
+        low = [f for f in pressure_findings(p, {Side.LEFT: ix}) if f.code == "clti-pressure"]
+        assert any("ABI" in f.message for f in low) is inside
+
+
+# WIfI TcPO2 grade, same column as the toe pressure (Mills 2014; grades 1-3 confirmed in a review
+# table of the classification, grade 0 from memory): >= 60 grade 0, 40-59 1, 30-39 2, < 30 3.
+@pytest.mark.parametrize(("tcpo2", "grade"), [(29, 3), (30, 2), (39, 2), (40, 1), (59, 1), (60, 0)])
+def test_wifi_grade_from_tcpo2(tcpo2: float, grade: int) -> None:
+    ix = limb_indices(Pressures(100, 100, left=LimbPressures(tcpo2=tcpo2)), Side.LEFT)
+    assert ix.ischaemia_grade == grade and ix.tcpo2_mmhg == tcpo2
+
+
+# WIfI is a tool for limbs with CLTI (Mills 2014; GVG 2019 endorses it for CLTI staging): the grade
+# applies where the leg is marked rest pain or tissue loss or its pressures are in the CLTI range.
+@pytest.mark.parametrize(
+    ("presentation", "applies"),
+    [
+        (None, False),
+        (Presentation.CLAUDICATION, False),
+        (Presentation.REST_PAIN, True),
+        (Presentation.TISSUE_LOSS, True),
+    ],
+)
+def test_ischaemia_grade_applies_to_clti_limbs(
+    presentation: Presentation | None, applies: bool
+) -> None:
+    p = Pressures(140, 138, left=LimbPressures(pt=90, dp=80, toe=50))  # ABI 0.64, claudicant range
+    ix = limb_indices(p, Side.LEFT, presentation)
+    assert ix.ischaemia_grade == 1 and ix.ischaemia_applies is applies
+    assert ("CLTI" in ix.ischaemia_context) is True

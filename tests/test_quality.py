@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import pytest
 
 from diagram.anatomy import Side
@@ -133,7 +135,9 @@ def test_no_reference_code() -> None:
         pressures=Pressures(),
         limbs={Side.LEFT: Limb(side=Side.LEFT, lesions=(Lesion(at="CIA", psv=300),))},
     )
-    assert codes(s) == ["no-reference"]
+    assert codes(s) == ["psv-only"]  # no reference: graded by the PSV-only rule, and said so
+    no_psv = replace(s, limbs={Side.LEFT: Limb(side=Side.LEFT, lesions=(Lesion(at="CIA"),))})
+    assert codes(no_psv) == []  # nothing to grade it by: not assessed, nothing to warn about
 
 
 @pytest.mark.parametrize(
@@ -148,9 +152,10 @@ def test_aliasing_boundary(finding: SegmentFinding, present: bool) -> None:
 
 
 def test_shift_conversion_feeds_grading() -> None:
-    a = assess(study(f("SFA-M", shift_hz=8000, f0_mhz=5, angle=60)))  # 246.4 cm/s
+    # 154000 * 8000 / (2 * 5e6 * cos 60) = 246.4 cm/s, shown and graded in whole cm/s
+    a = assess(study(f("SFA-M", shift_hz=8000, f0_mhz=5, angle=60)))
     seg = a.limbs[Side.RIGHT].segments["SFA-M"]
-    assert seg.psv == 246.4 and seg.vr == 2.74 and seg.band == "50-74"
+    assert seg.psv == 246 and seg.vr == 2.73 and seg.band == "50-74"  # 246 / 90
 
 
 def test_monophasic_explained_by_upstream_lesion_is_not_flagged() -> None:

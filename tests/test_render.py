@@ -143,7 +143,8 @@ def test_no_hidden_text_carriers(svg: str) -> None:
     (style,) = root.iter(f"{SVG}style")
     face = r'@font-face\{font-family:"DejaVu Sans";font-weight:(normal|bold);font-style:normal;'
     face += r'src:url\(data:font/woff;base64,[A-Za-z0-9+/=]+\) format\("woff"\)\}'
-    assert re.fullmatch(f"(?:{face})+", style.text or ""), (style.text or "")[:200]
+    precise = r"@supports \(text-rendering:geometricPrecision\)\{text\{text-rendering:geometricPrecision\}\}"
+    assert re.fullmatch(f"(?:{face})+{precise}", style.text or ""), (style.text or "")[:200]
 
 
 def test_numbers_have_at_most_two_decimals(svg: str) -> None:

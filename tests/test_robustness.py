@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import errno
 import io
+import json
 import multiprocessing
 import os
 import re
@@ -132,12 +133,22 @@ def test_an_interrupted_batch_leaves_complete_files_and_a_summary(
     # a study whose worker was stopped (or died with the signal) before it reported
     unknown = [line for line in err.splitlines() if ": (file): outcome unknown: " in line]
     assert len(unknown) == failed <= 2 * 2  # the studies the pool held: two per worker
-    names = sorted(p.name for p in out.iterdir())
+    names = sorted(p.name for p in out.iterdir() if p.name != "manifest.json")
     assert all(re.fullmatch(r"map-\d{4}\.pdf", name) for name in names), names  # no .part
     for name in names:
         assert_pdf_complete(out / name)
     # never a study drawn but left out of the count; the unknown ones may or may not be there
     assert drawn <= len(names) <= drawn + failed
+    # the manifest was written after the interrupt, and says the same as the summary
+    manifest = json.loads((out / "manifest.json").read_text("utf-8"))
+    assert manifest["batch"] == {
+        "status": f"interrupted by {signal.Signals(signum).name}",
+        "drawn": drawn,
+        "failed": failed,
+        "not_drawn": not_drawn,
+    }
+    listed = {o for entry in manifest["studies"] for o in entry["outputs"]}
+    assert {n for n in names if n in listed} == listed  # every file it lists as drawn is there
     assert group_gone(proc.pid), "a worker process outlived the batch"
 
 
@@ -177,7 +188,7 @@ def test_an_interrupted_single_draw_keeps_the_old_file(
         os.kill(os.getpid(), signal.SIGINT)  # its handler raises before this returns
 
     monkeypatch.setattr(os, "replace", stop_at_rename)
-    code, _, _ = run(["draw", str(EXAMPLE), "-o", str(target)], capsys)
+    code, _, _ = run(["draw", str(EXAMPLE), "-o", str(target), "--overwrite"], capsys)
     monkeypatch.undo()
     assert code == 130
     assert os.listdir(tmp_path) == ["map.json"] and target.read_text() == "old"
@@ -209,8 +220,15 @@ def test_a_batch_in_one_process_finishes_the_study_in_hand_and_stops(
     assert err.splitlines()[-1] == (
         f"3 of {STUDIES} studies drawn, 0 failed, {STUDIES - 3} not drawn (interrupted by SIGTERM)."
     )
-    assert sorted(os.listdir(out)) == ["map-0001.svg", "map-0002.svg", "map-0003.svg"]
+    assert sorted(os.listdir(out)) == [
+        "manifest.json",
+        "map-0001.svg",
+        "map-0002.svg",
+        "map-0003.svg",
+    ]
     assert done == [1, 2, 3]
+    statuses = [e["status"] for e in json.loads((out / "manifest.json").read_text())["studies"]]
+    assert statuses == ["drawn"] * 3 + ["not drawn"] * (STUDIES - 3)
 
 
 @pytest.mark.skipif(not FORKS, reason="the failing worker is set up by patching before a fork")
@@ -342,7 +360,7 @@ def test_a_full_disk_is_a_one_line_error_and_leaves_nothing(
     target = tmp_path / f"map.{fmt}"
     target.write_bytes(b"the previous map")
     monkeypatch.setattr(os, "write", fill_up)
-    code, _, err = run(["draw", str(EXAMPLE), "-o", str(target)], capsys)
+    code, _, err = run(["draw", str(EXAMPLE), "-o", str(target), "--overwrite"], capsys)
     monkeypatch.undo()
     assert state["calls"] == 2
     assert code == 2
@@ -398,7 +416,7 @@ def test_a_batch_output_that_is_a_folder_is_reported_and_the_rest_drawn(
     assert code == 2
     assert f"{out / 'map-0001.svg'}: is a folder" in err
     assert err.splitlines()[-1] == "1 of 2 studies drawn, 1 failed."
-    assert sorted(os.listdir(out)) == ["map-0001.svg", "map-0002.svg"]
+    assert sorted(os.listdir(out)) == ["manifest.json", "map-0001.svg", "map-0002.svg"]
     assert (out / "map-0001.svg").is_dir()
 
 
@@ -406,29 +424,33 @@ def test_a_study_with_several_formats_leaves_all_or_none(
     tmp_path: Path, monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]
 ) -> None:
     # the second of three files finds the disk full: the first is taken back
-    real_replace = os.replace
-    renamed: list[str] = []
+    real_link = os.link
+    linked: list[str] = []
 
     def full_on_second(src: str | os.PathLike[str], dst: str | os.PathLike[str]) -> None:
-        if renamed:
+        if linked:
             raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
-        renamed.append(str(dst))
-        real_replace(src, dst)
+        linked.append(str(dst))
+        real_link(src, dst)
 
-    monkeypatch.setattr(os, "replace", full_on_second)
+    monkeypatch.setattr(os, "link", full_on_second)  # how a new file gets its name
     out = tmp_path / "out"
     args = ["draw", str(EXAMPLE), "-o", f"{out}/", "--jobs", "1"]
     code, _, err = run([*args, "--format", "json", "--format", "svg", "--format", "pdf"], capsys)
     assert code == 2
-    assert renamed == [str(out / "map-0001.json")]
+    assert linked == [str(out / "map-0001.json")]
     assert f"{out / 'map-0001.svg'}: cannot be written: no space left" in err
-    assert os.listdir(out) == []
+    assert os.listdir(out) == ["manifest.json"]
+    manifest = json.loads((out / "manifest.json").read_text())
+    assert [(e["status"], e["outputs"]) for e in manifest["studies"]] == [("failed", [])]
 
 
 def test_write_atomic_leaves_no_temporary_file_whatever_interrupts_it(tmp_path: Path) -> None:
     # an interrupt at each step of the write: never a stray .part file
     real_close = os.close
-    for step in ("open", "write", "fsync", "close", "replace"):
+    steps = [(s, True) for s in ("open", "write", "fsync", "close", "replace")]
+    steps += [(s, False) for s in ("open", "write", "fsync", "close", "link")]  # a new file
+    for step, overwrite in steps:
         real = getattr(os, step)
 
         def interrupt(*args: object, real: object = real, step: str = step) -> object:
@@ -441,11 +463,11 @@ def test_write_atomic_leaves_no_temporary_file_whatever_interrupts_it(tmp_path: 
         setattr(os, step, interrupt)
         try:
             with pytest.raises(KeyboardInterrupt):
-                write_atomic(tmp_path / "m.svg", b"<svg/>")
+                write_atomic(tmp_path / "m.svg", b"<svg/>", overwrite=overwrite)
         finally:
             setattr(os, step, real)
         left = os.listdir(tmp_path)
-        assert left in ([], ["m.svg"]), (step, left)
+        assert left in ([], ["m.svg"]), (step, overwrite, left)
         if left:
             assert (tmp_path / "m.svg").read_bytes() == b"<svg/>"
             (tmp_path / "m.svg").unlink()

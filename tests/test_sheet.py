@@ -221,7 +221,7 @@ def test_change_table_and_map_symbols() -> None:
     assert "0.95 \u2192 0.63 (\u22120.32)" in shown
     assert "0.79 \u2192 0.80 (+0.01)" in shown and "significant" not in joined.split("ABI")[0]
     assert "new stent" in shown and "SFA-M at 3 cm" in shown
-    assert "PSV 230 \u2192 410 cm/s (+78.3%)" in joined  # (410 - 230) / 230 = 78.26%
+    assert "PSV 230 \u2192 410 cm/s (+78%)" in joined  # (410 - 230) / 230 = 78.26%: whole percent
     on_map = {
         "_".join(g.id.removeprefix("change-").split("_")[:2]): g.role
         for g in scene.walk()

@@ -74,7 +74,10 @@ def assess(
     study, findings = with_shift_velocities(study)
     limbs, grading_findings = grade_limbs(study, sets)
     findings.extend(grading_findings)
-    indices = {side: limb_indices(study.pressures, side) for side in (Side.RIGHT, Side.LEFT)}
+    indices = {
+        side: limb_indices(study.pressures, side, study.limb(side).presentation)
+        for side in (Side.RIGHT, Side.LEFT)
+    }
     findings.extend(quality_findings(study, limbs, sets))
     findings.extend(pressure_findings(study.pressures, indices))
     used = [sets.native]

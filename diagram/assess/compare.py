@@ -12,7 +12,7 @@ from __future__ import annotations
 import datetime as dt
 from collections.abc import Callable
 from dataclasses import dataclass
-from decimal import Decimal
+from decimal import ROUND_HALF_UP, Context, Decimal, localcontext
 from enum import StrEnum
 
 from diagram.anatomy import SEGMENT_IDS, UNPAIRED, Side
@@ -58,7 +58,7 @@ class SegmentChange:
     change: Change
     psv_before: float | None
     psv_after: float | None
-    psv_change_pct: float | None  # (after - before) / before x 100, one decimal
+    psv_change_pct: float | None  # (after - before) / before x 100, whole percent
 
 
 @dataclass(frozen=True)
@@ -141,10 +141,16 @@ def classify(before: int, after: int) -> Change | None:
 
 
 def psv_change_pct(before: float | None, after: float | None) -> float | None:
-    """Return the PSV change in percent of the prior value, one decimal."""
+    """Return the PSV change in whole percent of the prior value, halves away from zero.
+
+    PSVs are read to the whole cm/s, so a tenth of a percent would be false precision.
+    """
     if before is None or after is None or before <= 0:
         return None
-    return round((after - before) / before * 100.0, 1)
+    change = (after - before) / before * 100.0
+    with localcontext(Context(prec=400)):
+        exact = Decimal(repr(change)).quantize(Decimal(1), rounding=ROUND_HALF_UP)
+    return float(exact)
 
 
 def _interval(current: Study, prior: Study) -> int | None:

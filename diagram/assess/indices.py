@@ -10,7 +10,7 @@ from decimal import ROUND_HALF_UP, Context, Decimal, localcontext
 
 from diagram.anatomy import Side
 from diagram.assess.results import Finding, LimbIndices
-from diagram.reading.study import Pressures
+from diagram.reading.study import LimbPressures, Presentation, Pressures
 
 # ABI categories, 2016 AHA/ACC PAD guideline (Gerhard-Herman MD et al., Circulation
 # 2017;135:e726): <= 0.90 abnormal, 0.91-0.99 borderline, 1.00-1.40 normal, > 1.40
@@ -31,10 +31,15 @@ TBI_ABNORMAL_MAX = 0.70
 WIFI_ABI = ((0.80, 0), (0.60, 1), (0.40, 2))  # ABI >= bound
 WIFI_ANKLE = ((100.0, 0), (70.0, 1), (50.0, 2))  # ankle > 100 grade 0; 70-100 grade 1; 50-<70 2
 WIFI_TOE = ((60.0, 0), (40.0, 1), (30.0, 2))  # toe pressure >= bound, mmHg
-# CLTI haemodynamic thresholds (ESC/ESVS 2017; Global Vascular Guidelines 2019).
+# TcPO2 shares the toe pressure's column in WIfI (grades 1-3 confirmed in a review table of the
+# classification; grade 0 from memory).
+WIFI_TCPO2 = WIFI_TOE
+# CLTI haemodynamic thresholds (ESC/ESVS 2017; Global Vascular Guidelines 2019), all written
+# "<": an ABI of 0.40 exactly is outside the range.
 CLTI_ANKLE_BELOW = 50.0
 CLTI_ABI_BELOW = 0.40
 CLTI_TOE_BELOW = 30.0
+CLTI_TCPO2_BELOW = 30.0
 # Inter-arm systolic difference (Clark CE et al., Lancet 2012;379:905).
 ARM_DIFF_NOTE = 10.0
 ARM_DIFF_FLAG = 15.0
@@ -75,8 +80,42 @@ def _index(pressure: float | None, brachial: float | None) -> float | None:
     return round2(ratio) if math.isfinite(ratio) else None  # a brachial of 5e-324 overflows
 
 
-def limb_indices(pressures: Pressures, side: Side) -> LimbIndices:
-    """Compute ABI, TBI and the ischaemia grade of one leg from what was measured."""
+def clti_range(
+    abi: float | None, category: str | None, ankle: float | None, limb: LimbPressures
+) -> list[str]:
+    """Return the pressures of one leg in the CLTI range, in words (empty: none)."""
+    low = []
+    reliable = category != "noncompressible"
+    if abi is not None and reliable and abi < CLTI_ABI_BELOW:
+        low.append(f"ABI {abi:.2f} < 0.40")
+    if ankle is not None and reliable and ankle < CLTI_ANKLE_BELOW:
+        low.append(f"ankle {ankle:g} < 50 mmHg")
+    if limb.toe is not None and limb.toe < CLTI_TOE_BELOW:
+        low.append(f"toe {limb.toe:g} < 30 mmHg")
+    if limb.tcpo2 is not None and limb.tcpo2 < CLTI_TCPO2_BELOW:
+        low.append(f"TcPO2 {limb.tcpo2:g} < 30 mmHg")
+    return low
+
+
+def _applies(presentation: Presentation | None, low: list[str]) -> tuple[bool, str]:
+    """Return whether the WIfI ischaemia grade applies to the leg, and why."""
+    if presentation is not None and presentation.clti:
+        return True, f"limb marked {presentation.value.replace('-', ' ')} (CLTI)"
+    if low:
+        return True, "pressures in the CLTI range: " + ", ".join(low)
+    if presentation is not None:
+        return False, f"limb marked {presentation.value}: WIfI grades CLTI limbs"
+    return False, "not marked CLTI and no pressure in the CLTI range: WIfI grades CLTI limbs"
+
+
+def limb_indices(
+    pressures: Pressures, side: Side, presentation: Presentation | None = None
+) -> LimbIndices:
+    """Compute ABI, TBI and the ischaemia grade of one leg from what was measured.
+
+    The WIfI ischaemia grade is computed for every leg with a pressure; it *applies* (and the
+    sheet prints it) where the leg is marked CLTI or its pressures are in the CLTI range.
+    """
     limb = pressures.limb(side)
     arms = [p for p in (pressures.brachial_right, pressures.brachial_left) if p is not None]
     brachial = max(arms) if arms else None
@@ -113,6 +152,9 @@ def limb_indices(pressures: Pressures, side: Side) -> LimbIndices:
         grades.append((_grade(ankle, WIFI_ANKLE, strict_first=True), f"ankle {ankle:g} mmHg"))
     if limb.toe is not None:
         grades.append((_grade(limb.toe, WIFI_TOE, strict_first=False), f"toe {limb.toe:g} mmHg"))
+    if limb.tcpo2 is not None:
+        grade_t = _grade(limb.tcpo2, WIFI_TCPO2, strict_first=False)
+        grades.append((grade_t, f"TcPO2 {limb.tcpo2:g} mmHg"))
     if grades:
         grade = max(g for g, _ in grades)
         ischaemia_basis = "worst of " + ", ".join(f"{b} (grade {g})" for g, b in grades)
@@ -120,6 +162,7 @@ def limb_indices(pressures: Pressures, side: Side) -> LimbIndices:
             ischaemia_basis += "; ankle pressure not used (noncompressible)"
     else:
         grade, ischaemia_basis = None, "no ankle or toe pressure"
+    applies, context = _applies(presentation, clti_range(abi, category, ankle, limb))
     return LimbIndices(
         side,
         ankle,
@@ -133,6 +176,9 @@ def limb_indices(pressures: Pressures, side: Side) -> LimbIndices:
         tbi_basis,
         grade,
         ischaemia_basis,
+        applies,
+        context,
+        limb.tcpo2,
     )
 
 
@@ -173,18 +219,7 @@ def pressure_findings(pressures: Pressures, indices: dict[Side, LimbIndices]) ->
                     "TBI" + ("." if ix.tbi is not None else " (no toe pressure)."),
                 )
             )
-        low = []
-        if ix.abi is not None and ix.abi_category != "noncompressible" and ix.abi < CLTI_ABI_BELOW:
-            low.append(f"ABI {ix.abi:.2f} < 0.40")
-        if (
-            ix.ankle_mmhg is not None
-            and ix.abi_category != "noncompressible"
-            and ix.ankle_mmhg < CLTI_ANKLE_BELOW
-        ):
-            low.append(f"ankle {ix.ankle_mmhg:g} < 50 mmHg")
-        toe = pressures.limb(side).toe
-        if toe is not None and toe < CLTI_TOE_BELOW:
-            low.append(f"toe {toe:g} < 30 mmHg")
+        low = clti_range(ix.abi, ix.abi_category, ix.ankle_mmhg, pressures.limb(side))
         if low:
             out.append(
                 Finding(

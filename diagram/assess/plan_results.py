@@ -31,6 +31,14 @@ class LevelSummary:
     occluded_cm: float
     lesion_count: int  # lesions (and segment samples) >= 50% touching the level
     not_assessed: tuple[str, ...]
+    segment_count: int = 0  # segments of the level; "partly assessed" when some are not
+
+    @property
+    def assessment(self) -> str:
+        """Return "assessed", "partly assessed" or "not assessed" for the level's segments."""
+        if not self.not_assessed:
+            return "assessed"
+        return "not assessed" if len(self.not_assessed) >= self.segment_count else "partly assessed"
 
 
 @dataclass(frozen=True)
@@ -92,3 +100,8 @@ class Planning:
     tasc_fp: str | None
     tasc_drivers: tuple[str, ...]
     assumptions: tuple[str, ...]
+    # a grade built on segments that were not examined is provisional: unseen disease may raise it
+    fp_provisional: bool = False
+    ip_provisional: bool = False
+    stage_provisional: bool = False
+    tasc_provisional: bool = False

@@ -113,6 +113,8 @@ class _Extent:
     spans: tuple[Span, ...]
     calcified: bool
     reconstitutes: str | None
+    start_given: bool = True  # False: the file gives no from_cm, the start is taken
+    in_stent: bool = False  # restenosis in a stent: not native disease for GLASS and TASC
 
     @property
     def occluded(self) -> bool:
@@ -149,6 +151,14 @@ def _union_cm(extents: Iterable[_Extent], segs: Sequence[str]) -> float:
     return round(total, 3)
 
 
+def _stented(limb: LimbResult, seg: str) -> bool:
+    """Return True for a segment at least half covered by a stent (graded with the stent set)."""
+    covered = sum(
+        sp.end_cm - sp.start_cm for st in limb.stents for sp in st.spans if sp.segment == seg
+    )
+    return covered >= SEGMENTS[seg].length_cm / 2
+
+
 def _extents(study: Study, limb: LimbResult, sets: CriteriaSets) -> tuple[list[_Extent], list[str]]:
     """Collect every stretch >= 50% with the assumptions made to measure it."""
     out: list[_Extent] = []
@@ -169,7 +179,9 @@ def _extents(study: Study, limb: LimbResult, sets: CriteriaSets) -> tuple[list[_
         recon = les.reconstitution.segment if les.reconstitution else les.reconstitutes
         label = f"lesion {n} ({les.band}, {les.at} at {les.from_cm:g} cm, {_cm(length)})"
         calcified = src is not None and src.plaque is Plaque.CALCIFIED
-        out.append(_Extent(label, sev, les.spans, calcified, recon))
+        start_given = src is None or src.from_cm is not None
+        in_stent = bool(les.criteria) and les.criteria == sets.stent.name
+        out.append(_Extent(label, sev, les.spans, calcified, recon, start_given, in_stent))
     for seg in SEGMENT_IDS:
         res = limb.segments.get(seg)
         if res is None or (sev := sets.severity(res.band)) < SIGNIFICANT_SEVERITY:
@@ -187,9 +199,16 @@ def _extents(study: Study, limb: LimbResult, sets: CriteriaSets) -> tuple[list[_
         sample = study.limb(limb.side).segments.get(seg)
         calcified = sample is not None and sample.plaque is Plaque.CALCIFIED
         span = (Span(seg, 0.0, length, 0.0, round(length / seg_len, 6)),)
-        out.append(_Extent(f"{seg} sample ({res.band}, {_cm(length)})", sev, span, calcified, None))
+        label = f"{seg} sample ({res.band}, {_cm(length)})"
+        out.append(_Extent(label, sev, span, calcified, None, False, _stented(limb, seg)))
     if any(e.calcified for e in out):
         notes.append(CALCIFICATION_ASSUMPTION)
+    for e in out:
+        if e.in_stent:
+            notes.append(
+                f"in-stent restenosis, {e.label}: not counted as native disease in the GLASS "
+                "grades and the TASC class"
+            )
     return out, notes
 
 
@@ -211,6 +230,11 @@ class _Leg:
         return max((self.limb.segments[s].band for s in segs), key=self.sets.severity)
 
     def touching(self, segs: Sequence[str]) -> list[_Extent]:
+        """Return the native stretches of disease in these segments (in-stent ones left out)."""
+        return [e for e in self.extents if e.touches(segs) and not e.in_stent]
+
+    def touching_all(self, segs: Sequence[str]) -> list[_Extent]:
+        """Return every stretch of disease in these segments, in-stent restenosis included."""
         return [e for e in self.extents if e.touches(segs)]
 
 
@@ -254,16 +278,8 @@ def _fp_grade(leg: _Leg) -> tuple[int | None, tuple[str, ...]]:
         g, names = _step(sfa_cm, 1, FP_SFA_DISEASE_CM), _names(ext, SFA)
         found.append((g, f"SFA disease over {_cm(sfa_cm)}: {names}"))
     occl = [e for e in ext if e.occluded and e.touches(SFA)]
-    for e in occl:
-        part, flush = e.cm_in(SFA), e.at_origin("SFA-P")
-        lo, hi = FP_OCCLUSION_CM
-        if part > hi:
-            g = 4
-        elif flush or part >= lo:
-            g = 3
-        else:  # one focal occlusion is FP1; a second one or one of 5 cm or more, FP2
-            g = 2 if part >= FP_FOCAL_OCCLUSION_CM or len(occl) > 1 else 1
-        found.append((g, f"{'flush ' if flush else ''}SFA occlusion of {_cm(part)}: {e.label}"))
+    if occl:
+        found.append(_sfa_occlusions(occl))
     pop = [e for e in ext if e.touches(POPLITEAL)]
     for e in pop:
         if e.occluded:
@@ -275,6 +291,28 @@ def _fp_grade(leg: _Leg) -> tuple[int | None, tuple[str, ...]]:
         g, names = _step(pop_cm, 2, FP_POP_STENOSIS_CM), _names(stenoses, POPLITEAL)
         found.append((g, f"popliteal stenosis over {_cm(pop_cm)}: {names}"))
     return _finish(found, ext, "FP", "no disease >= 50% in the SFA or popliteal", missing)
+
+
+def _sfa_occlusions(occl: Sequence[_Extent]) -> tuple[int, str]:
+    """Return the FP grade of the SFA occlusions, their lengths summed (GVG 2019 "totalling")."""
+    total = _union_cm(occl, SFA)
+    flush = [e for e in occl if e.at_origin("SFA-P")]
+    lo, hi = FP_OCCLUSION_CM
+    if total > hi:
+        g = 4
+    elif flush or total >= lo:
+        g = 3
+    else:  # one focal occlusion is FP1; a second one or one of 5 cm or more, FP2
+        g = 2 if total >= FP_FOCAL_OCCLUSION_CM or len(occl) > 1 else 1
+    names = ", ".join(e.label for e in occl)
+    what = "SFA occlusion of" if len(occl) == 1 else f"{len(occl)} SFA occlusions totalling"
+    text = f"{what} {_cm(total)}: {names}"
+    if flush:
+        assumed = [e for e in flush if not e.start_given]
+        text = f"flush {text}"
+        if assumed:
+            text += " (flush assumed: no from_cm recorded, the start taken as the SFA origin)"
+    return g, text
 
 
 def _tibial_path(vessel: str) -> tuple[str, ...]:
@@ -360,7 +398,27 @@ def _runoff(leg: _Leg) -> tuple[RunoffVessel, ...]:
     return tuple(out)
 
 
+TASC_D_READING = (
+    "TASC D read strictly: an SFA occlusion > 20 cm is D only when it runs into the popliteal"
+)
+
+
 def _tasc(extents: Sequence[_Extent]) -> tuple[str | None, tuple[str, ...]]:
+    """Return the TASC II femoropopliteal class, the rule that set it and the reading used."""
+    native = [e for e in extents if not e.in_stent]
+    tasc, drivers = _tasc_class(native)
+    long_sfa = [
+        e for e in native if e.occluded and e.touches(SFA) and e.cm_in(SFA) > TASC_D_OCCLUSION_CM
+    ]
+    if long_sfa and tasc != "D":
+        names = ", ".join(e.label for e in long_sfa)
+        drivers = (*drivers, f"{TASC_D_READING}; this one stops above it: {names}")
+    elif long_sfa:
+        drivers = (*drivers, TASC_D_READING)
+    return tasc, drivers
+
+
+def _tasc_class(extents: Sequence[_Extent]) -> tuple[str | None, tuple[str, ...]]:
     """Return the TASC II femoropopliteal class and the rule that set it."""
     occl = [e for e in extents if e.occluded]
     tri = [e for e in occl if e.touches(("TPT",)) or e.at_origin("ATA-P")]
@@ -400,10 +458,10 @@ def _tasc(extents: Sequence[_Extent]) -> tuple[str | None, tuple[str, ...]]:
 
 def _level(leg: _Leg, level: PlanLevel) -> LevelSummary:
     segs = LEVEL_SEGMENTS[level]
-    ext = leg.touching(segs)
+    ext = leg.touching_all(segs)
     occl_cm = _union_cm([e for e in ext if e.occluded], segs)
     cm, missing = _union_cm(ext, segs), leg.unassessed(segs)
-    return LevelSummary(level, leg.worst(segs), cm, occl_cm, len(ext), missing)
+    return LevelSummary(level, leg.worst(segs), cm, occl_cm, len(ext), missing, len(segs))
 
 
 def _occlusion(e: _Extent) -> Occlusion:
@@ -446,6 +504,13 @@ def plan_limb(
     tasc, tasc_drivers = _tasc(extents)
     if limb.grafts:
         notes.append("a bypass graft is recorded; the grades describe the native arteries")
+    if limb.stents:
+        notes.append("a stent is recorded; the grades describe the native arteries")
+    fp_path = SFA + POPLITEAL
+    fp_provisional = fp is not None and bool(leg.unassessed(fp_path))
+    ip_provisional = (
+        ip is not None and chosen is not None and bool(leg.unassessed(_tibial_path(chosen)))
+    )
     return Planning(
         side=limb.side,
         levels=tuple(_level(leg, lv) for lv in PlanLevel),
@@ -470,4 +535,8 @@ def plan_limb(
         tasc_fp=tasc,
         tasc_drivers=tasc_drivers,
         assumptions=tuple(dict.fromkeys(notes)),
+        fp_provisional=fp_provisional,
+        ip_provisional=ip_provisional,
+        stage_provisional=stage is not None and (fp_provisional or ip_provisional),
+        tasc_provisional=0 < len(leg.unassessed(fp_path)) < len(fp_path),
     )

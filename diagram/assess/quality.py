@@ -4,15 +4,18 @@ Codes (stable; the results and the sheet carry them):
 
 - ``angle-over-60``      insonation angle above 60 degrees: velocity unreliable
 - ``aliasing``           PSV above the highest unaliased velocity for the PRF, f0 and angle
-- ``psv-from-shift``     PSV computed from a Doppler shift with the Doppler equation
+- ``psv-from-shift``     PSV computed from a Doppler shift with the Doppler equation (whole cm/s)
+- ``psv-from-shift-steep``  a shift at an angle above 70 degrees: no PSV, not graded
+- ``psv-from-shift-implausible``  a shift that gives more than 800 cm/s: no PSV, not graded
 - ``occlusion-angle``    absent flow or occlusion called at an angle of 80 degrees or more
 - ``occlusion-scale``    absent flow or occlusion called with a high velocity scale
 - ``monophasic-unexplained``  the waveform turns monophasic with no lesion documented upstream
 - ``triphasic-below-occlusion``  triphasic flow just distal to an occlusion
 - ``psv-out-of-range``   a segment PSV outside the plausible range for that artery
 - ``diseased-reference`` Vr computed against a reference segment that is itself diseased
-- (grading adds ``band-disagrees``, ``no-reference``, ``absent-flow-ungraded``,
-  ``reconstitution-mismatch``; pressure checks add theirs)
+- (grading adds ``band-disagrees``, ``no-reference``, ``reference-blocked``, ``psv-only``,
+  ``discordant-velocities``, ``absent-flow-ungraded``, ``reconstitution-mismatch``,
+  ``graft-low-flow``; pressure checks add theirs)
 """
 
 from __future__ import annotations
@@ -25,8 +28,9 @@ from typing import TypeVar
 from diagram import anatomy
 from diagram.anatomy import SEGMENTS, Level, Side
 from diagram.assess.results import Finding, LimbResult
+from diagram.assess.samplegrade import PSV_CAP_CM_S, SHIFT_ANGLE_MAX_DEG
 from diagram.criteria import SIGNIFICANT_SEVERITY, CriteriaSets
-from diagram.reading.study import Flow, Limb, Sample, Study, Waveform
+from diagram.reading.study import Flow, Graft, Limb, Sample, Study, Waveform
 
 S = TypeVar("S", bound=Sample)
 
@@ -62,20 +66,56 @@ def doppler_velocity(shift_hz: float, f0_mhz: float, angle_deg: float) -> float:
 
 
 def _from_shift(side: Side, what: str, seg: str, s: S, notes: list[Finding]) -> S:
-    if s.shift_hz is None or s.psv is not None or s.f0_mhz is None:
+    """Return the sample with its PSV computed from ``shift_hz``, in whole cm/s, when usable."""
+    if s.shift_hz is None or s.psv is not None or s.f0_mhz is None or s.angle is None:
+        return s  # the study file refuses a shift without its angle or frequency
+    given = f"a {s.shift_hz:g} Hz shift at {s.f0_mhz:g} MHz and {s.angle:g} deg"
+    if s.angle > SHIFT_ANGLE_MAX_DEG:
+        notes.append(
+            Finding(
+                "psv-from-shift-steep",
+                side,
+                seg,
+                f"{what}: {given}: above {SHIFT_ANGLE_MAX_DEG:g} deg the velocity from the "
+                "Doppler equation is not used for grading; the sample is not assessed.",
+            )
+        )
         return s
-    angle = s.angle or 0.0
-    psv = round(doppler_velocity(s.shift_hz, s.f0_mhz, angle), 1)
+    velocity = doppler_velocity(s.shift_hz, s.f0_mhz, s.angle)
+    if not math.isfinite(velocity) or velocity > PSV_CAP_CM_S:
+        notes.append(
+            Finding(
+                "psv-from-shift-implausible",
+                side,
+                seg,
+                f"{what}: {given} gives more than {PSV_CAP_CM_S:g} cm/s, above any velocity "
+                "measured in a human artery; not used (check the shift and the angle).",
+            )
+        )
+        return s
+    psv = float(math.floor(velocity + 0.5))  # whole cm/s, like a typed PSV
     notes.append(
         Finding(
             "psv-from-shift",
             side,
             seg,
-            f"{what}: PSV {psv:g} cm/s computed from a {s.shift_hz:g} Hz shift at "
-            f"{s.f0_mhz:g} MHz and {angle:g} deg (Doppler equation, c = 1540 m/s).",
+            f"{what}: PSV {psv:g} cm/s computed from {given} (Doppler equation, c = 1540 m/s).",
         )
     )
     return replace(s, psv=psv)
+
+
+def _graft_segment(graft: Graft, site: str) -> str:
+    """Return the segment a graft site's warning is pinned to: the graft's origin or target."""
+    return graft.from_ if site in ("proximal_anastomosis", "proximal") else graft.to
+
+
+def _graft_shifts(side: Side, where: str, graft: Graft, notes: list[Finding]) -> Graft:
+    samples = {
+        site: _from_shift(side, f"{where}.samples.{site}", _graft_segment(graft, site), s, notes)
+        for site, s in graft.samples.items()
+    }
+    return replace(graft, samples=samples)
 
 
 def with_shift_velocities(study: Study) -> tuple[Study, list[Finding]]:
@@ -92,7 +132,10 @@ def with_shift_velocities(study: Study) -> tuple[Study, list[Finding]]:
             _from_shift(side, f"{where}.lesions[{i}]", les.at, les, notes)
             for i, les in enumerate(limb.lesions)
         )
-        limbs[side] = replace(limb, segments=segments, lesions=lesions)
+        grafts = tuple(
+            _graft_shifts(side, f"{where}.grafts[{i}]", g, notes) for i, g in enumerate(limb.grafts)
+        )
+        limbs[side] = replace(limb, segments=segments, lesions=lesions, grafts=grafts)
     return replace(study, limbs=limbs), notes
 
 
@@ -101,6 +144,10 @@ def _samples(limb: Limb) -> Iterator[tuple[str, str, Sample]]:
         yield f"limbs.{limb.side.value}.segments.{seg}", seg, finding
     for i, les in enumerate(limb.lesions):
         yield f"limbs.{limb.side.value}.lesions[{i}]", les.at, les
+    for i, graft in enumerate(limb.grafts):
+        for site, sample in graft.samples.items():
+            where = f"limbs.{limb.side.value}.grafts[{i}].samples.{site}"
+            yield where, _graft_segment(graft, site), sample
 
 
 def _sample_checks(side: Side, what: str, seg: str, s: Sample) -> list[Finding]:

@@ -33,11 +33,17 @@ class Reference:
     source: str  # "proximal_psv" (given with the sample) or "segment" (found by walking the tree)
     segment: str | None  # the segment whose sample was used, when walked
     diseased: bool = False  # the reference segment itself carries a stenosis below 50%
+    post_stenotic: bool = False  # the sample lies between a lesion >= 50% above and this one
 
     def describe(self) -> str:
         """Return a short explanation of the basis, for the results and the sheet."""
         if self.source == "proximal_psv":
             return f"proximal PSV {self.psv:g} cm/s given with the sample"
+        if self.post_stenotic:
+            return (
+                f"PSV {self.psv:g} cm/s in {self.segment} (post-stenotic sample between a "
+                "lesion >= 50% above and this one)"
+            )
         return f"PSV {self.psv:g} cm/s in {self.segment} (nearest non-stenotic upstream sample)"
 
 
@@ -61,6 +67,7 @@ class LesionResult:
     reconstitution: Span | None  # the point where flow returns (a zero-length span), if known
     spans: tuple[Span, ...]
     basis: str  # why this band: the rule of the criteria set that matched
+    criteria: str = ""  # the name of the set it was graded with (native, stent, ...)
 
 
 @dataclass(frozen=True)
@@ -158,6 +165,10 @@ class LimbIndices:
     tbi_basis: str
     ischaemia_grade: int | None
     ischaemia_basis: str
+    # WIfI grades limbs with CLTI: the sheet prints the grade only where this is True
+    ischaemia_applies: bool = True
+    ischaemia_context: str = ""  # why it applies: the presentation or the CLTI-range pressures
+    tcpo2_mmhg: float | None = None
 
 
 @dataclass(frozen=True)

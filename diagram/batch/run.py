@@ -11,7 +11,6 @@ from __future__ import annotations
 import contextlib
 import os
 import signal
-import string
 import sys
 from collections import deque
 from collections.abc import Callable, Iterable
@@ -22,16 +21,15 @@ from pathlib import Path
 from types import FrameType
 from typing import TYPE_CHECKING, Any
 
-from diagram.errors import DiagramError, Problem, StudyError
+from diagram.batch.names import DEFAULT_NAME, Unnamed, plan_names
+from diagram.errors import DiagramError, ExportError, Problem, StudyError
 
 if TYPE_CHECKING:
     from diagram.drawing.labprofile import LabProfile
     from diagram.output.export import Renderer
 
 STUDY_SUFFIXES = (".yaml", ".yml", ".json")
-MANIFEST_SUFFIXES = (".txt", ".list", ".manifest")
-DEFAULT_NAME = "map-{n:04d}"
-NAME_FIELDS = ("n", "stem", "accession", "patient_id", "exam_date")
+MANIFEST_SUFFIXES = (".txt", ".list", ".manifest")  # lists of study paths, one a line
 
 
 @dataclass(frozen=True)
@@ -53,10 +51,11 @@ class BatchSettings:
 
 @dataclass(frozen=True)
 class BatchTask:
-    """One study to draw: its place in the batch and its file."""
+    """One study to draw: its place in the batch, its file and its output name (no suffix)."""
 
     n: int
     study: Path
+    stem: str
     settings: BatchSettings
 
 
@@ -128,46 +127,14 @@ def expand_inputs(inputs: Iterable[Path]) -> list[Path]:
     return out
 
 
-def check_pattern(pattern: str) -> None:
-    """Refuse a naming pattern with an unknown field or a folder separator."""
-    fields = [f for _, f, _, _ in string.Formatter().parse(pattern) if f is not None]
-    unknown = [f for f in fields if f not in NAME_FIELDS]
-    if unknown or "/" in pattern or "\\" in pattern or not pattern.strip():
-        raise StudyError(
-            [
-                Problem(
-                    "--name",
-                    None,
-                    "",
-                    repr(pattern),
-                    f"must be a file name using only the fields {', '.join(NAME_FIELDS)}.",
-                )
-            ]
-        )
-
-
-def output_stem(task: BatchTask, study: object) -> str:
-    """Return the output file name (without suffix) of one study from the naming pattern."""
-    from diagram.reading.study import Study
-
-    assert isinstance(study, Study)
-    values = {
-        "n": task.n,
-        "stem": task.study.stem,
-        "accession": study.exam.accession or "no-accession",
-        "patient_id": study.patient.id or "no-id",
-        "exam_date": study.exam.date.isoformat() if study.exam.date else "no-date",
-    }
-    stem = task.settings.name_pattern.format(**values)
-    return "".join(c if c.isalnum() or c in "-_.+" else "_" for c in stem)
-
-
 def draw_one(task: BatchTask) -> BatchResult:
     """Draw one study into the output folder; never raises for a tool error.
 
-    Every output is rendered in memory before the first is written. If writing one of them fails
-    or is interrupted, the ones this call already wrote are removed again, so a study leaves all
-    its files or none (a file it replaced under ``--overwrite`` cannot be brought back).
+    Every output is rendered in memory before the first is written. Without ``overwrite`` each
+    file is created exclusively: a name taken meanwhile (by another process) fails the study and
+    the file there is left as it was. If writing one of them fails or is interrupted, the ones
+    this call already wrote are removed again, so a study leaves all its files or none (a file it
+    replaced under ``--overwrite`` cannot be brought back).
     """
     from diagram.output.export import Drawing, ExportOptions, render_bytes, write_atomic
     from diagram.pipeline import draw
@@ -176,15 +143,7 @@ def draw_one(task: BatchTask) -> BatchResult:
     cfg = task.settings
     try:
         study = load_study(task.study)
-        stem = output_stem(task, study)
-        targets = [cfg.out_dir / f"{stem}.{fmt}" for fmt in cfg.formats]
-        existing = [t for t in targets if t.exists()]
-        if existing and not cfg.overwrite:
-            return BatchResult(
-                task.n,
-                str(task.study),
-                errors=tuple(f"{t}: exists; use --overwrite to replace it." for t in existing),
-            )
+        targets = [cfg.out_dir / f"{task.stem}.{fmt}" for fmt in cfg.formats]
         drawing: Drawing = draw(
             study,
             page=cfg.page,
@@ -199,8 +158,9 @@ def draw_one(task: BatchTask) -> BatchResult:
         made: list[Path] = []
         try:
             for target, blob in zip(targets, blobs, strict=True):
-                write_atomic(target, blob)
-                if target not in existing:
+                existed = cfg.overwrite and os.path.lexists(target)
+                write_atomic(target, blob, overwrite=cfg.overwrite)
+                if not existed:
                     made.append(target)
         except BaseException:
             for path in made:
@@ -210,6 +170,65 @@ def draw_one(task: BatchTask) -> BatchResult:
         return BatchResult(task.n, str(task.study), written=tuple(str(t) for t in targets))
     except DiagramError as exc:
         return BatchResult(task.n, str(task.study), errors=tuple(exc.lines()))
+
+
+def draw_batch(
+    paths: list[Path],
+    settings: BatchSettings,
+    *,
+    jobs: int,
+    on_result: Callable[[BatchResult], None],
+) -> BatchSummary:
+    """Draw every study of ``paths`` into ``settings.out_dir``, keeping its manifest.
+
+    Every output name is decided first; a clash, or an existing file without ``overwrite``,
+    refuses the whole batch before anything is made (``OutputNameError``). The manifest is
+    written before the first study is drawn and again at the end, whatever ended the batch.
+    """
+    from diagram.batch.manifest import Manifest, read_manifest
+    from diagram.output.export import held_signals
+
+    out_dir = settings.out_dir
+    named, unnamed = plan_names(
+        paths, settings.name_pattern, settings.formats, out_dir, overwrite=settings.overwrite
+    )
+    earlier = read_manifest(out_dir, overwrite=settings.overwrite) if out_dir.is_dir() else []
+    _make_folder(out_dir)
+    manifest = Manifest(out_dir, named, settings.formats, earlier)
+    for item in unnamed:
+        manifest.fail(item)
+    manifest.write("running")
+
+    def record(result: BatchResult) -> None:
+        manifest.note(result.n, result.study, result.errors)
+        on_result(result)
+
+    for item in unnamed:
+        on_result(_unnamed_result(item))
+    tasks = [BatchTask(i.n, i.study, i.stem, settings) for i in named]
+    summary = run_batch(tasks, jobs=jobs, on_result=record)
+    summary.failed += len(unnamed)
+    summary.failures[:0] = [_unnamed_result(item) for item in unnamed]
+    if summary.interrupted:
+        status = f"interrupted by {signal.Signals(summary.signal or signal.SIGINT).name}"
+    else:
+        status = "finished"
+    with held_signals():
+        manifest.write(status)
+    return summary
+
+
+def _unnamed_result(item: Unnamed) -> BatchResult:
+    return BatchResult(item.n, str(item.study), errors=item.errors)
+
+
+def _make_folder(out_dir: Path) -> None:
+    try:
+        out_dir.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise ExportError(f"{out_dir}: cannot be made a folder: {exc.strerror}.") from None
+    if not out_dir.is_dir():
+        raise ExportError(f"{out_dir}: is not a folder.")
 
 
 def run_batch(

@@ -12,6 +12,8 @@ from pathlib import Path
 
 import click
 
+from diagram.cli.options import overwrite_option
+
 
 def _template_arg(value: str) -> str | Path:
     """Return a shipped template's name as it is, anything else as a path."""
@@ -118,14 +120,15 @@ def style_check(lab: Path | None) -> None:
     metavar="FILE.svg|NAME",
     help="Map template for the specimen (default: the lab's, else the shipped bilateral map).",
 )
-def gallery(output: Path, lab: Path | None, template_name: str | None) -> None:
+@overwrite_option
+def gallery(output: Path, lab: Path | None, template_name: str | None, overwrite: bool) -> None:
     """Draw one page showing every band and symbol in the current style, for review."""
     from diagram.design.gallery import write_gallery
     from diagram.drawing.labprofile import load_lab_profile
 
     profile = load_lab_profile(lab) if lab is not None else None
     chosen = _template_arg(template_name) if template_name is not None else None
-    written = write_gallery(output, profile, template=chosen)
+    written = write_gallery(output, profile, template=chosen, overwrite=overwrite)
     click.echo(f"wrote {written}", err=True)
 
 

@@ -19,9 +19,11 @@ import click
 from diagram._version import __version__
 from diagram.caution import CAUTION
 from diagram.cli.options import (
+    DEFAULT_DPI,
     criteria_option,
     dpi_option,
     jobs_option,
+    overwrite_option,
     page_option,
     prior_option,
     quiet_option,
@@ -80,14 +82,15 @@ def cli() -> None:
 @prior_option
 @jobs_option
 @quiet_option
-@click.option("--overwrite", is_flag=True, help="Replace existing files in the output folder.")
+@overwrite_option
 @click.option(
     "--name",
     "name_pattern",
     default="map-{n:04d}",
     show_default=True,
-    help="Output name pattern in a batch; fields {n} {stem} {accession} {patient_id} "
-    "{exam_date} (the last three put identifiers in file names).",
+    help="Output name pattern in a batch; fields {n} (place in the batch), {stem} (the study "
+    "file's name), {folder} (its folder's name), {accession} {patient_id} {exam_date} (these "
+    "three put identifiers in file names).",
 )
 @click.option(
     "--renderer",
@@ -105,7 +108,7 @@ def draw(
     template: Path | None,
     lab: Path | None,
     criteria: str | None,
-    dpi: float,
+    dpi: float | None,
     target: str | None,
     prior: Path | None,
     jobs: int | None,
@@ -114,32 +117,47 @@ def draw(
     name_pattern: str,
     renderer: Renderer,
 ) -> None:
-    """Draw the map of each STUDY (a file, a folder of files, or a .txt list of paths)."""
-    from diagram.output.export import ExportOptions, export, format_for
+    """Draw the map of each STUDY (a file, a folder of files, or a .txt list of paths).
 
+    One study and a file name write that file. Otherwise -o names a folder (a path ending in /,
+    or an existing folder): every output name is decided before anything is drawn, and a
+    manifest.json there records which study became which file. An existing file is never
+    replaced without --overwrite.
+    """
+    from diagram.output.export import ExportOptions, export, format_for, refuse_existing
+
+    as_folder = output.endswith(("/", os.sep)) or _is_folder(output)
+    single = len(studies) == 1 and _is_study_file(studies[0]) and not as_folder
+    if not as_folder and not single:
+        raise click.UsageError(
+            f"-o {output} is a file name, but the studies given are many (or a folder or a "
+            f"list of them); for many studies give a folder, ending in /: -o {output}/"
+        )
+    if prior is not None and not single:
+        raise click.UsageError("--prior goes with one study; in a batch each study names its own.")
+    if single and len(formats) > 1:
+        raise click.UsageError("one output file takes one --format; give a folder for more.")
+    chosen = (
+        (format_for(Path(output), formats[0] if formats else None),)  # refuse before any work
+        if single
+        else tuple(dict.fromkeys(formats or ("pdf",)))
+    )
+    _check_dpi(dpi, chosen)
+    png_dpi = dpi or DEFAULT_DPI
+    if single:
+        refuse_existing(Path(output), overwrite)
     profile = None
     if lab is not None:
         from diagram.drawing.labprofile import load_lab_profile
 
         profile = load_lab_profile(lab)
     page = page or (profile.page if profile and profile.page else "a4")
-
-    as_folder = output.endswith(("/", os.sep)) or _is_folder(output)
-    single = (
-        len(studies) == 1
-        and studies[0].suffix.lower() in (".yaml", ".yml", ".json")
-        and not as_folder
-    )
-    if prior is not None and not single:
-        raise click.UsageError("--prior goes with one study; in a batch each study names its own.")
     if single:
         from diagram.pipeline import draw as draw_study
         from diagram.reading.load import load_prior, load_study
 
-        if len(formats) > 1:
-            raise click.UsageError("one output file takes one --format; give a folder for more.")
-        chosen = format_for(Path(output), formats[0] if formats else None)  # refuse before any work
         study = load_study(studies[0])
+        _show_import_notes(study.import_notes)
         earlier = load_prior(study, prior)
         drawing = draw_study(
             study,
@@ -150,8 +168,8 @@ def draw(
             prior=earlier,
             lab=profile,
         )
-        options = ExportOptions(png_dpi=dpi, renderer=renderer)
-        written = export(drawing, Path(output), chosen, options)
+        options = ExportOptions(png_dpi=png_dpi, renderer=renderer)
+        written = export(drawing, Path(output), chosen[0], options, overwrite=overwrite)
         if not quiet:
             click.echo(f"wrote {written}", err=True)
         return
@@ -159,18 +177,51 @@ def draw(
 
     settings = BatchSettings(
         out_dir=Path(output),
-        formats=tuple(dict.fromkeys(formats or ("pdf",))),
+        formats=chosen,
         name_pattern=name_pattern,
         page=page,
         template=template,
         criteria=criteria,
         target=target,
         lab=profile,
-        png_dpi=dpi,
+        png_dpi=png_dpi,
         overwrite=overwrite,
         renderer=renderer,
     )
     _draw_batch(studies, settings, jobs, quiet)
+
+
+def _is_study_file(path: Path) -> bool:
+    """Return True for a path that names one study file (not a folder, not a list of paths).
+
+    A structured report (DICOM SR) counts, recognised by its suffix or by its content.
+    """
+    if _is_folder(str(path)):
+        return False
+    if path.suffix.lower() in (".yaml", ".yml", ".json", ".dcm"):
+        return True
+    from diagram.reading.sr import looks_like_dicom
+
+    try:
+        with open(path, "rb") as handle:
+            return looks_like_dicom(handle.read(132))
+    except OSError:
+        return False
+
+
+def _show_import_notes(notes: tuple[str, ...]) -> None:
+    """Print what an imported report held that could not be placed, one line per item."""
+    for line in notes:
+        click.echo(_printable(line), err=True)
+
+
+def _check_dpi(dpi: float | None, formats: tuple[str, ...]) -> None:
+    """Refuse --dpi when no output is a PNG: a PDF, SVG or DICOM sheet is vector and ignores it."""
+    if dpi is not None and "png" not in formats:
+        raise click.UsageError(
+            f"--dpi sets the resolution of PNG output, and the output here is "
+            f"{', '.join(f.upper() for f in formats)} (vector, drawn at any size); leave --dpi out."
+        )
 
 
 def _is_folder(name: str) -> bool:
@@ -186,25 +237,13 @@ def _draw_batch(
 ) -> None:
     from diagram.batch.run import (
         BatchResult,
-        BatchTask,
-        check_pattern,
         default_jobs,
+        draw_batch,
         expand_inputs,
-        run_batch,
         show_progress,
     )
-    from diagram.errors import ExportError
 
-    check_pattern(settings.name_pattern)
     paths = expand_inputs(studies)
-    out_dir = settings.out_dir
-    try:
-        out_dir.mkdir(parents=True, exist_ok=True)
-    except OSError as exc:
-        raise ExportError(f"{out_dir}: cannot be made a folder: {exc.strerror}.") from None
-    if not out_dir.is_dir():
-        raise ExportError(f"{out_dir}: is not a folder.")
-    tasks = [BatchTask(n, p, settings) for n, p in enumerate(paths, start=1)]
     bar_wanted = show_progress(quiet)
 
     def report(result: BatchResult) -> None:
@@ -214,17 +253,18 @@ def _draw_batch(
         elif not quiet and not bar_wanted:
             click.echo(f"{result.study} -> {', '.join(result.written)}", err=True)
 
+    workers = jobs or default_jobs()
     if bar_wanted:
-        with click.progressbar(length=len(tasks), label="drawing", file=sys.stderr) as bar:
+        with click.progressbar(length=len(paths), label="drawing", file=sys.stderr) as bar:
 
             def tick(result: BatchResult) -> None:
                 report(result)
                 bar.update(1)
 
-            summary = run_batch(tasks, jobs=jobs or default_jobs(), on_result=tick)
+            summary = draw_batch(paths, settings, jobs=workers, on_result=tick)
     else:
-        summary = run_batch(tasks, jobs=jobs or default_jobs(), on_result=report)
-    click.echo(summary.line(len(tasks)), err=True)
+        summary = draw_batch(paths, settings, jobs=workers, on_result=report)
+    click.echo(summary.line(len(paths)), err=True)
     if summary.exit_status:
         sys.exit(summary.exit_status)
 
@@ -244,6 +284,7 @@ def check(
     from diagram.reading.load import load_prior, load_study
 
     current = load_study(study)
+    _show_import_notes(current.import_notes)
     assessment = assess_study(
         current, criteria=criteria, target=target, prior=load_prior(current, prior)
     )
@@ -295,9 +336,11 @@ def schema(results: bool) -> None:
 def _register() -> None:
     """Add the commands defined beside their stages (their heavy imports stay inside them)."""
     from diagram.cli.design import COMMANDS
+    from diagram.cli.importing import import_report
     from diagram.cli.teach import teach
 
     cli.add_command(teach)
+    cli.add_command(import_report)
     for command in COMMANDS:
         cli.add_command(command)
 

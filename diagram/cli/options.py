@@ -34,14 +34,19 @@ prior_option = click.option(
     type=click.Path(dir_okay=False, path_type=Path),
     help="An earlier exam to compare with (instead of the study's own prior:).",
 )
+DEFAULT_DPI = 150.0
 dpi_option = click.option(
     "--dpi",
     type=click.FloatRange(36, 1200),
-    default=150,
-    show_default=True,
-    help="Resolution of PNG output.",
+    help="Resolution of PNG output [default: 150]; refused when no output is a PNG.",
 )
 jobs_option = click.option(
     "--jobs", type=click.IntRange(1, 256), help="Worker processes (default: CPU count)."
 )
 quiet_option = click.option("--quiet", is_flag=True, help="No progress bar and no per-study lines.")
+overwrite_option = click.option(
+    "--overwrite",
+    is_flag=True,
+    help="Replace output files that exist already (without it they are left as they are and "
+    "nothing is drawn).",
+)

@@ -12,7 +12,7 @@ from pathlib import Path
 
 import click
 
-from diagram.cli.options import dpi_option, jobs_option
+from diagram.cli.options import DEFAULT_DPI, dpi_option, jobs_option
 
 # the same as diagram.teaching.case.TEACH_FORMATS (a test keeps them equal)
 FORMAT_CHOICES = ("pdf", "svg", "png", "dcm", "yaml")
@@ -65,7 +65,7 @@ def teach(
     no_year: bool,
     page: str,
     template: Path | None,
-    dpi: float,
+    dpi: float | None,
     jobs: int | None,
     quiet: bool,
 ) -> None:
@@ -110,7 +110,7 @@ def teach(
         keep_year=not no_year,
         page=page,
         template=template,
-        png_dpi=dpi,
+        png_dpi=DEFAULT_DPI if dpi is None else dpi,
     )
     taken = {str(c.get("case_id")) for c in earlier}
     taken.update(p.name.split(".")[0] for p in output.iterdir())

@@ -1,9 +1,16 @@
 """Criteria sets: band thresholds as data files, each number with its published source.
 
-A criteria file lists bands mildest first. A band applies when its ``when`` conditions hold
-(``vr_min`` and/or ``psv_min``, combined with ``match: all`` (default) or ``any``); the worst band
-that applies wins, so a value on a boundary belongs to the higher band. A band with
-``occlusion: true`` is the band for an occluded vessel. ``not-assessed`` is built in.
+A criteria file lists bands mildest first. A band applies when its ``when`` conditions hold:
+``vr_min`` / ``psv_min`` (the value on the boundary belongs to this, the higher band: ">=") or
+``vr_over`` / ``psv_over`` (the boundary value stays in the milder band: ">"), joined by the set's
+one ``match`` rule: ``all`` (both PSV and Vr must reach the band) or ``any`` (either does). A
+graft set may add ``flow_below`` (graft flow velocity below it, cm/s), which must hold as well.
+The worst band that applies wins. A band with ``occlusion: true`` is the band for an occluded
+vessel; ``not-assessed`` is built in.
+
+``psv_only`` lists the set's rule for a sample with a PSV but no valid velocity ratio (no
+reference upstream, or one across an occlusion or a stenosis >= 50%): each entry names a band and
+its PSV threshold; the result is never below ``lesion_floor`` for a documented lesion.
 """
 
 from __future__ import annotations
@@ -23,8 +30,29 @@ _MAX_BYTES = 256 * 1024
 _MAX_DEPTH = 20
 _BAND_KEYS = ("id", "label", "look", "when", "occlusion", "source")
 LOOKS = ("normal", "lt50", "50-74", "75-99", "occluded")
-_WHEN_KEYS = ("vr_min", "psv_min", "match")
-_TOP_KEYS = ("format", "name", "title", "kind", "source", "lesion_floor", "bands")
+_WHEN_KEYS = ("vr_min", "vr_over", "psv_min", "psv_over", "flow_below", "match")
+_PSV_ONLY_KEYS = ("band", "psv_min", "psv_over", "flow_below")
+_TOP_KEYS = (
+    "format",
+    "name",
+    "title",
+    "kind",
+    "source",
+    "match",
+    "lesion_floor",
+    "psv_only",
+    "psv_only_source",
+    "bands",
+)
+
+
+def _meets(value: float, limit: float, strict: bool) -> bool:
+    return value > limit if strict else value >= limit
+
+
+def _condition(name: str, limit: float, strict: bool) -> str:
+    unit = " cm/s" if name == "PSV" else ""
+    return f"{name} {'>' if strict else '>='} {limit:g}{unit}"
 
 
 @dataclass(frozen=True)
@@ -40,32 +68,82 @@ class BandRule:
     occlusion: bool = False
     source: str = ""
     look: str = ""  # the house look (hatch and tint) it is drawn with: one of LOOKS
+    vr_strict: bool = False  # True: Vr must be above vr_min (vr_over); False: at least
+    psv_strict: bool = False  # True: PSV must be above psv_min (psv_over)
+    flow_below: float | None = None  # graft flow velocity must be below this, cm/s
 
-    def applies(self, vr: float | None, psv: float | None) -> bool | None:
+    def holds_vr(self, vr: float | None) -> bool | None:
+        """Return whether the Vr condition holds (None: no Vr, or the band has none)."""
+        if self.vr_min is None or vr is None:
+            return None
+        return _meets(vr, self.vr_min, self.vr_strict)
+
+    def holds_psv(self, psv: float | None) -> bool | None:
+        """Return whether the PSV condition holds (None: no PSV, or the band has none)."""
+        if self.psv_min is None or psv is None:
+            return None
+        return _meets(psv, self.psv_min, self.psv_strict)
+
+    def applies(
+        self, vr: float | None, psv: float | None, flow: float | None = None
+    ) -> bool | None:
         """Return whether this band's conditions hold; None when a missing value decides it."""
         tests: list[bool | None] = []
         if self.vr_min is not None:
-            tests.append(None if vr is None else vr >= self.vr_min)
+            tests.append(self.holds_vr(vr))
         if self.psv_min is not None:
-            tests.append(None if psv is None else psv >= self.psv_min)
+            tests.append(self.holds_psv(psv))
+        if self.flow_below is not None and (flow is None or flow >= self.flow_below):
+            return False  # a further condition: no graft flow velocity, no flow band
         if not tests:
             return True
         if self.match == "all":
             return False if False in tests else (None if None in tests else True)
         return True if True in tests else (None if None in tests else False)
 
+    def conditions(self) -> list[str]:
+        """Return the band's velocity conditions in words (``Vr >= 2``, ``PSV > 300 cm/s``)."""
+        parts = []
+        if self.psv_min is not None:
+            parts.append(_condition("PSV", self.psv_min, self.psv_strict))
+        if self.vr_min is not None:
+            parts.append(_condition("Vr", self.vr_min, self.vr_strict))
+        return parts
+
     def describe(self) -> str:
         """Return the band's rule in words, e.g. ``Vr >= 2.0``."""
-        parts = []
-        if self.vr_min is not None:
-            parts.append(f"Vr >= {self.vr_min:g}")
-        if self.psv_min is not None:
-            parts.append(f"PSV >= {self.psv_min:g} cm/s")
         if self.occlusion:
             return "occlusion recorded"
+        parts = self.conditions()
         if not parts:
             return "below the next band's threshold"
-        return (" and " if self.match == "all" else " or ").join(parts)
+        text = (" and " if self.match == "all" else " or ").join(parts)
+        if self.flow_below is not None:
+            text = f"({text}) with graft flow velocity < {self.flow_below:g} cm/s"
+        return text
+
+
+@dataclass(frozen=True)
+class PsvOnlyRule:
+    """One row of a set's PSV-only rule: the band a PSV reaches when there is no valid Vr."""
+
+    band: str
+    psv_min: float
+    psv_strict: bool = False
+    flow_below: float | None = None
+
+    def holds(self, psv: float, flow: float | None) -> bool:
+        """Return whether the PSV (and graft flow velocity, where named) reach the band."""
+        if self.flow_below is not None and (flow is None or flow >= self.flow_below):
+            return False
+        return _meets(psv, self.psv_min, self.psv_strict)
+
+    def describe(self) -> str:
+        """Return the row in words: ``PSV >= 200 cm/s``."""
+        text = _condition("PSV", self.psv_min, self.psv_strict)
+        if self.flow_below is not None:
+            text += f" with graft flow velocity < {self.flow_below:g} cm/s"
+        return text
 
 
 @dataclass(frozen=True)
@@ -79,6 +157,9 @@ class Criteria:
     lesion_floor: str | None
     bands: tuple[BandRule, ...]  # mildest first; occlusion band included
     origin: str  # "shipped" or the path of a lab's file
+    match: str = "all"  # the set's one rule for PSV and Vr: "all" (both) or "any" (either)
+    psv_only: tuple[PsvOnlyRule, ...] = ()  # mildest first
+    psv_only_source: str = ""
 
     @property
     def band_ids(self) -> tuple[str, ...]:
@@ -105,19 +186,83 @@ class Criteria:
         if nxt is None:
             return band.describe()
         limits = []
-        if nxt.vr_min is not None:
-            limits.append(f"Vr < {nxt.vr_min:g}")
         if nxt.psv_min is not None:
-            limits.append(f"PSV < {nxt.psv_min:g} cm/s")
+            limits.append(f"PSV {'<=' if nxt.psv_strict else '<'} {nxt.psv_min:g} cm/s")
+        if nxt.vr_min is not None:
+            limits.append(f"Vr {'<=' if nxt.vr_strict else '<'} {nxt.vr_min:g}")
         joiner = " or " if nxt.match == "all" else " and "
         return joiner.join(limits)
+
+    def boundary_note(self) -> str:
+        """Return, for the legend, which band a value exactly on each boundary goes to."""
+        parts = []
+        for b in self.bands:
+            if b.occlusion or not b.conditions():
+                continue
+            parts.append(f"{b.label} {b.describe()}")
+        if not parts:
+            return ""
+        return f"{self.name}: " + "; ".join(parts)
+
+    def grade_psv_only(
+        self, psv: float, *, lesion: bool, flow: float | None = None
+    ) -> BandRule | None:
+        """Return the band of the set's PSV-only rule, never below the lesion floor."""
+        found: BandRule | None = None
+        for row in reversed(self.psv_only):
+            if row.holds(psv, flow):
+                found = self.band(row.band)
+                break
+        if not self.psv_only:
+            return None
+        if found is None:
+            found = self.bands[0]
+        if lesion and self.lesion_floor is not None:
+            floor = self.band(self.lesion_floor)
+            if found.rank < floor.rank:
+                return floor
+        return found
+
+    def psv_only_row(self, band_id: str) -> PsvOnlyRule | None:
+        """Return the PSV-only row that gives this band, if any."""
+        return next((r for r in self.psv_only if r.band == band_id), None)
+
+    def discordant(
+        self, vr: float | None, psv: float | None, flow: float | None = None
+    ) -> tuple[BandRule, BandRule] | None:
+        """Return (band by PSV alone, band by Vr alone) when the two disagree, else None.
+
+        Only sets whose bands state both a PSV and a Vr condition can disagree; the set's
+        ``match`` rule decides the grade, this only says that the pair was discordant.
+        """
+        if vr is None or psv is None:
+            return None
+        graded = [b for b in self.bands if not b.occlusion]
+        if not any(b.psv_min is not None for b in graded) or not any(
+            b.vr_min is not None for b in graded
+        ):
+            return None
+
+        def worst(test: str) -> BandRule:
+            for b in reversed(graded):
+                held = b.holds_psv(psv) if test == "psv" else b.holds_vr(vr)
+                if held and (b.flow_below is None or (flow is not None and flow < b.flow_below)):
+                    return b
+                if held is None and b.conditions() == []:
+                    return b
+            return graded[0]
+
+        by_psv, by_vr = worst("psv"), worst("vr")
+        return None if by_psv.id == by_vr.id else (by_psv, by_vr)
 
     @property
     def occlusion_band(self) -> BandRule:
         """Return the band for an occluded vessel."""
         return next(b for b in self.bands if b.occlusion)
 
-    def grade(self, vr: float | None, psv: float | None, *, lesion: bool) -> BandRule | None:
+    def grade(
+        self, vr: float | None, psv: float | None, *, lesion: bool, flow: float | None = None
+    ) -> BandRule | None:
         """Return the worst band that applies, or None when a missing measurement could change it.
 
         Bands are tried worst first: the first that holds wins; one that cannot be decided
@@ -128,7 +273,7 @@ class Criteria:
         for b in reversed(self.bands):
             if b.occlusion:
                 continue
-            holds = b.applies(vr, psv)
+            holds = b.applies(vr, psv, flow)
             if holds is None:
                 return None
             if holds:
@@ -342,6 +487,10 @@ def parse_criteria(text: str, file: str, origin: str) -> Criteria:
     if kind not in ("native", "stent", "graft"):
         bad(lines.get("kind"), "kind", kind, "must be one of native, stent, graft.")
 
+    set_match = raw.get("match", "all")
+    if set_match not in ("all", "any"):
+        bad(lines.get("match"), "match", set_match, "must be all or any.")
+        set_match = "all"
     band_nodes = next((v for k, v in node.value if k.value == "bands"), None)
     bands: list[BandRule] = []
     raw_bands = raw.get("bands")
@@ -408,26 +557,20 @@ def parse_criteria(text: str, file: str, origin: str) -> Criteria:
                 f"did you mean {near[0]}?" if near else None,
             )
             look = None
-        vr_min: Any = when.get("vr_min")
-        psv_min: Any = when.get("psv_min")
-        for key, val, hi in (("vr_min", vr_min, 50.0), ("psv_min", psv_min, 800.0)):
-            if val is not None and (not _is_number(val) or not 0 < val <= hi):
-                bad(
-                    bline,
-                    f"{where}.when.{key}",
-                    val,
-                    f"must be a number above 0 and at most {hi:g}.",
-                )
-        match = when.get("match", "all")
+        vr = _threshold(when, "vr", 50.0, f"{where}.when", bline, bad)
+        psv = _threshold(when, "psv", 800.0, f"{where}.when", bline, bad)
+        flow = _flow_below(when, f"{where}.when", bline, bad)
+        match = when.get("match", set_match)
         if match not in ("all", "any"):
             bad(bline, f"{where}.when.match", match, "must be all or any.")
-        if not occlusion and _is_number(vr_min):
-            if vr_min <= last_vr:
+        vr_min = vr[0] if vr else None
+        if not occlusion and vr_min is not None:
+            if vr_min < last_vr or (vr_min == last_vr and flow is None):
                 bad(
                     bline,
-                    f"{where}.when.vr_min",
+                    f"{where}.when.{'vr_over' if vr and vr[1] else 'vr_min'}",
                     vr_min,
-                    "must be higher than the vr_min of the milder bands before it.",
+                    "must be higher than the Vr threshold of the milder bands before it.",
                 )
             last_vr = vr_min
         bands.append(
@@ -435,12 +578,15 @@ def parse_criteria(text: str, file: str, origin: str) -> Criteria:
                 id=bid,
                 label=str(label),
                 rank=len(bands),
-                vr_min=float(vr_min) if _is_number(vr_min) else None,
-                psv_min=float(psv_min) if _is_number(psv_min) else None,
+                vr_min=vr_min,
+                psv_min=psv[0] if psv else None,
                 match=match if match in ("all", "any") else "all",
                 occlusion=occlusion,
                 source=str(rb.get("source", "")),
                 look=look or "",
+                vr_strict=bool(vr and vr[1]),
+                psv_strict=bool(psv and psv[1]),
+                flow_below=flow,
             )
         )
     if raw_bands and sum(b.occlusion for b in bands) != 1:
@@ -457,6 +603,11 @@ def parse_criteria(text: str, file: str, origin: str) -> Criteria:
             "must be one of the set's band ids.",
             f"did you mean {near[0]}?" if near else None,
         )
+    psv_only = _psv_only(raw.get("psv_only"), lines.get("psv_only"), seen, bad)
+    psv_only_source = raw.get("psv_only_source", "")
+    if not isinstance(psv_only_source, str):
+        bad(lines.get("psv_only_source"), "psv_only_source", None, "must be a text.")
+        psv_only_source = ""
     if problems:
         raise CriteriaError(sorted(problems, key=lambda p: (p.line or 0, p.field)))
     bands = _default_looks(bands)
@@ -468,4 +619,69 @@ def parse_criteria(text: str, file: str, origin: str) -> Criteria:
         lesion_floor=floor,
         bands=tuple(bands),
         origin=origin,
+        match=set_match,
+        psv_only=psv_only,
+        psv_only_source=" ".join(psv_only_source.split()),
     )
+
+
+def _threshold(
+    when: dict[str, Any], name: str, high: float, where: str, line: int | None, bad: Any
+) -> tuple[float, bool] | None:
+    """Return (limit, strict) from ``NAME_min`` (>=) or ``NAME_over`` (>), reporting problems."""
+    given = [(k, when[k]) for k in (f"{name}_min", f"{name}_over") if k in when]
+    if len(given) > 1:
+        bad(line, f"{where}.{name}_over", None, f"must not be given with {name}_min.")
+        return None
+    if not given:
+        return None
+    key, val = given[0]
+    if not _is_number(val) or not 0 < val <= high:
+        bad(line, f"{where}.{key}", val, f"must be a number above 0 and at most {high:g}.")
+        return None
+    return float(val), key.endswith("_over")
+
+
+def _flow_below(when: dict[str, Any], where: str, line: int | None, bad: Any) -> float | None:
+    val = when.get("flow_below")
+    if val is None:
+        return None
+    if not _is_number(val) or not 0 < val <= 800:
+        bad(line, f"{where}.flow_below", val, "must be a number above 0 and at most 800.")
+        return None
+    return float(val)
+
+
+def _psv_only(raw: Any, line: int | None, band_ids: set[str], bad: Any) -> tuple[PsvOnlyRule, ...]:
+    """Return the set's PSV-only rule, mildest row first, reporting every problem."""
+    if raw is None:
+        return ()
+    if not isinstance(raw, list):
+        bad(line, "psv_only", None, "must be a list of rows with band and psv_min or psv_over.")
+        return ()
+    rows: list[PsvOnlyRule] = []
+    for i, row in enumerate(raw):
+        where = f"psv_only[{i}]"
+        if not isinstance(row, dict):
+            bad(line, where, None, "must be a mapping with band and psv_min or psv_over.")
+            continue
+        for key in row:
+            if key not in _PSV_ONLY_KEYS:
+                near = difflib.get_close_matches(str(key), _PSV_ONLY_KEYS, n=1)
+                hint = f"did you mean {near[0]}?" if near else None
+                bad(line, f"{where}.{key}", None, "is not a PSV-only field.", hint)
+        band = row.get("band")
+        if not isinstance(band, str) or band not in band_ids:
+            near = difflib.get_close_matches(str(band), sorted(band_ids), n=1)
+            hint = f"did you mean {near[0]}?" if near else None
+            bad(line, f"{where}.band", band, "must be one of the set's band ids.", hint)
+            continue
+        psv = _threshold(row, "psv", 800.0, where, line, bad)
+        if psv is None:
+            if "psv_min" not in row and "psv_over" not in row:
+                bad(line, where, None, "must give psv_min or psv_over.")
+            continue
+        if rows and psv[0] < rows[-1].psv_min:
+            bad(line, f"{where}.psv_min", psv[0], "must not be below the rows before it.")
+        rows.append(PsvOnlyRule(band, psv[0], psv[1], _flow_below(row, where, line, bad)))
+    return tuple(rows)

@@ -228,15 +228,26 @@ def write_gallery(
     profile: LabProfile | None = None,
     *,
     template: str | Path | None = None,
+    overwrite: bool = False,
 ) -> Path:
-    """Write the gallery of the profile's style (the default style without one) to ``out``."""
+    """Write the gallery of the profile's style (the default style without one) to ``out``.
+
+    An existing file at ``out`` is refused unless ``overwrite``.
+    """
     from diagram.drawing.template.mapfile import load_template
-    from diagram.output.export import Drawing, ExportOptions, export, format_for
+    from diagram.output.export import (
+        Drawing,
+        ExportOptions,
+        export,
+        format_for,
+        refuse_existing,
+    )
 
     path = Path(out)
     fmt = format_for(path)
     if fmt not in FORMATS:
         raise ExportError(f"{path}: the gallery is written as {', '.join(FORMATS)}, not {fmt}.")
+    refuse_existing(path, overwrite)
     chosen = template if template is not None else (profile.template if profile else None)
     svg = gallery_svg(
         profile.style if profile else None,
@@ -244,4 +255,6 @@ def write_gallery(
         lab_name=profile.lab_name if profile else None,
         page=profile.page if profile else None,
     )
-    return export(Drawing(results={}, svg_pages=(svg,)), path, fmt, ExportOptions(png_dpi=150.0))
+    options = ExportOptions(png_dpi=150.0)
+    drawing = Drawing(results={}, svg_pages=(svg,))
+    return export(drawing, path, fmt, options, overwrite=overwrite)

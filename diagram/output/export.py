@@ -6,9 +6,9 @@ the output suffix unless given. PDF and PNG are painted from the drawing's Scene
 (``output.cairo_backend``) or, with ``ExportOptions(renderer="cairosvg")`` or a drawing given only
 as SVG text, converted from the SVG by CairoSVG in its safe mode (``unsafe=False``: it never
 fetches anything but ``data:`` URLs). Either way the shipped DejaVu Sans is the only font cairo
-sees (``output.fonts``). Every write goes to a temporary file in the
-destination folder and is renamed into place only when complete, so a failed run leaves no
-partial file and an existing output is replaced only by a complete new one.
+sees (``output.fonts``). Every write goes to a temporary file in the destination folder and is
+given its name only when complete, so a failed run leaves no partial file. An existing output is
+never replaced unless asked for (``overwrite``), and then only by a complete new one.
 """
 
 from __future__ import annotations
@@ -255,12 +255,17 @@ _CREATE_NEW = (
 )
 
 
-def write_atomic(path: Path, data: bytes) -> None:
-    """Write ``data`` to ``path`` through a temporary file and a rename.
+def write_atomic(path: Path, data: bytes, *, overwrite: bool = True) -> None:
+    """Write ``data`` to ``path`` through a temporary file and a rename (or a link).
 
     The temporary file (``.NAME.RANDOM.part`` beside the target) is named before it is created,
     so it is removed whatever stops the write: an OSError, or an interrupt arriving between any
-    two steps. The target is either untouched or replaced by the complete new file.
+    two steps. The target is either untouched or holds the complete new file.
+
+    With ``overwrite`` false the complete file is linked to its name, which fails if the name
+    exists, however it got there: a file made meanwhile by another process is never replaced
+    (there is no moment between a check and a rename). File systems without hard links get
+    the name reserved with an exclusive create, then the complete file renamed onto it.
     """
     folder = path.parent  # Path("m.svg").parent is Path(".")
     _check_target(path, folder)
@@ -271,9 +276,9 @@ def write_atomic(path: Path, data: bytes) -> None:
     try:
         try:
             fd = os.open(tmp, _CREATE_NEW, 0o666)
-        except FileExistsError:
+        except FileExistsError as exc:
             owned = None  # another writer's file: never ours to remove
-            raise
+            raise ExportError(_cannot_write(path, folder, exc)) from None
         try:
             view = memoryview(data)
             while view:
@@ -281,7 +286,12 @@ def write_atomic(path: Path, data: bytes) -> None:
             os.fsync(fd)
         finally:
             os.close(fd)
-        os.replace(tmp, path)
+        if overwrite:
+            os.replace(tmp, path)
+        else:
+            _link_new(tmp, path)
+    except FileExistsError:
+        raise ExportError(exists_message(path)) from None
     except OSError as exc:
         raise ExportError(_cannot_write(path, folder, exc)) from None
     except ValueError:  # a NUL character, or text no file name can hold
@@ -290,6 +300,32 @@ def write_atomic(path: Path, data: bytes) -> None:
         if owned is not None:
             with contextlib.suppress(OSError):  # gone already once renamed into place
                 os.unlink(owned)
+
+
+def exists_message(path: Path) -> str:
+    """Return the line that refuses to replace an existing output."""
+    return f"{path}: exists already and was left as it was (give --overwrite to replace it)."
+
+
+_NO_HARD_LINKS = {errno.EPERM, errno.EMLINK, errno.EXDEV, errno.ENOTSUP, errno.EOPNOTSUPP}
+
+
+def _link_new(tmp: Path, path: Path) -> None:
+    """Give the complete file ``tmp`` the name ``path``; FileExistsError if the name is taken."""
+    try:
+        os.link(tmp, path)
+        return
+    except OSError as exc:
+        if isinstance(exc, FileExistsError) or exc.errno not in _NO_HARD_LINKS:
+            raise
+    fd = os.open(path, _CREATE_NEW, 0o666)  # the name is ours from here on
+    os.close(fd)
+    try:
+        os.replace(tmp, path)
+    except BaseException:
+        with contextlib.suppress(OSError):
+            os.unlink(path)  # the empty placeholder made just above
+        raise
 
 
 def _check_target(path: Path, folder: Path) -> None:
@@ -331,13 +367,27 @@ def export(
     fmt: str | None = None,
     options: ExportOptions | None = None,
     *,
+    overwrite: bool = False,
     writers: Mapping[str, Writer] = WRITERS,
 ) -> Path:
     """Write the drawing to ``path`` in its format; return the path written.
 
-    ``writers`` replaces the registry of writers by format (its keys are the formats known).
+    An existing file at ``path`` is refused (``ExportError``, the file untouched) unless
+    ``overwrite`` is true. ``writers`` replaces the registry of writers by format (its keys are
+    the formats known).
     """
     out = Path(path)
     chosen = format_for(out, fmt, writers)
-    write_atomic(out, render_bytes(drawing, chosen, options, writers=writers))
+    refuse_existing(out, overwrite)
+    write_atomic(out, render_bytes(drawing, chosen, options, writers=writers), overwrite=overwrite)
     return out
+
+
+def refuse_existing(path: Path, overwrite: bool) -> None:
+    """Refuse an existing file at ``path`` before any work, unless ``overwrite``.
+
+    Only a quick answer for the user: the write itself is what guarantees that a file made
+    meanwhile is not replaced.
+    """
+    if not overwrite and os.path.lexists(path) and not path.is_dir():
+        raise ExportError(exists_message(path))

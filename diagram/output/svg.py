@@ -196,8 +196,6 @@ def render_svg(scene: Scene) -> str:
         dwg.defs.add(_pattern(dwg, band))
     sheet = dwg.g(id="sheet")
     sheet["font-family"] = family_list(scene.font_family)
-    # Unhinted advances, as the layout measured them (browsers otherwise round small text).
-    sheet["text-rendering"] = "geometricPrecision"
     bands = {band.id: band for band in scene.bands}
     for item in scene.items:
         for el in _elements(dwg, item, bands):

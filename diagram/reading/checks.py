@@ -372,6 +372,8 @@ class Checker:
         return [v for v in values if isinstance(v, dict)] if isinstance(values, list) else []
 
     def sample(self, loc: Loc, sample: dict[str, object], noun: str) -> None:
+        if "shift_hz" in sample and sample.get("occluded") is not True:
+            self.shift(loc, sample)
         psv, edv = _number(sample.get("psv")), _number(sample.get("edv"))
         if psv is not None and edv is not None and edv > psv:
             self.refuse(
@@ -385,6 +387,21 @@ class Checker:
                 for key in _MEASURED if flag == "not_assessed" else ("psv", "edv", "shift_hz"):
                     if key in sample:
                         self.refuse(sample, loc, key, f"is refused: {why}.")
+        repeats = sample.get("samples")
+        for i, repeat in enumerate(repeats if isinstance(repeats, list) else ()):
+            if isinstance(repeat, dict):
+                self.sample((*loc, "samples", i), repeat, noun)
+
+    def shift(self, loc: Loc, sample: dict[str, object]) -> None:
+        """Refuse a Doppler shift that cannot give a PSV: no angle, no frequency, or a PSV too."""
+        if "psv" in sample:
+            rule = "is refused with a psv: give the PSV or the Doppler shift it came from."
+            self.refuse(sample, loc, "shift_hz", rule)
+            return
+        for key, what in (("angle", "insonation angle"), ("f0_mhz", "transmit frequency")):
+            if key not in sample:
+                rule = f"needs the {what} ({key}) to compute the PSV (Doppler equation)."
+                self.refuse(sample, loc, "shift_hz", rule, hint=f"add {key}")
 
     def extent(self, loc: Loc, seg: str, item: dict[str, object]) -> None:
         """Check that an extent starts inside ``seg`` and ends inside the limb."""

@@ -25,6 +25,7 @@ from typing import TYPE_CHECKING, Any, cast
 from diagram import anatomy
 from diagram.anatomy import Side
 from diagram.errors import Problem, StudyError
+from diagram.reading import sr
 from diagram.reading.checks import Checker, Key, Loc, Parsed
 from diagram.reading.checks import (
     study_schema as study_schema,  # the checks' schema, importable here
@@ -38,6 +39,7 @@ from diagram.reading.study import (
     LimbPressures,
     Patient,
     Plaque,
+    Presentation,
     Pressures,
     Sample,
     SegmentFinding,
@@ -70,11 +72,27 @@ def load_study(path: str | Path) -> Study:
     name = str(path)
     try:
         with open(path, "rb") as handle:
-            data = handle.read(MAX_BYTES + 1)
+            head = handle.read(132)
+            if sr.looks_like_dicom(head) or Path(path).suffix.lower() == ".dcm":
+                return load_report(path)[0]
+            data = head + handle.read(MAX_BYTES + 1 - len(head))
     except OSError as err:
         problem = Problem(name, None, "", None, f"cannot be read: {err.strerror}.")
         raise StudyError([problem]) from None
     return _load_bytes(data, name, Path(path).suffix)
+
+
+def load_report(path: str | Path) -> tuple[Study, sr.Report]:
+    """Read a vascular ultrasound structured report (DICOM SR) into a Study, and its tree.
+
+    The tree goes through the same checks as a study file; what the report holds that cannot be
+    placed on the map is listed in the study's ``import_notes``.
+    """
+    name = str(path)
+    report = sr.read_report(path)
+    parsed = Parsed(kind="dicom", tree=report.tree)
+    study = _checked(parsed, name, report.problems)
+    return dataclasses.replace(study, import_notes=tuple(report.notes)), report
 
 
 def load_prior(study: Study, override: str | Path | None = None) -> Study | None:
@@ -127,10 +145,16 @@ def _load_bytes(data: bytes, name: str, suffix: str) -> Study:
         parsed = _parse_json(text) if kind == "json" else _parse_yaml(text)
     except _Refused as err:
         raise refuse(err.rule, err.line) from None
+    return _checked(parsed, name)
+
+
+def _checked(parsed: Parsed, name: str, found: list[Problem] | None = None) -> Study:
+    """Check a parsed tree and build its study; raise every problem found at once."""
     checker = Checker(name, parsed)
     checker.check()
-    if checker.problems:
-        raise StudyError(sorted(checker.problems, key=lambda p: p.line or 0))
+    problems = [*(found or ()), *checker.problems]
+    if problems:
+        raise StudyError(sorted(problems, key=lambda p: p.line or 0))
     return _build(parsed, name)
 
 
@@ -362,7 +386,10 @@ def _limb(side: str, limb: dict[str, Any], lines: dict[Loc, int]) -> Limb:
     segments = {}
     for key, item in limb.get("segments", {}).items():
         seg = anatomy.resolve(key) or key
-        segments[seg] = SegmentFinding(**_fields(SegmentFinding, item, at("segments", key)), id=seg)
+        repeats = tuple(Sample(**_fields(Sample, x)) for x in item.get("samples", ()))
+        segments[seg] = SegmentFinding(
+            **_fields(SegmentFinding, item, at("segments", key)), id=seg, samples=repeats
+        )
     grafts = []
     for i, item in enumerate(limb.get("grafts", [])):
         samples = {
@@ -382,6 +409,7 @@ def _limb(side: str, limb: dict[str, Any], lines: dict[Loc, int]) -> Limb:
             for i, item in enumerate(limb.get("stents", []))
         ),
         grafts=tuple(grafts),
+        presentation=Presentation(limb["presentation"]) if "presentation" in limb else None,
     )
 
 

@@ -32,6 +32,21 @@ class Flow(StrEnum):
     ABSENT = "absent"
 
 
+class Presentation(StrEnum):
+    """The leg's clinical presentation; rest pain and tissue loss mark chronic limb-threatening
+    ischaemia (CLTI: Global Vascular Guidelines 2019)."""
+
+    ASYMPTOMATIC = "asymptomatic"
+    CLAUDICATION = "claudication"
+    REST_PAIN = "rest-pain"
+    TISSUE_LOSS = "tissue-loss"
+
+    @property
+    def clti(self) -> bool:
+        """Return True for rest pain and tissue loss."""
+        return self in (Presentation.REST_PAIN, Presentation.TISSUE_LOSS)
+
+
 class Plaque(StrEnum):
     """Plaque character at the site."""
 
@@ -68,6 +83,7 @@ class SegmentFinding(Sample):
     """The sample recorded for a whole segment."""
 
     id: str = ""
+    samples: tuple[Sample, ...] = ()  # repeated measurements in order; the fields above are graded
 
 
 @dataclass(frozen=True)
@@ -119,6 +135,7 @@ class LimbPressures:
     pt: float | None = None
     dp: float | None = None
     toe: float | None = None
+    tcpo2: float | None = None  # transcutaneous oxygen pressure on the foot, mmHg
 
 
 @dataclass(frozen=True)
@@ -144,6 +161,7 @@ class Limb:
     lesions: tuple[Lesion, ...] = ()
     stents: tuple[Stent, ...] = ()
     grafts: tuple[Graft, ...] = ()
+    presentation: Presentation | None = None
 
 
 @dataclass(frozen=True)
@@ -184,6 +202,7 @@ class Study:
     prior: str | None = None
     notes: str | None = None
     format: int = 1
+    import_notes: tuple[str, ...] = ()  # what an imported report held that could not be placed
 
     def limb(self, side: Side) -> Limb:
         """Return the findings of one leg (empty when the file gives none)."""

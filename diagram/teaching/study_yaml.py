@@ -79,6 +79,8 @@ def _limb(limb: Limb) -> dict[str, Any]:
         out["stents"] = [_stent(s) for s in limb.stents]
     if limb.grafts:
         out["grafts"] = [_graft(g) for g in limb.grafts]
+    if limb.presentation is not None:
+        out["presentation"] = limb.presentation.value
     return out
 
 
@@ -99,7 +101,7 @@ def _pressures(p: Pressures) -> dict[str, Any]:
         limb = getattr(p, side)
         kept = {
             k: _number(getattr(limb, k))
-            for k in ("pt", "dp", "toe")
+            for k in ("pt", "dp", "toe", "tcpo2")
             if getattr(limb, k) is not None
         }
         if kept:

@@ -327,7 +327,7 @@ def _psv_change(before: float | None, after: float | None, pct: float | None) ->
     if before is None or after is None:
         return ""
     text = f"PSV {before:g} → {after:g} cm/s"
-    return text + (f" ({_signed(pct, 1)}%)" if pct is not None else "")
+    return text + (f" ({_signed(pct, 0)}%)" if pct is not None else "")
 
 
 def change_table(comparison: Comparison, bands: Mapping[str, BandStyle]) -> Table:
