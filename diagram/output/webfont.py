@@ -44,7 +44,8 @@ def woff_subset(chars: str, bold: bool) -> bytes:
     # no kerning (kern, GPOS), ligatures or maths: cairo applies none; FFTM is an editor's stamp
     options.drop_tables = [*options.drop_tables, "FFTM", "GDEF", "GPOS", "GSUB", "MATH", "kern"]
     out = io.BytesIO()
-    with TTFont(FONT_DIR / FONT_FILES[1 if bold else 0], lazy=True) as font:
+    path = FONT_DIR / FONT_FILES[1 if bold else 0]
+    with TTFont(path, lazy=True, recalcTimestamp=False) as font:  # bytes alike on every run
         subsetter = subset.Subsetter(options)
         subsetter.populate(text=chars)
         subsetter.subset(font)
