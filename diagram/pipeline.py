@@ -18,8 +18,6 @@ from diagram.reading.study import Study
 if TYPE_CHECKING:
     from diagram.drawing.labprofile import LabProfile
 
-PAGES: tuple[str, ...] = ("a4", "letter", "map")
-
 
 def draw(
     study: Study,

@@ -12,7 +12,6 @@ from diagram.anatomy import Side
 from diagram.cli.design import COMMANDS
 from diagram.cli.main import cli, main
 from diagram.design.gallery import (
-    PAGE_PT,
     SPECIMEN_NOTE,
     gallery_svg,
     greyscale,
@@ -20,6 +19,7 @@ from diagram.design.gallery import (
     write_gallery,
 )
 from diagram.drawing.labprofile import load_lab_profile
+from diagram.drawing.paper import PAGES
 from diagram.drawing.style import default_style
 from diagram.drawing.template.mapfile import load_template
 from diagram.errors import ExportError
@@ -131,7 +131,7 @@ def test_gallery_of_a_lab_profile(tmp_path: Path) -> None:
     assert "#7FB3D5" in svg and "rotate(120)" in svg
     written = write_gallery(tmp_path / "lab.svg", profile)
     assert written.read_text(encoding="utf-8") == svg
-    width, height = PAGE_PT["letter"]
+    width, height = PAGES["letter"].width_pt, PAGES["letter"].height_pt
     assert f'viewBox="0 0 {width:g} {height:g}"' in svg
 
 

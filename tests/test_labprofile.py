@@ -10,7 +10,6 @@ import pytest
 
 from diagram.drawing.labprofile import (
     MAX_PROFILE_BYTES,
-    PAGES,
     LabProfile,
     LabProfileError,
     load_lab_profile,
@@ -193,12 +192,6 @@ def test_hostile_profiles(tmp_path: Path) -> None:
     assert problems_of(tagged, tmp_path) == [
         "1: (file): is not valid YAML: only plain mappings, lists, texts and numbers are read"
     ]
-
-
-def test_pages_match_the_layout() -> None:
-    from diagram.drawing.layout import PAGES as LAYOUT_PAGES
-
-    assert set(PAGES) == set(LAYOUT_PAGES)
 
 
 def test_parse_in_memory_uses_the_base_folder() -> None:

@@ -22,7 +22,10 @@ from diagram.assess.results import (
     SegmentResult,
     Span,
 )
-from diagram.drawing.layout import CAUTION, PAGES, layout, lesion_label, pack_1d, segment_label
+from diagram.caution import CAUTION
+from diagram.drawing.layout import layout
+from diagram.drawing.map.labels import lesion_label, pack_1d, segment_label
+from diagram.drawing.paper import PAGES
 from diagram.drawing.scene import Group, Line, Polygon, Rect, Scene, Text
 from diagram.drawing.template.geometry import PathGeometry
 from diagram.drawing.template.mapfile import Template, Vessel

@@ -24,19 +24,12 @@ from diagram.assess.indices import limb_indices
 from diagram.assess.planning import planning_note
 from diagram.assess.results import Assessment, Finding
 from diagram.drawing.layout import MIN_MAP_SHARE, layout
+from diagram.drawing.map.marks import change_mark
+from diagram.drawing.paper import MARGIN_PT
 from diagram.drawing.scene import Box, CaseHeader, Group, Item, Polygon, Scene, Text, bounds
-from diagram.drawing.sheet.parts import MARGIN_PT, flow_tables
-from diagram.drawing.sheet.tables import (
-    Entry,
-    Row,
-    Run,
-    Table,
-    Tone,
-    change_mark,
-    change_table,
-    pressure_entries,
-    row_heights,
-)
+from diagram.drawing.sheet.cells import Entry, Row, Run, Table, Tone
+from diagram.drawing.sheet.tableblock import Tables, row_heights
+from diagram.drawing.sheet.tables import change_table, pressure_entries
 from diagram.drawing.style import default_style
 from diagram.drawing.template.mapfile import Template, load_template
 from diagram.output.svg import pdf_from_svgs, render_pages, render_svg
@@ -418,7 +411,7 @@ def test_tables_flow_over_pages_row_by_row() -> None:
     )
     table = Table("big", (Run("Big table"),), rows, (Entry((Run("a note"),)),))
     x0, x1, top, bottom = 30.0, 560.0, 40.0, 300.0
-    pages = flow_tables([table], x0, x1, top, bottom, style, {})
+    pages = Tables([table], style, {}).paginate(x0, x1, top, bottom)
     per_page = (bottom - top) // row_heights(table, x0, x1, style)[0]
     assert len(pages) >= 40 // per_page
     seen = [t for page in pages for t in walk_texts(page) if t.startswith("row ")]

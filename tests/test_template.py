@@ -20,21 +20,19 @@ from typing import Any
 import pytest
 
 from diagram import anatomy
+from diagram.drawing.template.contracts import JOIN_TOLERANCE, PLAUSIBLE_FACTOR
+from diagram.drawing.template.coverage import covered_keys, normalise_coverage
 from diagram.drawing.template.geometry import PathGeometry, Point, format_number
 from diagram.drawing.template.mapfile import (
-    JOIN_TOLERANCE,
     MAX_DEPTH,
     MAX_ELEMENTS,
     MAX_PATH_CHARS,
     MAX_TEMPLATE_BYTES,
-    PLAUSIBLE_FACTOR,
     Template,
     Vessel,
     check_template,
-    covered_keys,
     is_shipped,
     load_template,
-    normalise_coverage,
     shipped_templates,
     summary_line,
 )

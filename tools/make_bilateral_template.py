@@ -32,6 +32,7 @@ from diagram.drawing.template.geometry import (  # noqa: E402
     parse_transform,
     transform_path_d,
 )
+from diagram.drawing.template.nominal import NOMINAL_DIAMETER_MM  # noqa: E402
 
 VIEW_W, VIEW_H = 400.0, 1000.0
 MID_X = VIEW_W / 2
@@ -39,35 +40,6 @@ LIMB_UNITS_PER_CM = 8.5  # from the groin down
 PELVIS_UNITS_PER_CM = 7.0  # aorta and iliacs, compressed so the pelvis stays short
 PELVIC = frozenset({"AO", "CIA", "IIA", "EIA"})
 HANDLE = 0.36  # control-handle length as a fraction of the chord
-
-# Nominal reference diameters, mm. Lorbeer R et al., PLoS One 2018 (clinical-values.md): CIA 11.8,
-# EIA 10.3, proximal femoral 10.2, distal femoral 7.7, popliteal 6.9, AT 4.2, PT 3.8, peroneal 4.0.
-# From memory: distal aorta 16, internal iliac 6, profunda 6, TPT 5, pedal arteries 2.5.
-DIAMETER_MM = {
-    "AO": 16.0,
-    "CIA": 11.8,
-    "IIA": 6.0,
-    "EIA": 10.3,
-    "CFA": 10.2,
-    "PFA": 6.0,
-    "SFA-P": 7.7,
-    "SFA-M": 7.7,
-    "SFA-D": 7.7,
-    "POP-AK": 6.9,
-    "POP-BK": 6.9,
-    "TPT": 5.0,
-    "ATA-P": 4.2,
-    "ATA-M": 4.2,
-    "ATA-D": 4.2,
-    "PTA-P": 3.8,
-    "PTA-M": 3.8,
-    "PTA-D": 3.8,
-    "PER-P": 4.0,
-    "PER-M": 4.0,
-    "PER-D": 4.0,
-    "DPA": 2.5,
-    "PLA": 2.5,
-}
 
 # segment: (start tangent or None to continue the parent's end tangent, chord, end tangent), in
 # degrees from straight down, positive toward the patient's lateral side.
@@ -286,7 +258,7 @@ def _d(curve: Cubic) -> str:
 
 def _vessel_element(d: Drawn) -> str:
     seg = anatomy.SEGMENTS[d.segment]
-    diameter = DIAMETER_MM[d.segment]
+    diameter = NOMINAL_DIAMETER_MM[d.segment]
     attrs = [
         f'id="{d.segment if d.side is None else d.side + "-" + d.segment}"',
         f'data-segment="{d.segment}"',
@@ -421,7 +393,7 @@ def _transformed_fixture() -> str:
         seg = anatomy.SEGMENTS[d.segment]
         meta = (
             f'data-length-cm="{format_number(seg.length_cm)}" '
-            f'data-diameter-mm="{format_number(DIAMETER_MM[d.segment])}"'
+            f'data-diameter-mm="{format_number(NOMINAL_DIAMETER_MM[d.segment])}"'
         )
         if d.side is None:
             name = f'data-segment="{d.segment}"'

@@ -31,7 +31,7 @@ from make_bilateral_template import _catmull_rom as catmull_rom  # noqa: E402
 
 from diagram import anatomy  # noqa: E402
 from diagram.drawing.template.geometry import Cubic, PathGeometry, Point, format_number  # noqa: E402
-from diagram.drawing.template.mapfile import NOMINAL_DIAMETER_MM  # noqa: E402
+from diagram.drawing.template.nominal import NOMINAL_DIAMETER_MM  # noqa: E402
 
 VIEW_W, VIEW_H = 420.0, 1000.0
 

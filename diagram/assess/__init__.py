@@ -23,7 +23,8 @@ def band_defs(sets: CriteriaSets, used: tuple[Criteria, ...]) -> tuple[BandDef, 
     for crit in used:
         for b in crit.bands:
             if b.id not in out:
-                out[b.id] = BandDef(b.id, b.label, sets.severity(b.id), b.look, crit.name)
+                rank = sets.severity(b.id)
+                out[b.id] = BandDef(b.id, b.label, rank, b.look, crit.name, crit.kind)
     occluded = [b for b in out.values() if b.look == "occluded"]
     rest = [b for b in out.values() if b.look != "occluded"]
     return (*rest, *occluded, BandDef(NOT_ASSESSED, "Not assessed", -1, "", ""))

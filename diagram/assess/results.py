@@ -180,6 +180,7 @@ class BandDef:
     rank: int  # severity on the common scale: -1 not assessed, 0 normal ... 4 occluded
     look: str = ""  # the house look it is drawn with (normal, lt50, 50-74, 75-99, occluded)
     criteria: str = ""  # the name of the set it belongs to
+    kind: str = ""  # that set's kind: native, stent or graft
 
 
 @dataclass(frozen=True)

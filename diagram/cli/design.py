@@ -50,7 +50,8 @@ def template_check(file: str) -> None:
 @template.command("list")
 def template_list() -> None:
     """List the map templates shipped with limbchart, one line each."""
-    from diagram.drawing.template.mapfile import describe_coverage, load_template, shipped_templates
+    from diagram.drawing.template.coverage import describe_coverage
+    from diagram.drawing.template.mapfile import load_template, shipped_templates
 
     names = shipped_templates()
     width = max(len(n) for n in names)

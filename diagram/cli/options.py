@@ -6,11 +6,11 @@ from pathlib import Path
 
 import click
 
-PAGES = ("a4", "letter", "map")
+from diagram.drawing.paper import PAGE_NAMES
 
 page_option = click.option(
     "--page",
-    type=click.Choice(PAGES),
+    type=click.Choice(PAGE_NAMES),
     help="Page size, or 'map' for the map and legend alone [default: the lab's, else a4].",
 )
 template_option = click.option(

@@ -13,6 +13,7 @@ from pathlib import Path
 import click
 
 from diagram.cli.options import DEFAULT_DPI, dpi_option, jobs_option
+from diagram.drawing.paper import PAGE_NAMES
 
 # the same as diagram.teaching.case.TEACH_FORMATS (a test keeps them equal)
 FORMAT_CHOICES = ("pdf", "svg", "png", "dcm", "yaml")
@@ -44,7 +45,7 @@ DEFAULT_FORMATS = ("pdf", "yaml")
 @click.option("--no-year", is_flag=True, help="Leave the exam year off too (age is kept).")
 @click.option(
     "--page",
-    type=click.Choice(["a4", "letter", "map"]),
+    type=click.Choice(PAGE_NAMES),
     default="a4",
     show_default=True,
     help="Page size, or 'map' for the map and legend alone.",

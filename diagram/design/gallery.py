@@ -16,6 +16,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 from diagram.anatomy import vessel_key
+from diagram.drawing.paper import PAGES
 from diagram.drawing.style import BandStyle, Style, default_style
 from diagram.errors import ExportError
 
@@ -24,8 +25,6 @@ if TYPE_CHECKING:
     from diagram.drawing.scene import Item
     from diagram.drawing.template.mapfile import Template
 
-PT_PER_MM = 72.0 / 25.4
-PAGE_PT = {"a4": (210 * PT_PER_MM, 297 * PT_PER_MM), "letter": (612.0, 792.0)}
 MARGIN_PT = 28.0
 PANEL_PT = 166.0  # height of the band panel above the map
 FORMATS = ("svg", "pdf", "png")
@@ -192,7 +191,8 @@ def gallery_svg(
     map_scene = layout(
         assessment, tpl, page="map", version=__version__, generated_note=SPECIMEN_NOTE, style=style
     )
-    width, height = PAGE_PT["letter" if page == "letter" else "a4"]
+    spec = PAGES["letter" if page == "letter" else "a4"]
+    width, height = spec.width_pt, spec.height_pt
     title = "Style gallery" + (f" — {lab_name}" if lab_name else "")
     items, bands = _panel(style, title, width)
     page_rect = Rect("gallery-page", 0, 0, width, height, fill="#FFFFFF")

@@ -30,12 +30,12 @@ from pathlib import Path
 from types import MappingProxyType
 from typing import Any
 
+from diagram.drawing.paper import PAGE_NAMES
 from diagram.drawing.style import NOT_ASSESSED, SEVERITY_ORDER, Hatch, Style, default_style
 from diagram.errors import InputError, Problem
 
 MAX_PROFILE_BYTES = 64 * 1024
 MAX_DEPTH = 8  # the profile nests three levels; anything deeper is refused before composing
-PAGES = ("a4", "letter", "map")  # layout.PAGES; a test keeps them equal
 SHIPPED_FONT = "DejaVu Sans"
 LOOKS = (*SEVERITY_ORDER, NOT_ASSESSED)
 _TOP_KEYS = ("format", "lab_name", "template", "page", "font", "bands")
@@ -112,8 +112,8 @@ def parse_lab_profile(text: str, file: str, base: Path) -> LabProfile:
         bad("format", raw["format"], "must be 1")
     lab_name = _text(raw.get("lab_name"), "lab_name", bad)
     page = raw.get("page")
-    if page is not None and page not in PAGES:
-        bad("page", page, f"must be one of {', '.join(PAGES)}", _near(page, PAGES))
+    if page is not None and page not in PAGE_NAMES:
+        bad("page", page, f"must be one of {', '.join(PAGE_NAMES)}", _near(page, PAGE_NAMES))
         page = None
     font = raw.get("font", SHIPPED_FONT)
     if not isinstance(font, str) or font.strip().casefold() != SHIPPED_FONT.casefold():

@@ -84,50 +84,6 @@ class Fit:
         return (p[0] * self.scale + self.tx, p[1] * self.scale + self.ty)
 
 
-_TOKEN = re.compile(r"[A-Za-z]|[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?")
-_ARITY = {"M": 2, "L": 2, "T": 2, "H": 1, "V": 1, "C": 6, "S": 4, "Q": 4, "A": 7, "Z": 0}
-
-
-def _map_args(cmd: str, args: list[float], fit: Fit) -> tuple[float, ...]:
-    s = fit.scale
-    rel = cmd.islower()
-    tx, ty = (0.0, 0.0) if rel else (fit.tx, fit.ty)
-    up = cmd.upper()
-    if up == "H":
-        return (args[0] * s + tx,)
-    if up == "V":
-        return (args[0] * s + ty,)
-    if up == "A":
-        rx, ry, rot, large, sweep, x, y = args
-        return (rx * s, ry * s, rot, large, sweep, x * s + tx, y * s + ty)
-    return tuple(v * s + (tx if k % 2 == 0 else ty) for k, v in enumerate(args))
-
-
-def path_commands(d: str, fit: Fit) -> tuple[PathCommand, ...]:
-    """Return path data ``d`` as commands mapped onto the page (the silhouette's layer)."""
-    tokens = _TOKEN.findall(d)
-    out: list[PathCommand] = []
-    cmd: str | None = None
-    i = 0
-    while i < len(tokens):
-        if tokens[i].isalpha():
-            cmd = tokens[i]
-            i += 1
-            if cmd.upper() == "Z":
-                out.append((cmd, ()))
-                continue
-        if cmd is None or cmd.upper() not in _ARITY or _ARITY[cmd.upper()] == 0:
-            break  # malformed tail: the template module has validated what it hands on
-        n = _ARITY[cmd.upper()]
-        if i + n > len(tokens) or any(t.isalpha() for t in tokens[i : i + n]):
-            break
-        out.append((cmd, _map_args(cmd, [float(t) for t in tokens[i : i + n]], fit)))
-        i += n
-        if cmd in "Mm":
-            cmd = "L" if cmd == "M" else "l"
-    return tuple(out)
-
-
 @dataclass(frozen=True)
 class Rect:
     """A rectangle."""

@@ -41,6 +41,7 @@ class BandStyle:
     ink: str  # "#rrggbb" colour of the texture
     outline: str  # "#rrggbb" colour of the tube's edge
     outline_dash: tuple[float, ...] = ()  # empty: a solid edge
+    device: str = ""  # "stent" or "graft": a band of that set, marked as its device is drawn
 
 
 # Severity ladder of the default set; a criteria set with other band ids is mapped onto it by rank.
@@ -125,7 +126,7 @@ class Style:
     stent_pt: float = 0.45
     graft_ink: str = "#2F2F2F"
     graft_fill: str = "#FFFFFF"
-    graft_pt: float = 3.2
+    graft_pt: float = 5.0  # the graft lumen: as wide as the thinnest vessel, its texture seen
     rule_ink: str = "#9A9A9A"
     warning_ink: str = "#7A2E00"
     max_warnings: int = 6

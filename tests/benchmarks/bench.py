@@ -105,7 +105,7 @@ def labels() -> None:
     """Label layout core: measure each label's text with the font metrics, then pack them."""
     import random
 
-    from diagram.drawing.labels import pack_1d
+    from diagram.drawing.map.labels import pack_1d
     from diagram.drawing.textmetrics import text_width
 
     print("label layout: text measured with font metrics + packed in columns (median of 7)")

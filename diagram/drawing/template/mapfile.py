@@ -42,17 +42,32 @@ from __future__ import annotations
 import difflib
 import functools
 import math
-import re
-from collections.abc import Callable, Mapping
-from dataclasses import dataclass, field
+from collections.abc import Mapping
+from dataclasses import dataclass
 from importlib import resources
 from pathlib import Path
 from types import MappingProxyType
 from typing import TYPE_CHECKING, Any
 
 from diagram import anatomy
+from diagram.drawing.template.contracts import (
+    JOIN_TOLERANCE,
+    Add,
+    check_joins,
+    check_sides,
+    declared_value,
+)
+from diagram.drawing.template.coverage import (
+    COVERAGES,
+    covered_keys,
+    describe_coverage,
+    key_order,
+    normalise_coverage,
+    suggest_coverage,
+)
 from diagram.drawing.template.geometry import PathGeometry
-from diagram.drawing.template.pathdata import Affine, transform_path_d
+from diagram.drawing.template.mapread import MapReader, RawVessel
+from diagram.drawing.template.nominal import NOMINAL_DIAMETER_MM
 
 # Safe reading lives in diagram.drawing.template.svgread; its limits stay importable from here.
 from diagram.drawing.template.svgread import MAX_DEPTH as MAX_DEPTH
@@ -60,77 +75,14 @@ from diagram.drawing.template.svgread import MAX_ELEMENTS as MAX_ELEMENTS
 from diagram.drawing.template.svgread import MAX_PATH_CHARS as MAX_PATH_CHARS
 from diagram.drawing.template.svgread import MAX_VIEWBOX as MAX_VIEWBOX
 from diagram.drawing.template.svgread import SVG_NS as SVG_NS
-from diagram.drawing.template.svgread import Element, SvgReader, clip
+from diagram.drawing.template.svgread import clip
 from diagram.errors import Problem, TemplateError
 
 if TYPE_CHECKING:
-    from xml.sax.xmlreader import AttributesNSImpl
+    pass
 
-INKSCAPE_NS = "http://www.inkscape.org/namespaces/inkscape"
 SHIPPED_TEMPLATE = "bilateral.svg"
 MAX_TEMPLATE_BYTES = 5_000_000
-JOIN_TOLERANCE = 1.5  # units: a child may start this far from its parent's distal end
-# A declared length or diameter within this factor of the segment's nominal value is plausible
-# (own margin): it allows any adult variant yet catches millimetres written for centimetres.
-PLAUSIBLE_FACTOR = 3.0
-# Nominal reference diameters, mm. Lorbeer R et al., PLoS One 2018 (clinical-values.md): CIA 11.8,
-# EIA 10.3, proximal femoral 10.2, distal femoral 7.7, popliteal 6.9, AT 4.2, PT 3.8, peroneal 4.0.
-# From memory: distal aorta 16, internal iliac 6, profunda 6, TPT 5, pedal arteries 2.5.
-NOMINAL_DIAMETER_MM: Mapping[str, float] = MappingProxyType(
-    {
-        "AO": 16.0,
-        "CIA": 11.8,
-        "IIA": 6.0,
-        "EIA": 10.3,
-        "CFA": 10.2,
-        "PFA": 6.0,
-        **dict.fromkeys(("SFA-P", "SFA-M", "SFA-D"), 7.7),
-        **dict.fromkeys(("POP-AK", "POP-BK"), 6.9),
-        "TPT": 5.0,
-        **dict.fromkeys(("ATA-P", "ATA-M", "ATA-D"), 4.2),
-        **dict.fromkeys(("PTA-P", "PTA-M", "PTA-D"), 3.8),
-        **dict.fromkeys(("PER-P", "PER-M", "PER-D"), 4.0),
-        "DPA": 2.5,
-        "PLA": 2.5,
-    }
-)
-# Named coverages: the subtrees (``AO`` or ``side:segment``) each stands for.
-COVERAGES: Mapping[str, tuple[str, ...]] = MappingProxyType(
-    {
-        "bilateral": ("AO",),
-        "bilateral-infrainguinal": ("right:CFA", "left:CFA"),
-        "right-infrainguinal": ("right:CFA",),
-        "left-infrainguinal": ("left:CFA",),
-    }
-)
-# On a one-leg map the lateral side is found from branches that lie lateral to a sibling
-# (clinical-values.md, "Anatomy for the map": profunda lateral; below the knee anterior tibial
-# most lateral, posterior tibial most medial, peroneal between): (lateral, medial) pairs compared
-# at the midpoint of each path.
-LATERAL_PAIRS: tuple[tuple[str, str], ...] = (
-    ("PFA", "SFA-P"),
-    ("ATA-M", "PER-M"),
-    ("PER-M", "PTA-M"),
-)
-
-_LAYERS = ("silhouette", "landmarks", "vessels")
-_CENTRE_LINES = frozenset({"path", "line", "polyline"})
-_OUTLINE_SHAPES = frozenset({"path", "line", "polyline", "polygon", "rect", "circle", "ellipse"})
-_SIDE_WORDS = MappingProxyType(
-    {
-        "right": "right",
-        "rt": "right",
-        "r": "right",
-        "left": "left",
-        "lt": "left",
-        "l": "left",
-    }
-)
-_NAMED = re.compile(
-    r"^(?:(?P<pre>right|left|rt|lt|r|l)[\s_.:-]+)?(?P<name>.+?)"
-    r"(?:[\s_.:-]+(?P<post>right|left|rt|lt|r|l))?$",
-    re.IGNORECASE,
-)
 
 
 @dataclass(frozen=True)
@@ -218,17 +170,6 @@ def is_shipped(name: str | Path) -> bool:
     return isinstance(name, str) and name in shipped_templates()
 
 
-def describe_coverage(coverage: str) -> str:
-    """Return a declared coverage in words, e.g. ``right leg from the CFA down``."""
-    if coverage == "bilateral":
-        return "aorta to both feet"
-    words = []
-    for root in COVERAGES.get(coverage, tuple(coverage.split())):
-        side, _, segment = root.partition(":")
-        words.append("the whole tree" if not segment else f"{side} leg from the {segment} down")
-    return "; ".join(words)
-
-
 def summary_line(template: Template) -> str:
     """Return the one-line verdict on a template that passed its checks."""
     n = len(template.silhouette)
@@ -287,242 +228,15 @@ def _parse_cached(
         data = fh.read(MAX_TEMPLATE_BYTES + 1)
     if len(data) > MAX_TEMPLATE_BYTES:
         return None, (_too_big(display, len(data)),)
-    reader = _Reader(display)
+    reader = MapReader(display)
     reader.feed(data)
     return _build(reader, display, Path(resolved).stem)
 
 
-# --------------------------------------------------------------------------- collecting the map
-
-
-@dataclass(frozen=True)
-class _RawVessel:
-    line: int | None
-    where: str
-    segment: str
-    side: str | None
-    d: str
-    transform: Affine
-    length: str | None
-    diameter: str | None
-
-
-@dataclass
-class _Reader(SvgReader):
-    """The safe reader, collecting vessels, outlines and the declared coverage on the way."""
-
-    vessels: list[_RawVessel] = field(default_factory=list)
-    silhouette: list[str] = field(default_factory=list)
-    landmarks: list[str] = field(default_factory=list)
-    coverage: tuple[str, int | None] | None = None  # data-coverage of the root, with its line
-    # Per open element: its layer ("silhouette", "landmarks", "vessels" or "") and data-side.
-    _scopes: list[tuple[str, str | None]] = field(default_factory=list)
-
-    def element(self, el: Element) -> None:
-        parent = self._scopes[-1] if self._scopes else None
-        if parent is None and "data-coverage" in el.plain:
-            self.coverage = (el.plain["data-coverage"], self.root_line)
-        tag, plain = el.tag, el.plain
-        group = parent[0] if parent else ""
-        label = el.attrs.get((INKSCAPE_NS, "label"), "") if tag == "g" else ""
-        for layer_name in (plain.get("id", ""), label):
-            if tag == "g" and layer_name.strip().lower() in _LAYERS:
-                group = layer_name.strip().lower()
-        side = parent[1] if parent else None
-        if "data-side" in plain and tag not in _CENTRE_LINES:
-            side = _side_word(plain["data-side"]) or side
-        self._scopes.append((group, side))
-        if el.uri == SVG_NS and tag in _OUTLINE_SHAPES | _CENTRE_LINES:
-            self.shape(tag, el.where, plain, el.attrs, el.transform, group, el.hidden, side)
-
-    def end_element(self) -> None:
-        self._scopes.pop()
-
-    def shape(
-        self,
-        tag: str,
-        where: str,
-        plain: dict[str, str],
-        attrs: AttributesNSImpl,
-        transform: Affine,
-        group: str,
-        hidden: bool,
-        side: str | None,
-    ) -> None:
-        named = _name(plain, attrs, side)
-        if named is None and group == "vessels" and tag in _CENTRE_LINES and not hidden:
-            self.problem(
-                where,
-                None,
-                "a vessel needs a segment id",
-                'add data-segment="..." and data-side="right|left"',
-            )
-        if group in ("silhouette", "landmarks") and named is None:
-            d = self.shape_d(tag, where, plain)
-            if d is not None and not hidden:
-                self.outline(group, where, d, transform)
-            return
-        if named is None:
-            return
-        segment, own_side, problems = named
-        for rule, value, hint in problems:
-            self.problem(where, value, rule, hint)
-        if segment is None or tag not in _CENTRE_LINES:
-            if segment is not None:
-                self.problem(where, None, "a vessel centre line must be a <path>")
-            return
-        if hidden:
-            self.problem(
-                where,
-                None,
-                f"is inside <{self.hidden_tag()}> and never drawn",
-                "move it into the vessels layer",
-            )
-            return
-        d = self.shape_d(tag, where, plain)
-        if d is not None:
-            self.vessels.append(
-                _RawVessel(
-                    self.line(),
-                    where,
-                    segment,
-                    own_side,
-                    d,
-                    transform,
-                    plain.get("data-length-cm"),
-                    plain.get("data-diameter-mm"),
-                )
-            )
-
-    def outline(self, group: str, where: str, d: str, transform: Affine) -> None:
-        try:
-            absolute = transform_path_d(d, transform)
-        except ValueError as exc:
-            self.problem(f"{where}.d", clip(d), str(exc))
-            return
-        (self.silhouette if group == "silhouette" else self.landmarks).append(absolute)
-
-
-def _side_word(text: str) -> str | None:
-    return _SIDE_WORDS.get(text.strip().lower())
-
-
-NameResult = tuple[str | None, str | None, list[tuple[str, str | None, str | None]]]
-
-
-def _name(
-    plain: dict[str, str], attrs: AttributesNSImpl, inherited: str | None
-) -> NameResult | None:
-    """Return (segment, side, problems) for a vessel, or None when the element names none."""
-    problems: list[tuple[str, str | None, str | None]] = []
-    if "data-segment" in plain:
-        raw = plain["data-segment"]
-        segment = anatomy.resolve(raw)
-        if segment is None:
-            guess = anatomy.suggest(raw)
-            problems.append(
-                ("is not a segment id", raw, f"did you mean {guess}?" if guess else None)
-            )
-        explicit = plain.get("data-side")
-        side = _side_word(explicit) if explicit is not None else inherited
-        if explicit is not None and side is None:
-            problems.append(("data-side must be right or left", explicit, None))
-        if segment is not None:
-            side = _check_side(segment, side, explicit is not None, problems)
-        return segment, side, problems
-    label = attrs.get((INKSCAPE_NS, "label")) if (INKSCAPE_NS, "label") in attrs else None
-    for text in (plain.get("id"), label):
-        if not text:
-            continue
-        m = _NAMED.match(text.strip())
-        segment = anatomy.resolve(m.group("name")) if m else None
-        if m is None or segment is None:
-            continue
-        word = m.group("pre") or m.group("post")
-        side = _side_word(word) if word else inherited
-        return segment, _check_side(segment, side, False, problems), problems
-    return None
-
-
-def _check_side(
-    segment: str,
-    side: str | None,
-    explicit: bool,
-    problems: list[tuple[str, str | None, str | None]],
-) -> str | None:
-    if segment in anatomy.UNPAIRED:
-        if explicit:
-            problems.append(
-                (f"{segment} is unpaired and takes no data-side", side, "remove data-side")
-            )
-        return None
-    if side is None:
-        problems.append(
-            (f"{segment} needs a side", None, 'add data-side="right" or data-side="left"')
-        )
-    return side
-
-
-# --------------------------------------------------------------------------- the contract
-
-
-def covered_keys(coverage: str) -> frozenset[str]:
-    """Return the vessel keys of a normalised coverage (``Template.coverage``)."""
-    keys: set[str] = set()
-    for root in COVERAGES.get(coverage, tuple(coverage.split())):
-        side, _, segment = root.partition(":")
-        keys |= _subtree(side or None, segment or side)
-    return frozenset(keys)
-
-
-def _subtree(side: str | None, segment: str) -> set[str]:
-    if segment in anatomy.UNPAIRED:
-        return {segment} | {
-            anatomy.vessel_key(s, seg)
-            for s in ("right", "left")
-            for seg in anatomy.SEGMENT_IDS
-            if seg not in anatomy.UNPAIRED
-        }
-    out, todo = set(), [segment]
-    while todo:
-        seg = todo.pop()
-        out.add(anatomy.vessel_key(side or "right", seg))
-        todo.extend(anatomy.CHILDREN[seg])
-    return out
-
-
-def normalise_coverage(raw: str) -> str:
-    """Return the canonical form of a ``data-coverage`` value; ValueError says what is wrong."""
-    text = raw.strip().lower()
-    if text in COVERAGES:
-        return text
-    roots: list[str] = []
-    for token in re.split(r"[\s,]+", raw.strip()):
-        side_word, colon, seg_word = token.rpartition(":")
-        segment = anatomy.resolve(seg_word) if token else None
-        side = _side_word(side_word) if colon else None
-        if segment is None or (colon and side is None):
-            raise ValueError(f"{token!r} is not a named coverage nor SIDE:SEGMENT")
-        if (segment in anatomy.UNPAIRED) == bool(colon):
-            raise ValueError(f"{token!r}: write AO alone and SIDE:SEGMENT for a leg's segment")
-        root = segment if segment in anatomy.UNPAIRED else f"{side}:{segment}"
-        roots.extend([root] if root not in roots else [])
-    joined = " ".join(roots)
-    for name in COVERAGES:
-        if covered_keys(name) == covered_keys(joined):
-            return name
-    return joined
-
-
-def _order(key: str) -> tuple[int, int]:
-    side, _, segment = key.rpartition("/")
-    return (("", "right", "left").index(side), anatomy.SEGMENT_IDS.index(segment))
-
-
-Add = Callable[..., None]
-
-
-def _build(reader: _Reader, display: str, name: str) -> tuple[Template | None, tuple[Problem, ...]]:
+def _build(
+    reader: MapReader, display: str, name: str
+) -> tuple[Template | None, tuple[Problem, ...]]:
+    """Return the Template read, or every breach of the contract found."""
     problems = list(reader.problems)
     if reader.fatal:
         return None, tuple(problems)
@@ -533,6 +247,28 @@ def _build(reader: _Reader, display: str, name: str) -> tuple[Template | None, t
         )
 
     coverage, covered = _coverage(reader, add)
+    found, declared = _collect(reader, coverage, covered, add)
+    _check_complete(reader, covered, declared, add)
+    check_joins(found, add)
+    check_sides(found, add)
+    if problems or reader.viewbox is None:
+        return None, tuple(problems)
+    return Template(
+        name,
+        display,
+        reader.viewbox,
+        MappingProxyType({key: found[key] for key in sorted(found, key=key_order)}),
+        tuple(reader.silhouette),
+        tuple(reader.landmarks),
+        coverage,
+        " ".join("".join(reader.title).split()),
+    ), ()
+
+
+def _collect(
+    reader: MapReader, coverage: str, covered: frozenset[str] | None, add: Add
+) -> tuple[dict[str, Vessel], set[str]]:
+    """Return the vessels read (by key) and every key declared, reporting strays and repeats."""
     found: dict[str, Vessel] = {}
     declared: set[str] = set()
     for raw in reader.vessels:
@@ -562,7 +298,14 @@ def _build(reader: _Reader, display: str, name: str) -> tuple[Template | None, t
         vessel = _vessel(raw, key, reader.viewbox, add)
         if vessel is not None:
             found[key] = vessel
-    expected = sorted(covered if covered is not None else (), key=_order)
+    return found, declared
+
+
+def _check_complete(
+    reader: MapReader, covered: frozenset[str] | None, declared: set[str], add: Add
+) -> None:
+    """Report a map with no vessels or outline, an undeclared partial map, missing vessels."""
+    expected = sorted(covered if covered is not None else (), key=key_order)
     if not reader.vessels:
         add(
             None,
@@ -579,7 +322,7 @@ def _build(reader: _Reader, display: str, name: str) -> tuple[Template | None, t
             "no body outline found",
             'draw the outline as paths inside <g id="silhouette">',
         )
-    suggested = _suggest_coverage(declared) if reader.coverage is None else None
+    suggested = suggest_coverage(declared) if reader.coverage is None else None
     if suggested is not None:
         add(
             reader.root_line,
@@ -601,37 +344,9 @@ def _build(reader: _Reader, display: str, name: str) -> tuple[Template | None, t
                 "is missing",
                 f"add a <path {attrs}> drawn from its parent's distal end",
             )
-    _check_joins(found, add)
-    _check_sides(found, add)
-    if problems or reader.viewbox is None:
-        return None, tuple(problems)
-    return Template(
-        name,
-        display,
-        reader.viewbox,
-        MappingProxyType({key: found[key] for key in sorted(found, key=_order)}),
-        tuple(reader.silhouette),
-        tuple(reader.landmarks),
-        coverage,
-        " ".join("".join(reader.title).split()),
-    ), ()
 
 
-def _suggest_coverage(declared: set[str]) -> str | None:
-    """Return the partial coverage the drawn vessels form exactly, if they form one."""
-    if not declared or declared == covered_keys("bilateral"):
-        return None
-    roots = []
-    for key in sorted(declared, key=_order):
-        side, _, seg = key.rpartition("/")
-        parent = anatomy.SEGMENTS[seg].parent
-        if parent is None or anatomy.vessel_key(side or "right", parent) not in declared:
-            roots.append(seg if not side else f"{side}:{seg}")
-    coverage = normalise_coverage(" ".join(roots))
-    return coverage if covered_keys(coverage) == declared else None
-
-
-def _coverage(reader: _Reader, add: Add) -> tuple[str, frozenset[str] | None]:
+def _coverage(reader: MapReader, add: Add) -> tuple[str, frozenset[str] | None]:
     """Return the normalised coverage and its vessel keys (None when it cannot be read)."""
     if reader.coverage is None:
         return "bilateral", covered_keys("bilateral")
@@ -652,7 +367,7 @@ def _coverage(reader: _Reader, add: Add) -> tuple[str, frozenset[str] | None]:
 
 
 def _vessel(
-    raw: _RawVessel, key: str, viewbox: tuple[float, float, float, float] | None, add: Add
+    raw: RawVessel, key: str, viewbox: tuple[float, float, float, float] | None, add: Add
 ) -> Vessel | None:
     try:
         geometry = PathGeometry.from_d(raw.d, raw.transform)
@@ -661,8 +376,8 @@ def _vessel(
         return None
     nominal_cm = anatomy.SEGMENTS[raw.segment].length_cm
     nominal_mm = NOMINAL_DIAMETER_MM[raw.segment]
-    length = _declared(raw.length, "data-length-cm", nominal_cm, "cm", raw, add)
-    diameter = _declared(raw.diameter, "data-diameter-mm", nominal_mm, "mm", raw, add)
+    length = declared_value(raw.length, "data-length-cm", nominal_cm, "cm", raw, add)
+    diameter = declared_value(raw.diameter, "data-diameter-mm", nominal_mm, "mm", raw, add)
     if viewbox is not None:
         x, y, w, h = viewbox
         x0, y0, x1, y1 = geometry.bounds()
@@ -678,127 +393,3 @@ def _vessel(
     return Vessel(
         key, raw.side, raw.segment, length or math.nan, diameter or math.nan, geometry, raw.line
     )
-
-
-def _declared(
-    raw: str | None, attr: str, nominal: float, unit: str, v: _RawVessel, add: Add
-) -> float | None:
-    """Return the declared value when it is plausible for the segment; report it otherwise."""
-    low, high = nominal / PLAUSIBLE_FACTOR, nominal * PLAUSIBLE_FACTOR
-    if raw is None:
-        add(
-            v.line,
-            f"{v.where}.{attr}",
-            None,
-            "is missing",
-            f"declare the segment's nominal {unit} in {attr}",
-        )
-        return None
-    try:
-        value = float(raw)
-    except ValueError:
-        value = math.nan
-    # A relative slack of 1e-9 keeps the printed bounds themselves inside (7.7 * 3 is 23.0999...).
-    if not (math.isfinite(value) and low * (1 - 1e-9) <= value <= high * (1 + 1e-9)):
-        add(
-            v.line,
-            f"{v.where}.{attr}",
-            repr(raw),
-            f"must be a number from {low:.3g} to {high:.3g} {unit} for {v.segment} (within a "
-            f"factor of {PLAUSIBLE_FACTOR:g} of its nominal {nominal:g} {unit})",
-            f"check the unit: {attr} is in {unit}",
-        )
-        return None
-    return value
-
-
-def _check_joins(found: dict[str, Vessel], add: Add) -> None:
-    for key, vessel in found.items():
-        parent_id = anatomy.SEGMENTS[vessel.segment].parent
-        if parent_id is None:
-            continue
-        parent = found.get(anatomy.vessel_key(vessel.side or "right", parent_id))
-        if parent is None:
-            continue  # the first vessel of a partial map, or a parent reported already
-        gap = math.dist(vessel.geometry.start, parent.geometry.end)
-        if gap <= JOIN_TOLERANCE:
-            continue
-        if math.dist(vessel.geometry.end, parent.geometry.end) <= JOIN_TOLERANCE:
-            hint = "it looks drawn distal to proximal: reverse its path"
-        elif math.dist(vessel.geometry.start, parent.geometry.start) <= JOIN_TOLERANCE:
-            hint = f"{parent.key} looks drawn distal to proximal: reverse its path"
-        else:
-            hint = f"move its first point onto the end of {parent.key}"
-        add(
-            vessel.line,
-            f"vessels.{key}",
-            f"gap={gap:.2f}",
-            f"must start within {JOIN_TOLERANCE:g} units of the distal end of {parent.key}",
-            hint,
-        )
-
-
-def _midline(found: dict[str, Vessel]) -> tuple[float, str] | None:
-    """Return the x between the legs and what gives it, or None on a one-leg map."""
-    if "AO" in found:
-        return found["AO"].geometry.end[0], "the aorta's x"
-    starts: dict[str, float] = {}
-    for key in sorted(found, key=_order):
-        side = found[key].side
-        if side is not None and side not in starts:
-            starts[side] = found[key].geometry.start[0]
-    if len(starts) < 2:
-        return None
-    return (starts["right"] + starts["left"]) / 2, "midway between the legs"
-
-
-def _check_sides(found: dict[str, Vessel], add: Add) -> None:
-    middle = _midline(found)
-    if middle is None:
-        _check_one_leg(found, add)
-        return
-    mid_x, basis = middle
-    for key, vessel in found.items():
-        if vessel.side is None:
-            continue
-        g = vessel.geometry
-        xs = (g.point_at(g.length() / 2)[0], g.end[0])
-        wrong = [x for x in xs if (x >= mid_x if vessel.side == "right" else x <= mid_x)]
-        if wrong:
-            viewer, sign = ("left", "<") if vessel.side == "right" else ("right", ">")
-            add(
-                vessel.line,
-                f"vessels.{key}",
-                f"x={wrong[-1]:.1f}",
-                f"must be {sign} {mid_x:.1f} ({basis}): a {vessel.side}-side vessel lies on "
-                f"the viewer's {viewer}",
-                "the patient's right is on the viewer's left; check data-side",
-            )
-
-
-def _check_one_leg(found: dict[str, Vessel], add: Add) -> None:
-    """On a one-leg map, the lateral branches must lie on the side data-side implies."""
-    for vessel in found.values():
-        side = vessel.side
-        if side is None:
-            continue
-        lateral = -1.0 if side == "right" else 1.0  # the right leg's lateral side: viewer's left
-        for outer, inner in LATERAL_PAIRS:
-            if vessel.segment != outer:
-                continue
-            other = found.get(anatomy.vessel_key(side, inner))
-            if other is None:
-                continue
-            g, h = vessel.geometry, other.geometry
-            x, y = g.point_at(g.length() / 2)[0], h.point_at(h.length() / 2)[0]
-            if lateral * x <= lateral * y:
-                viewer = "left" if side == "right" else "right"
-                add(
-                    vessel.line,
-                    f"vessels.{vessel.key}",
-                    f"x={x:.1f}",
-                    f"must lie on the viewer's {viewer} of {other.key} (x={y:.1f}): {outer} is "
-                    f"lateral to {inner}, and a {side} leg seen from the front has its lateral "
-                    f"side on the viewer's {viewer}",
-                    "the patient's right is on the viewer's left; check data-side",
-                )

@@ -229,24 +229,86 @@ class _Scanner:
         return (origin[0] + x, origin[1] + y)
 
 
+class _PathReader:
+    """The state of reading one path: the pen, the open subpath, the last control point."""
+
+    def __init__(self, d: str) -> None:
+        self.sc = _Scanner(d)
+        self.subpaths: list[SubpathData] = []
+        self.start: Point = (0.0, 0.0)
+        self.cur: Point = (0.0, 0.0)
+        self.pieces: list[Bezier] = []
+        self.closed = False
+        self.open_subpath = False
+        self.last_ctrl: Point | None = None  # reflected by S (cubic) or T (quadratic)
+        self.last_kind = ""
+
+    def flush(self) -> None:
+        if self.open_subpath:
+            self.subpaths.append(SubpathData(self.start, tuple(self.pieces), self.closed))
+        self.pieces, self.closed, self.open_subpath = [], False, False
+
+    def close(self) -> None:
+        if self.pieces and self.cur != self.start:
+            self.pieces.append((self.cur, self.start))
+        self.closed = True
+        self.cur = self.start
+        self.flush()
+        self.last_ctrl, self.last_kind = None, ""
+
+    def line_to(self, nxt: Point) -> None:
+        self.pieces.append((self.cur, nxt))
+        self.cur = nxt
+
+    def reflected(self, kind: str) -> Point:
+        """Return the last control point reflected through the pen (the pen if none of ``kind``)."""
+        if self.last_kind == kind and self.last_ctrl is not None:
+            return (2 * self.cur[0] - self.last_ctrl[0], 2 * self.cur[1] - self.last_ctrl[1])
+        return self.cur
+
+    def segment(self, cmd: str, first: bool) -> str:
+        """Read one set of arguments of ``cmd``; return the kind it draws (for S and T)."""
+        sc, upper = self.sc, cmd.upper()
+        origin = self.cur if cmd.islower() else (0.0, 0.0)
+        if upper == "M" and first:
+            self.flush()
+            self.cur = self.start = sc.point(cmd, origin)
+            self.open_subpath = True
+            return "M"
+        if upper in "ML":
+            self.line_to(sc.point(cmd, origin))
+            return "L"
+        if upper == "H":
+            self.line_to((sc.number(cmd) + (self.cur[0] if cmd.islower() else 0.0), self.cur[1]))
+            return "H"
+        if upper == "V":
+            self.line_to((self.cur[0], sc.number(cmd) + (self.cur[1] if cmd.islower() else 0.0)))
+            return "V"
+        if upper in "CS":
+            c1 = sc.point(cmd, origin) if upper == "C" else self.reflected("C")
+            c2 = sc.point(cmd, origin)
+            end = sc.point(cmd, origin)
+            self.pieces.append((self.cur, c1, c2, end))
+            self.cur, self.last_ctrl = end, c2
+            return "C"
+        if upper in "QT":
+            q = sc.point(cmd, origin) if upper == "Q" else self.reflected("Q")
+            end = sc.point(cmd, origin)
+            self.pieces.append(_quad_to_cubic(self.cur, q, end))
+            self.cur, self.last_ctrl = end, q
+            return "Q"
+        rx, ry, rotation = sc.number(cmd), sc.number(cmd), sc.number(cmd)
+        large, sweep = sc.flag(cmd), sc.flag(cmd)
+        end = sc.point(cmd, origin)
+        self.pieces.extend(_arc_to_cubics(self.cur, rx, ry, rotation, large, sweep, end))
+        self.cur = end
+        return "A"
+
+
 def read_path(d: str) -> tuple[SubpathData, ...]:
     """Read SVG path data into absolute subpaths; ValueError naming the offset on bad data."""
-    sc = _Scanner(d)
-    subpaths: list[SubpathData] = []
-    start: Point = (0.0, 0.0)
-    cur: Point = (0.0, 0.0)
-    pieces: list[Bezier] = []
-    closed = False
-    open_subpath = False
-    last_ctrl: Point | None = None  # reflected by S (cubic) or T (quadratic)
-    last_kind = ""
-
-    def flush() -> None:
-        nonlocal pieces, closed, open_subpath
-        if open_subpath:
-            subpaths.append(SubpathData(start, tuple(pieces), closed))
-        pieces, closed, open_subpath = [], False, False
-
+    r = _PathReader(d)
+    sc = r.sc
     if sc.at_end():
         raise ValueError("path data is empty")
     while not sc.at_end():
@@ -254,82 +316,23 @@ def read_path(d: str) -> tuple[SubpathData, ...]:
         if cmd not in _COMMANDS:
             raise ValueError(f"path data: expected a command letter {sc._where()}")
         sc.pos += 1
-        if not subpaths and not open_subpath and cmd not in "Mm":
+        if not r.subpaths and not r.open_subpath and cmd not in "Mm":
             raise ValueError(f"path data must start with M or m, not {cmd!r}")
-        upper = cmd.upper()
-        if upper == "Z":
-            if pieces and cur != start:
-                pieces.append((cur, start))
-            closed = True
-            cur = start
-            flush()
-            last_ctrl, last_kind = None, ""
+        if cmd.upper() == "Z":
+            r.close()
             continue
-        if closed is False and not open_subpath and upper != "M":
+        if r.closed is False and not r.open_subpath and cmd.upper() != "M":
             # Drawing after Z without M starts a new subpath at the closed subpath's start.
-            open_subpath = True
+            r.open_subpath = True
         first = True
         while first or sc.at_number():
-            origin = cur if cmd.islower() else (0.0, 0.0)
-            kind = upper
-            if upper == "M":
-                if first:
-                    flush()
-                    cur = start = sc.point(cmd, origin)
-                    open_subpath = True
-                else:
-                    nxt = sc.point(cmd, origin)
-                    pieces.append((cur, nxt))
-                    cur = nxt
-                    kind = "L"
-            elif upper == "L":
-                nxt = sc.point(cmd, origin)
-                pieces.append((cur, nxt))
-                cur = nxt
-            elif upper == "H":
-                x = sc.number(cmd) + (cur[0] if cmd.islower() else 0.0)
-                pieces.append((cur, (x, cur[1])))
-                cur = (x, cur[1])
-            elif upper == "V":
-                y = sc.number(cmd) + (cur[1] if cmd.islower() else 0.0)
-                pieces.append((cur, (cur[0], y)))
-                cur = (cur[0], y)
-            elif upper in "CS":
-                if upper == "C":
-                    c1 = sc.point(cmd, origin)
-                elif last_kind == "C" and last_ctrl is not None:
-                    c1 = (2 * cur[0] - last_ctrl[0], 2 * cur[1] - last_ctrl[1])
-                else:
-                    c1 = cur
-                c2 = sc.point(cmd, origin)
-                end = sc.point(cmd, origin)
-                pieces.append((cur, c1, c2, end))
-                cur, last_ctrl, kind = end, c2, "C"
-            elif upper in "QT":
-                if upper == "Q":
-                    q = sc.point(cmd, origin)
-                elif last_kind == "Q" and last_ctrl is not None:
-                    q = (2 * cur[0] - last_ctrl[0], 2 * cur[1] - last_ctrl[1])
-                else:
-                    q = cur
-                end = sc.point(cmd, origin)
-                pieces.append(_quad_to_cubic(cur, q, end))
-                cur, last_ctrl, kind = end, q, "Q"
-            else:  # A
-                rx = sc.number(cmd)
-                ry = sc.number(cmd)
-                rotation = sc.number(cmd)
-                large = sc.flag(cmd)
-                sweep = sc.flag(cmd)
-                end = sc.point(cmd, origin)
-                pieces.extend(_arc_to_cubics(cur, rx, ry, rotation, large, sweep, end))
-                cur = end
+            kind = r.segment(cmd, first)
             if kind not in "CQ":
-                last_ctrl = None
-            last_kind = kind
+                r.last_ctrl = None
+            r.last_kind = kind
             first = False
-    flush()
-    return tuple(subpaths)
+    r.flush()
+    return tuple(r.subpaths)
 
 
 def _quad_to_cubic(p0: Point, q: Point, p3: Point) -> Bezier:

@@ -25,6 +25,7 @@ from diagram.drawing.template.pathdata import IDENTITY, Affine, parse_transform
 from diagram.errors import Problem
 
 if TYPE_CHECKING:
+    from xml.sax.handler import ContentHandler
     from xml.sax.xmlreader import AttributesNSImpl, Locator
 
 SVG_NS = "http://www.w3.org/2000/svg"
@@ -95,10 +96,43 @@ class SvgReader:
     def feed(self, data: bytes) -> None:
         """Read the whole document; bad or hostile input becomes problems, never an exception."""
         from xml.sax import SAXException, SAXParseException
-        from xml.sax.handler import ContentHandler
 
         from defusedxml import DefusedXmlException
         from defusedxml.expatreader import DefusedExpatParser
+
+        parser = DefusedExpatParser(
+            namespaceHandling=1, forbid_dtd=True, forbid_entities=True, forbid_external=True
+        )
+        parser.setContentHandler(self._handler())
+        from io import BytesIO
+        from xml.sax.xmlreader import InputSource
+
+        source = InputSource()
+        source.setByteStream(BytesIO(data))
+        try:
+            parser.parse(source)
+        except _TooLarge as exc:
+            self.fatal = True
+            self.problem(exc.where, exc.value, exc.rule, "simplify the artwork")
+        except DefusedXmlException:
+            self.fatal = True
+            self.problem(
+                "<!DOCTYPE>",
+                None,
+                "DTDs, entity declarations and external entities are refused",
+                "remove the <!DOCTYPE ...> declaration and any entities",
+            )
+        except SAXParseException as exc:
+            self.fatal = True
+            rule = f"is not well-formed XML: {exc.getMessage()}"
+            self.problems.append(Problem(self.file, exc.getLineNumber(), "xml", None, rule))
+        except SAXException as exc:
+            self.fatal = True
+            self.problem("xml", None, f"cannot be read as XML: {exc.getMessage()}")
+
+    def _handler(self) -> ContentHandler:
+        """Return the SAX handler that passes the parser's events to this reader."""
+        from xml.sax.handler import ContentHandler
 
         reader = self
 
@@ -133,35 +167,7 @@ class SvgReader:
                         "remove the processing instruction",
                     )
 
-        parser = DefusedExpatParser(
-            namespaceHandling=1, forbid_dtd=True, forbid_entities=True, forbid_external=True
-        )
-        parser.setContentHandler(Handler())
-        from io import BytesIO
-        from xml.sax.xmlreader import InputSource
-
-        source = InputSource()
-        source.setByteStream(BytesIO(data))
-        try:
-            parser.parse(source)
-        except _TooLarge as exc:
-            self.fatal = True
-            self.problem(exc.where, exc.value, exc.rule, "simplify the artwork")
-        except DefusedXmlException:
-            self.fatal = True
-            self.problem(
-                "<!DOCTYPE>",
-                None,
-                "DTDs, entity declarations and external entities are refused",
-                "remove the <!DOCTYPE ...> declaration and any entities",
-            )
-        except SAXParseException as exc:
-            self.fatal = True
-            rule = f"is not well-formed XML: {exc.getMessage()}"
-            self.problems.append(Problem(self.file, exc.getLineNumber(), "xml", None, rule))
-        except SAXException as exc:
-            self.fatal = True
-            self.problem("xml", None, f"cannot be read as XML: {exc.getMessage()}")
+        return Handler()
 
     def line(self) -> int | None:
         """Return the line the parser is on (None before the document starts)."""
