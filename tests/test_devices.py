@@ -166,3 +166,23 @@ def test_low_flow_label_is_bold_and_site_labels_are_not() -> None:
     assert texts["Low graft flow 44 cm/s"].weight == "bold"
     site = next(t for s, t in texts.items() if s.startswith("Graft prox. 62"))
     assert site.weight == "normal"
+
+
+def test_denser_graft_band_passes_the_greyscale_and_colour_vision_check() -> None:
+    # The highest-risk graft band shares the 75-99 look with graft high risk (SVS 2018 after
+    # Bandyk 1988 has four graft risks, the house has four disease looks): its denser texture
+    # must still read apart from every house band, printed in grey or seen with a CVD.
+    from diagram.design.stylecheck import check_style
+    from diagram.drawing.map.vessels import band_styles
+
+    a = assessed()
+    style = default_style()
+    looks = band_styles(a, style)
+    graft = [b for b in a.bands if b.kind == "graft" and b.look == "75-99"]
+    assert len(graft) == 2, [b.id for b in graft]  # high and highest risk
+    denser = looks[graft[1].id]
+    assert denser.spacing_pt < looks[graft[0].id].spacing_pt
+    report = check_style(replace(style, bands=(*style.bands, denser)))
+    assert report.problems == ()
+    grey = {s.band: s.grey_mean for s in report.swatches}
+    assert grey["occluded"] < grey[denser.id] < grey["75-99"]

@@ -250,7 +250,10 @@ def numbers(low: float, high: float, *, above_low: bool = False) -> st.SearchStr
 VELOCITY = numbers(0, 800)
 PEAK_VELOCITY = numbers(0, 800, above_low=True)  # a peak velocity of 0 is refused: no flow
 PRESSURE = numbers(0, 400)
-POSITIVE = numbers(0, 1e6, above_low=True)
+BRACHIAL = numbers(40, 300)  # plausible ranges: the schema's $comment gives each basis
+RATIO = numbers(0.1, 20)
+PRF_HZ = numbers(100, 50000)
+F0_MHZ = numbers(1, 20)
 DATES = st.dates().map(lambda d: d.isoformat()).filter(lambda s: len(s) == 10)
 
 
@@ -279,9 +282,9 @@ def samples(draw: st.DrawFn, bands: tuple[str, ...] = NATIVE_BANDS) -> dict[str,
             out["edv"] = draw(numbers(0, psv))
         for key, value in (
             ("proximal_psv", PEAK_VELOCITY),
-            ("vr", POSITIVE),
-            ("prf_hz", POSITIVE),
-            ("f0_mhz", POSITIVE),
+            ("vr", RATIO),
+            ("prf_hz", PRF_HZ),
+            ("f0_mhz", F0_MHZ),
         ):
             if draw(st.integers(0, 3)) == 0:
                 out[key] = draw(value)
@@ -391,8 +394,8 @@ def valid_studies(draw: st.DrawFn) -> dict[str, Any]:
     optional(draw, exam, "study_uid", st.from_regex(r"\A1\.2(\.(0|[1-9][0-9]{0,5})){1,6}\Z"))
     pressures: dict[str, Any] = {}
     brachial: dict[str, Any] = {}
-    optional(draw, brachial, "right", PRESSURE)
-    optional(draw, brachial, "left", PRESSURE)
+    optional(draw, brachial, "right", BRACHIAL)
+    optional(draw, brachial, "left", BRACHIAL)
     if brachial:
         pressures["brachial"] = brachial
     for side in ("right", "left"):

@@ -255,8 +255,11 @@ def one_segment(sample: str, segment: str = "CFA") -> str:
         ("angle: 90", None),
         ("angle: 90.5", "90.5 must be between 0 and 90 degrees."),
         ("angle: -1", "-1 must be between 0 and 90 degrees."),
-        ("vr: 0.01", None),
-        ("vr: 0", "0 must be greater than 0."),
+        ("vr: 0.1", None),
+        (
+            "vr: 0.09",
+            "0.09 is refused: a velocity ratio must be between 0.1 and 20 to be plausible.",
+        ),
         ("psv: true", "true must be a number."),
         ("occluded: 1", "1 must be true or false."),
     ],
@@ -649,3 +652,116 @@ def test_damaged_files_give_a_study_or_problems_never_a_traceback(
         for line in err.lines():
             assert line.startswith(f"{name}")
             assert "Demo, Ada" not in line and "D-0001" not in line
+
+
+# --- plausible ranges ----------------------------------------------------------------------------
+
+# Every number of the study file has a plausible range; its basis is the schema's $comment
+# (common practice, from memory, or geometry) and the table in DEVELOPERS.md.
+RANGES = [
+    # (where in a study file, low, high, low excluded, the rule's words)
+    ("vr", 0.1, 20, False, "a velocity ratio must be between 0.1 and 20"),
+    ("prf_hz", 100, 50000, False, "a pulse repetition frequency must be between 100 and 50000 Hz"),
+    ("f0_mhz", 1, 20, False, "a transmit frequency must be between 1 and 20 MHz"),
+    ("shift_hz", 0, 50000, True, "a Doppler shift must be above 0 and at most 50000 Hz"),
+]
+
+
+def _range_cases() -> list[tuple[str, float, str | None]]:
+    cases: list[tuple[str, float, str | None]] = []
+    for key, low, high, open_low, words in RANGES:
+        rule = f"is refused: {words} to be plausible."
+        step = 0.01
+        cases += [(key, low + step, None), (key, high, None), (key, high + step, rule)]
+        cases += [(key, low, rule if open_low else None), (key, low - step, rule)]
+    return cases
+
+
+def lit(value: float) -> str:
+    """Return a number as a study file writes it (no float noise, no exponent)."""
+    return f"{value:.6f}".rstrip("0").rstrip(".")
+
+
+@pytest.mark.parametrize(("key", "value", "rule"), _range_cases())
+def test_sample_numbers_outside_their_plausible_range_are_refused(
+    key: str, value: float, rule: str | None
+) -> None:
+    # a shift stands for the PSV: given with its frequency and angle, without a PSV
+    others = "f0_mhz: 20, angle: 0" if key == "shift_hz" else "psv: 100"
+    text = one_segment(f"{others}, {key}: {lit(value)}")
+    if rule is None:
+        load_study_text(text, "mem.yaml", ".yaml")
+        return
+    assert problems_text(text) == [
+        f"mem.yaml:5: limbs.right.segments.CFA.{key}: {lit(value)} {rule}"
+    ]
+
+
+@pytest.mark.parametrize(
+    ("value", "accepted"), [(39.9, False), (40, True), (300, True), (300.1, False)]
+)
+def test_brachial_pressure_range(value: float, accepted: bool) -> None:
+    # from memory: below 40 mmHg no outpatient exam is done; above 300 is beyond a cuff's use
+    text = f"format: 1\npressures:\n  brachial: {{right: {value:g}}}\n"
+    if accepted:
+        assert load_study_text(text, "p.yaml", ".yaml").pressures.brachial_right == value
+    else:
+        assert problems_text(text) == [
+            f"mem.yaml:3: pressures.brachial.right: {value:g} is refused: a brachial pressure "
+            "must be between 40 and 300 mmHg to be plausible."
+        ]
+
+
+def test_a_phone_number_as_prf_is_refused_by_check_and_draw(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    from diagram.cli.main import main
+
+    study = tmp_path / "s.yaml"
+    study.write_text(one_segment("psv: 100, prf_hz: 5551234567"), "utf-8")
+    line = (
+        f"{study}:5: limbs.right.segments.CFA.prf_hz: 5551234567 is refused: a pulse repetition "
+        "frequency must be between 100 and 50000 Hz to be plausible."
+    )
+    for args in (["check", str(study)], ["draw", str(study), "-o", str(tmp_path / "x.svg")]):
+        with pytest.raises(SystemExit) as done:
+            main(args)
+        assert (done.value.code, capsys.readouterr().err) == (2, line + "\n")
+    assert not (tmp_path / "x.svg").exists()
+
+
+def _numbers(node: object, where: str = "") -> list[tuple[str, dict[str, object]]]:
+    """Return every numeric property of the schema, its $refs resolved."""
+    from diagram.reading.checks import study_schema
+
+    schema = study_schema()
+
+    def resolve(n: dict[str, object]) -> dict[str, object]:
+        ref = n.get("$ref")
+        if isinstance(ref, str):
+            target = schema["$defs"][ref.rsplit("/", 1)[1]]
+            return {**resolve(target), **{k: v for k, v in n.items() if k != "$ref"}}
+        return n
+
+    out: list[tuple[str, dict[str, object]]] = []
+    if isinstance(node, dict):
+        node = resolve(node)
+        if node.get("type") in ("number", "integer"):
+            out.append((where, node))
+        for key, value in node.items():
+            if key != "$defs":
+                out += _numbers(value, f"{where}/{key}")
+    return out
+
+
+def test_every_number_in_the_schema_has_a_range_and_its_basis() -> None:
+    from diagram.reading.checks import study_schema
+
+    found = _numbers(study_schema())
+    assert len(found) >= 20
+    for where, node in found:
+        if where.endswith("/format"):
+            continue  # a version number, one value
+        assert "maximum" in node and ("minimum" in node or "exclusiveMinimum" in node), where
+        basis = str(node.get("$comment", ""))
+        assert any(b in basis for b in ("common practice", "from memory", "geometry")), where

@@ -17,21 +17,31 @@ import shutil
 import subprocess
 import sys
 import unicodedata
-from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import replace
 from pathlib import Path
+from typing import Any
 
 import click
 import pytest
+import yaml
 from teach_generator import fold, full_width, study, write_studies
+from teach_readers import output_text
 
 from diagram.cli.teach import FORMAT_CHOICES, teach
 from diagram.errors import DiagramError
 from diagram.output.results import results_document
 from diagram.pipeline import assess_study
 from diagram.reading.load import load_study
-from diagram.teaching.case import TEACH_FORMATS, age_text, deidentify, new_case_id, render_case
+from diagram.reading.study import Study
+from diagram.teaching.case import (
+    TEACH_FORMATS,
+    CaseSettings,
+    age_text,
+    deidentify,
+    new_case_id,
+    render_case,
+)
 from diagram.teaching.scrub import MARKER, Identifiers, age_at_exam, identifiers_of, scrub
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -53,62 +63,6 @@ def run(args: list[str], capsys: pytest.CaptureFixture[str]) -> tuple[int, str]:
             print(line, file=sys.stderr)
         code = exc.exit_code
     return code, capsys.readouterr().err
-
-
-def pdf_text(path: Path) -> str:
-    """Return the PDF's text as poppler lays it out, having checked its document information."""
-    cmd = ["pdftotext", "-layout", str(path), "-"]
-    text = subprocess.run(cmd, check=True, capture_output=True, text=True).stdout
-    info = subprocess.run(["pdfinfo", str(path)], check=True, capture_output=True, text=True)
-    for key in ("Producer", "Creator", "CreationDate", "ModDate", "Author", "Title"):
-        assert f"\n{key}:" not in "\n" + info.stdout, key
-    assert "Metadata Stream: no" in info.stdout
-    return text
-
-
-def dicom_text(path: Path, tmp: Path) -> str:
-    """Return every DICOM element's value as text (the encapsulated PDF through poppler)."""
-    from pydicom import dcmread
-
-    ds = dcmread(path)
-    assert ds.PatientIdentityRemoved == "YES"
-    assert ds.BurnedInAnnotation == "NO"
-    parts = []
-    for elem in [*ds.file_meta.iterall(), *ds.iterall()]:
-        if elem.VR in ("DA", "DT", "TM"):
-            assert not elem.value, elem.keyword  # every date and time empty
-        if elem.keyword == "EncapsulatedDocument":
-            pdf = tmp / f"{path.stem}-inner.pdf"
-            pdf.write_bytes(bytes(elem.value[: ds.EncapsulatedDocumentLength]))
-            parts.append(pdf_text(pdf))
-        elif elem.keyword == "CodeValue":  # PS3.16 CID 7050 codes, numbers by nature
-            assert elem.value in ("113100", "113108")
-        elif elem.VR == "UI":  # long digit runs by nature: none may be the source's (2.25.…)
-            assert not str(elem.value).startswith("2.25."), elem.keyword
-        elif elem.VR not in ("OB", "OW", "UN", "SQ", "UL", "US", "SL", "SS", "FL", "FD"):
-            parts.append(str(elem.value))
-    return "\n".join(parts)
-
-
-def png_text(path: Path) -> str:
-    """Return the PNG's ancillary chunks as text; only image chunks may be there."""
-    from PIL import Image
-
-    with Image.open(path) as im:
-        assert not getattr(im, "text", {}), "PNG text chunks"
-        assert set(im.info) <= {"dpi", "gamma", "srgb", "aspect"}, im.info
-        return json.dumps({k: str(v) for k, v in im.info.items()})
-
-
-def output_text(path: Path, tmp: Path) -> tuple[str, str]:
-    """Return an output's text and the part of it a reader sees (an SVG's text nodes)."""
-    kind = path.suffix
-    readers: dict[str, Callable[[Path], str]] = {".pdf": pdf_text, ".png": png_text}
-    readers[".dcm"] = lambda p: dicom_text(p, tmp)
-    text = readers[kind](path) if kind in readers else path.read_text("utf-8")  # SVG, YAML: raw
-    if kind == ".svg":  # colours such as #555555 are not numbers anyone reads
-        return text, "\n".join(re.findall(r">([^<]+)<", text))
-    return text, text
 
 
 # --- free text ----------------------------------------------------------------------------------
@@ -220,7 +174,7 @@ def test_clinical_content_unchanged_and_identifiers_gone(tmp_path: Path) -> None
         data, _ = study(n, seed=7)
         (tmp_path / f"s{n}.json").write_text(json.dumps(data), "utf-8")
         source = load_study(tmp_path / f"s{n}.json")
-        case = deidentify(source, new_case_id())
+        case = deidentify(source, new_case_id(), keep_text=True)
         before = results_document(assess_study(source), version="t", identified=False)
         after = results_document(assess_study(case.study), version="t", identified=False)
         assert before == after
@@ -278,7 +232,7 @@ def test_pdf_info_is_emptied_in_place(tmp_path: Path) -> None:
     from diagram.output.export import Drawing, render_bytes
     from diagram.teaching.clean import CleanError, strip_pdf_info
 
-    svg = render_case(load_study(EXAMPLE), new_case_id(), ("svg",)).files
+    svg = render_case(load_study(EXAMPLE), new_case_id(), CaseSettings(formats=("svg",))).files
     raw = render_bytes(Drawing(results={}, svg_pages=(next(iter(svg.values())).decode(),)), "pdf")
     assert b"/Producer" in raw and b"/CreationDate" in raw  # what cairo writes
     clean = strip_pdf_info(raw)
@@ -318,7 +272,9 @@ def test_dicom_follows_the_confidentiality_profile(tmp_path: Path) -> None:
 
     base = load_study(EXAMPLE)
     out = render_case(
-        replace(base, exam=replace(base.exam, study_uid="1.2.3.4")), "tc-bbbbb-ccccc", ("dcm",)
+        replace(base, exam=replace(base.exam, study_uid="1.2.3.4")),
+        "tc-bbbbb-ccccc",
+        CaseSettings(formats=("dcm",)),
     )
     assert out.clean, out.hits
     ds = dcmread(io.BytesIO(out.files["tc-bbbbb-ccccc.dcm"]))
@@ -339,7 +295,7 @@ def test_dicom_follows_the_confidentiality_profile(tmp_path: Path) -> None:
 def test_study_file_reloads_and_draws(tmp_path: Path) -> None:
     from diagram.pipeline import draw
 
-    out = render_case(load_study(EXAMPLE), "tc-ddddd-fffff", ("yaml",))
+    out = render_case(load_study(EXAMPLE), "tc-ddddd-fffff", CaseSettings(formats=("yaml",)))
     path = tmp_path / "tc-ddddd-fffff.yaml"
     path.write_bytes(out.files[path.name])
     again = load_study(path)
@@ -373,14 +329,41 @@ def test_link_file_only_when_asked_and_never_inside_the_output(
     assert sorted(p.suffix for p in out.iterdir()) == [".json", ".pdf", ".yaml"]
     assert not list(tmp_path.glob("**/*.tsv"))
     link = tmp_path / "link.tsv"
-    code, _ = run([str(EXAMPLE), "-o", str(out), "--link", str(link), "--no-year"], capsys)
+    args = [str(EXAMPLE), "-o", str(out), "--link", str(link), "--no-year", "--add"]
+    code, _ = run(args, capsys)
     rows = [r.split("\t") for r in link.read_text().splitlines()[1:]]
     assert code == 0 and len(rows) == 1 and rows[0][1] == str(EXAMPLE)
     assert "exam year" not in (out / f"{rows[0][0]}.yaml").read_text()
-    audit = json.loads((out / "audit.json").read_text())
-    assert [c["status"] for c in audit["cases"]] == ["written", "written"]  # both runs listed
-    code, err = run([str(EXAMPLE), "-o", str(out), "--link", str(link)], capsys)
+    code, err = run(args, capsys)
     assert code == 2 and "never overwritten" in err
+
+
+def test_a_folder_holding_a_teaching_set_is_refused_unless_added_to(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    out = tmp_path / "out"
+    assert run([str(EXAMPLE), "-o", str(out), "--quiet"], capsys)[0] == 0
+    before = sorted(p.name for p in out.iterdir())
+    code, err = run([str(EXAMPLE), "-o", str(out), "--quiet"], capsys)
+    assert code == 2 and "holds a teaching set already (1 cases in its audit.json)" in err
+    assert "--add" in err and sorted(p.name for p in out.iterdir()) == before  # untouched
+    code, _ = run([str(EXAMPLE), "-o", str(out), "--quiet", "--add", "--format", "svg"], capsys)
+    assert code == 0
+    audit = json.loads((out / "audit.json").read_text())
+    assert [r["run"] for r in audit["runs"]] == [1, 2]
+    assert [r["formats"] for r in audit["runs"]] == [["pdf", "yaml"], ["svg"]]
+    assert [(c["run"], c["status"]) for c in audit["cases"]] == [(1, "written"), (2, "written")]
+    listed = sorted(name for c in audit["cases"] for name in c["outputs"])
+    assert listed == sorted(p.name for p in out.glob("tc-*"))  # one consistent record
+    (out / "tc-bbbbb-bbbbb.pdf").write_bytes(b"%PDF")  # a file the audit does not list
+    code, err = run([str(EXAMPLE), "-o", str(out), "--quiet", "--add"], capsys)
+    assert code == 2 and "do not agree" in err
+    assert len(json.loads((out / "audit.json").read_text())["cases"]) == 2
+    stray = tmp_path / "stray"
+    stray.mkdir()
+    (stray / "tc-bbbbb-ccccc.yaml").write_text("x")
+    code, err = run([str(EXAMPLE), "-o", str(stray), "--quiet"], capsys)
+    assert code == 2 and "holds teaching case files but no audit.json" in err
 
 
 # --- fail closed ---------------------------------------------------------------------------------
@@ -396,10 +379,19 @@ def test_an_identifier_the_scrubber_misses_stops_that_case(
     spaced = "  ".join(" ".join(word) for word in (given, family))  # "A d a  D e m o"
     data["limbs"]["left"]["segments"]["TPT"]["comment"] = f"pt {spaced} ok"
     leaky.write_text(json.dumps(data), "utf-8")
+    withheld = tmp_path / "withheld"  # by default no free text travels: nothing to find
+    code, err = run([str(tmp_path / "in"), "-o", str(withheld), "--jobs", "2", "--quiet"], capsys)
+    assert code == 0 and "3 of 3 studies written" in err
+    for path in withheld.glob("*.yaml"):
+        text = path.read_text()
+        assert not re.search(r"^\s*(comment|notes|indication):", text, re.M)
+        assert "# free text (notes, indication, comments) withheld" in text
     out = tmp_path / "out"
-    code, err = run([str(tmp_path / "in"), "-o", str(out), "--jobs", "2", "--quiet"], capsys)
+    review = tmp_path / "review.txt"
+    args = ["--jobs", "2", "--quiet", "--keep-text", "--review", str(review)]
+    code, err = run([str(tmp_path / "in"), "-o", str(out), *args], capsys)
     assert code == 2
-    assert "input 2 (" in err and ": not written: name found in the yaml output." in err
+    assert "input 2: not written: name found in the yaml output." in err
     assert "2 of 3 studies written as teaching cases, 1 failed." in err
     assert what.found_in(err) == [] == planted[tmp_path / "in" / "study-0001.yaml"].found_in(err)
     audit = json.loads((out / "audit.json").read_text())["cases"]
@@ -408,21 +400,42 @@ def test_an_identifier_the_scrubber_misses_stops_that_case(
     assert {"category": "name", "output": "yaml"} in refused[0]["refused"]
     assert not list(out.glob(f"{refused[0]['case_id']}*"))  # nothing of it written
     assert len(list(out.glob("tc-*"))) == 4  # the two others, pdf and yaml each
+    # every kept text of the written cases, and nothing else, is in the review list
+    listed = review.read_text("utf-8").splitlines()
+    assert listed[-1].startswith("# Reviewed and released by:")
+    rows = [line.split("\t") for line in listed if not line.startswith("#")]
+    written = {c["case_id"] for c in audit if c["status"] == "written"}
+    assert {case for case, _, _ in rows} == written
+    for case in written:
+        kept = yaml.safe_load((out / f"{case}.yaml").read_text("utf-8"))
+        texts = [kept["notes"], kept["exam"]["indication"]]
+        for limb in kept["limbs"].values():
+            texts += [s["comment"] for s in limb["segments"].values() if "comment" in s]
+            texts += [les["comment"] for les in limb.get("lesions", []) if "comment" in les]
+        assert sorted(t for c, _, t in rows if c == case) == sorted(texts)
+    assert sum(c["free_text"]["kept_for_review"] for c in audit) == len(rows)
 
 
 def test_a_label_layout_leaks_is_caught_in_svg_and_pdf(
     tmp_path: Path, monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]
 ) -> None:
     import diagram.drawing.layout
+    import diagram.teaching.case
     from diagram.drawing.scene import Group, Text
 
-    real = diagram.drawing.layout.layout
+    real, deidentify_ = diagram.drawing.layout.layout, diagram.teaching.case.deidentify
 
-    def leaky_layout(*args: object, **kwargs: object) -> object:
-        scene = real(*args, **kwargs)  # type: ignore[arg-type]
-        label = Text("planted", 40, 40, "Testcase Morgan", 8)
+    def leaky_deidentify(study: Study, *args: Any, **kwargs: Any) -> Any:
+        case = deidentify_(study, *args, **kwargs)  # a defect: the name stays in the study
+        patient = replace(case.study.patient, name=study.patient.name)
+        return replace(case, study=replace(case.study, patient=patient))
+
+    def leaky_layout(assessment: Any, *args: Any, **kwargs: Any) -> Any:
+        scene = real(assessment, *args, **kwargs)  # and a label shows it
+        label = Text("planted", 40, 40, str(assessment.study.patient.name), 8)
         return replace(scene, items=(*scene.items, Group("planted-group", (label,))))
 
+    monkeypatch.setattr(diagram.teaching.case, "deidentify", leaky_deidentify)
     monkeypatch.setattr(diagram.drawing.layout, "layout", leaky_layout)
     named = tmp_path / "Testcase_Morgan_2026-11-20.yaml"  # a file named after the patient
     shutil.copy(EXAMPLE, named)
@@ -430,7 +443,7 @@ def test_a_label_layout_leaks_is_caught_in_svg_and_pdf(
     code, err = run([str(named), "-o", str(out), "--format", "svg", "--format", "pdf",
                      "--jobs", "1", "--quiet"], capsys)  # fmt: skip
     assert code == 2 and "testcase" not in err.lower() and "morgan" not in err.lower()
-    assert "2026-11-20" not in err and "_[removed]" in err  # the input named, scrubbed
+    assert "2026-11-20" not in err and "input 1: not written" in err  # named by its place
     assert "name found in the svg output." in err and "name found in the pdf output." in err
     assert not list(out.glob("tc-*"))
 
@@ -448,7 +461,7 @@ def test_metadata_left_in_a_pdf_is_caught(monkeypatch: pytest.MonkeyPatch) -> No
     import diagram.teaching.clean
 
     monkeypatch.setattr(diagram.teaching.clean, "strip_pdf_info", lambda pdf: pdf)
-    out = render_case(load_study(EXAMPLE), new_case_id(), ("pdf",))
+    out = render_case(load_study(EXAMPLE), new_case_id(), CaseSettings(formats=("pdf",)))
     assert {(str(h.category), h.output) for h in out.hits} >= {("document-metadata", "pdf")}
 
 
@@ -462,8 +475,8 @@ def test_two_hundred_studies_leave_no_identifier(
     planted = write_studies(tmp_path / "in", 200)
     few = tmp_path / "few.txt"
     few.write_text("\n".join(str(p) for p in list(planted)[:20]))
-    runs = [  # all 200 in the three main formats; 20 of them in every format
-        (tmp_path / "in", ["pdf", "svg", "yaml"], tmp_path / "out", tmp_path / "link.tsv"),
+    runs = [  # all 200 as the drawing and the study file; 20 of them in every format
+        (tmp_path / "in", ["svg", "yaml"], tmp_path / "out", tmp_path / "link.tsv"),
         (few, list(TEACH_FORMATS), tmp_path / "all", tmp_path / "link-all.tsv"),
     ]
     sources: dict[str, Path] = {}
@@ -496,3 +509,141 @@ def test_two_hundred_studies_leave_no_identifier(
         assert results_document(assess_study(load_study(again)), version="t", identified=False) == (
             results_document(assess_study(load_study(source)), version="t", identified=False)
         )
+
+
+# --- quiet messages -------------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    ("text", "expected"),
+    [
+        (  # an unknown key, an unknown segment, a phone number as a PRF
+            "format: 1\nMorgan: 1\nlimbs:\n  left:\n    segments:\n"
+            "      Testcase: {psv: 100}\n      CFA: {psv: 100, prf_hz: 5551234567}\n",
+            [
+                "input 1: line 2: (key): is not a known key.",
+                "input 1: line 6: limbs.left.segments.(key): is not a segment id or alias.",
+                "input 1: line 7: limbs.left.segments.CFA.prf_hz: is refused: a pulse repetition "
+                "frequency must be between 100 and 50000 Hz to be plausible.",
+            ],
+        ),
+        (  # an anchor named after the patient
+            "format: 1\nnotes: &Morgan Testcase\nexam: {indication: *Morgan}\n",
+            ["input 1: line 2: (file): uses a YAML anchor or alias …: "],
+        ),
+    ],
+)
+def test_teaching_messages_echo_no_value_of_the_study(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], text: str, expected: list[str]
+) -> None:
+    named = tmp_path / "Testcase_Morgan_1957-06-02.yaml"  # a file named after the patient
+    named.write_text(text, "utf-8")
+    code, err = run([str(named), "-o", str(tmp_path / "out"), "--quiet"], capsys)
+    assert code == 2
+    lines = err.splitlines()[:-1]  # the last: the count of cases written
+    assert len(lines) == len(expected)
+    assert all(line.startswith(start) for line, start in zip(lines, expected, strict=True))
+    for word in ("morgan", "testcase", "1957", "555"):
+        assert word not in err.lower()
+
+
+# --- the independent scan -------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    ("a", "b"),
+    [
+        ("Mueller", "Müller"),  # transliterations made equal
+        ("Soerensen", "Sørensen"),
+        ("Aase", "Åse"),
+        ("Page", "\u0420\u0430ge"),  # Cyrillic Er and A, looking like P and a
+        ("Page", "\uff30\uff41\uff47\uff45"),  # full-width letters
+        ("Ada", "A\u200bd\u200da"),  # zero-width space and joiner inside
+        ("Ivanova", "\u0418\u0432\u0430\u043d\u043e\u0432\u0430"),  # Cyrillic, transliterated
+    ],
+)
+def test_the_scan_reads_spellings_alike(a: str, b: str) -> None:
+    from diagram.teaching.plain import plain
+
+    assert plain(a) in plain(b).split()
+
+
+@pytest.mark.parametrize(
+    ("text", "category"),
+    [
+        ("seen 2026-W45-1", "date"),  # ISO 8601 week date
+        ("exame em 2 de novembro de 2026", "date"),
+        ("2026\u5e7411\u67082\u65e5", "date"),
+        ("review on 10/15", "date"),
+        ("Christmas Eve 2025", "date"),
+        ("born 04/51", "date"),
+        ("a ninety-two-year-old", "age-over-89"),  # 45 CFR 164.514(b)(2)(i)(C)
+        ("92F", "age-over-89"),
+        ("F/92", "age-over-89"),
+        ("92 anni", "age-over-89"),
+        ("born in 1934", "age-over-89"),  # exam year 2026: 92
+        ("call 555.014.2368", "phone"),
+        ("0171/555 0142", "phone"),
+        ("555\u2013014\u20132368", "phone"),
+        ("q.bart @ example.org", "e-mail"),
+        ("qbart at example dot org", "e-mail"),
+        ("https://records.example.net/p/77", "url"),
+        ("pacs7.harrowgate.org.uk", "url"),
+        ("10.20.30.40", "ip-address"),
+        ("ssn 123.45.6789", "long-number"),
+        ("record 4829130", "long-number"),
+        ("probe S/N LX93-004417", "id-code"),
+        ("plate KX19 ZPB", "id-code"),
+        ("Milbury MB4 7QT", "postcode"),
+        ("zip 90210-3321", "postcode"),
+        ("14 Rosebank Road", "place"),
+        ("51.5072, -0.1276", "place"),
+        ("Fenwick County", "place"),
+    ],
+)
+def test_the_scan_finds_each_kind_of_identifier(text: str, category: str) -> None:
+    from diagram.teaching.detect import cjk_dates, detect
+    from diagram.teaching.plain import ideographs, plain
+
+    found = {str(c) for c, _ in [*detect(plain(text), 2026), *cjk_dates(ideographs(text))]}
+    assert category in found
+
+
+@pytest.mark.parametrize(
+    "text",
+    [
+        "Left calf claudication at 100 m",
+        "PSV 385 cm/s, EDV 62, Vr 4.18, ABI 0.62 and TBI 0.45",
+        "Occlusion 6 cm, reconstitutes at POP-BK; 3/4 of the SFA",
+        "may 2 stents be needed; 50-74% band",
+        "pressures 142/136 and 120/118 mmHg, 120mmHg at the ankle",
+        "Polak 2004 et al; Jager 1985",
+        "20/20 vision, walks 200m",
+    ],
+)
+def test_the_scan_leaves_clinical_text_alone(text: str) -> None:
+    from diagram.teaching.detect import detect
+    from diagram.teaching.plain import plain
+
+    assert detect(plain(text), 2026) == []
+
+
+def test_the_sheet_says_free_text_was_withheld() -> None:
+    base = load_study(EXAMPLE)
+    out = render_case(base, "tc-bbbbb-ccccc", CaseSettings(formats=("svg", "yaml")))
+    svg = out.files["tc-bbbbb-ccccc.svg"].decode()
+    assert ">Free text<" in svg and ">withheld<" in svg
+    kept = render_case(base, "tc-bbbbb-ccccc", CaseSettings(formats=("svg",), keep_text=True))
+    assert ">kept, to be reviewed<" in kept.files["tc-bbbbb-ccccc.svg"].decode()
+    study_file = out.files["tc-bbbbb-ccccc.yaml"].decode()
+    assert "# free text (notes, indication, comments) withheld" in study_file
+    assert base.notes and fold(base.notes) not in fold(study_file)
+
+
+def test_an_input_argument_is_named_by_its_place(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    empty = tmp_path / "Testcase_Morgan"  # a folder named after the patient, with no study
+    empty.mkdir()
+    code, err = run([str(EXAMPLE), str(empty), "-o", str(tmp_path / "out")], capsys)
+    assert (code, err) == (2, "argument 2: (file): is a folder with no study files in it.\n")

@@ -336,11 +336,13 @@ def schema(results: bool) -> None:
 def _register() -> None:
     """Add the commands defined beside their stages (their heavy imports stay inside them)."""
     from diagram.cli.design import COMMANDS
+    from diagram.cli.edit import edit
     from diagram.cli.importing import import_report
     from diagram.cli.teach import teach
 
     cli.add_command(teach)
     cli.add_command(import_report)
+    cli.add_command(edit)
     for command in COMMANDS:
         cli.add_command(command)
 

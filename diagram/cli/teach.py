@@ -44,6 +44,23 @@ DEFAULT_FORMATS = ("pdf", "yaml")
 )
 @click.option("--no-year", is_flag=True, help="Leave the exam year off too (age is kept).")
 @click.option(
+    "--keep-text",
+    is_flag=True,
+    help="Keep the free text (notes, indication, comments), scrubbed and scanned, and list every "
+    "kept text in a review list for a person to sign off before release (withheld by default).",
+)
+@click.option(
+    "--review",
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="Where the review list of --keep-text goes (default: beside the output folder, "
+    "FOLDER-free-text-review.txt; never inside it).",
+)
+@click.option(
+    "--add",
+    is_flag=True,
+    help="Add these cases to a folder that holds a teaching set already (its audit is extended).",
+)
+@click.option(
     "--page",
     type=click.Choice(PAGE_NAMES),
     default="a4",
@@ -64,6 +81,9 @@ def teach(
     formats: tuple[str, ...],
     link: Path | None,
     no_year: bool,
+    keep_text: bool,
+    review: Path | None,
+    add: bool,
     page: str,
     template: Path | None,
     dpi: float | None,
@@ -73,25 +93,37 @@ def teach(
     """Export each STUDY (a file, a folder of files, or a .txt list of paths) as a teaching case.
 
     Names, ids, dates but the year, ages over 89, site and staff are removed, free text is
-    scrubbed, document metadata is stripped, and every output is scanned for the source's
-    identifiers before anything is written: a case with a hit is not written at all. An
-    audit.json in the output folder lists what kinds of identifier were removed per case.
+    withheld (or, with --keep-text, scrubbed and listed for review), document metadata is
+    stripped, and every output is scanned for the source's identifiers before anything is
+    written: a case with a hit is not written at all. An audit.json in the output folder lists
+    what kinds of identifier were removed per case. A folder that holds a teaching set already
+    is refused unless --add is given.
     """
+    from dataclasses import replace
+
     from diagram.batch.run import default_jobs, expand_inputs, show_progress
-    from diagram.errors import ExportError
-    from diagram.teaching.batch import (
-        TeachResult,
-        TeachSettings,
-        TeachTask,
-        check_link_target,
+    from diagram.errors import ExportError, InputError
+    from diagram.teaching.batch import TeachResult, TeachSettings, TeachTask, run_teach
+    from diagram.teaching.case import new_case_id
+    from diagram.teaching.records import (
+        check_apart,
+        default_review_list,
         read_audit,
-        run_teach,
         write_audit,
         write_link,
+        write_review_list,
     )
-    from diagram.teaching.case import new_case_id
 
-    paths = expand_inputs(inputs)
+    if review is not None and not keep_text:
+        raise click.UsageError("--review names the review list of --keep-text; give both.")
+
+    try:
+        paths = expand_inputs(inputs)
+    except InputError as exc:  # name an input by its place: a file name may name the patient
+        place = {str(p): k for k, p in enumerate(inputs, start=1)}
+        raise InputError(
+            [replace(p, file=f"argument {place.get(p.file, '?')}") for p in exc.problems]
+        ) from None
     inside = [p for p in paths if p.resolve().is_relative_to(output.resolve())]
     if inside:  # identified studies must not sit among the teaching files
         raise ExportError(
@@ -102,18 +134,22 @@ def teach(
         output.mkdir(parents=True, exist_ok=True)
     except OSError as exc:
         raise ExportError(f"{output}: cannot be made a folder: {exc.strerror}.") from None
+    earlier = read_audit(output, add=add)
     if link is not None:
-        check_link_target(link, output)
-    earlier = read_audit(output)
+        check_apart(link, output, "link file")
+    if keep_text:
+        review = review or default_review_list(output)
+        check_apart(review, output, "review list", append=add)
     settings = TeachSettings(
         out_dir=output,
         formats=tuple(dict.fromkeys(formats or DEFAULT_FORMATS)),
         keep_year=not no_year,
+        keep_text=keep_text,
         page=page,
         template=template,
         png_dpi=DEFAULT_DPI if dpi is None else dpi,
     )
-    taken = {str(c.get("case_id")) for c in earlier}
+    taken = {str(c.get("case_id")) for c in earlier["cases"]}
     taken.update(p.name.split(".")[0] for p in output.iterdir())
     tasks = []
     for n, path in enumerate(paths, start=1):
@@ -138,9 +174,20 @@ def teach(
             summary = run_teach(tasks, jobs=workers, on_result=tick)
     else:
         summary = run_teach(tasks, jobs=workers, on_result=report)
-    audit = write_audit(output, earlier, summary.results)
+    results = sorted(summary.results, key=lambda r: r.n)
+    run = {
+        "formats": list(settings.formats),
+        "exam_year": settings.keep_year,
+        "free_text": "kept for review" if keep_text else "withheld",
+        "review_list": review.name if review is not None else None,
+    }
+    audit = write_audit(output, earlier, run, [r.audit_entry() for r in results])
     if link is not None:
-        write_link(link, summary.results)
+        write_link(link, [(r.case_id, r.source) for r in results if r.ok])
+    if review is not None:
+        rows = [(r.case_id, where, text) for r in results if r.ok for where, text in r.texts]
+        write_review_list(review, output, len(earlier["runs"]) + 1, rows)
+        click.echo(f"Free text kept for review: {len(rows)} texts listed in {review}.", err=True)
     click.echo(f"{summary.line(len(tasks))} Audit: {audit}", err=True)
     if summary.interrupted:
         sys.exit(130)

@@ -73,7 +73,8 @@ class _Sheet:
         return block.draw(Box(self.x0, bottom - h, self.width, h)), bottom - h
 
 
-def _tables(assessment: Assessment, bands: Mapping[str, BandStyle]) -> list[Table]:
+def sheet_tables(assessment: Assessment, bands: Mapping[str, BandStyle]) -> list[Table]:
+    """Return the tables a full sheet carries: the planning summary, the change table."""
     out = []
     if assessment.planning:
         out.append(planning_table(assessment.planning, bands))
@@ -128,7 +129,7 @@ def _furniture(sheet: _Sheet, missing: Sequence[str]) -> _Body:
 def _place_tables(sheet: _Sheet, body: _Body, legend_h: float, strip_h: float) -> None:
     """Set the tables above the legend when the map keeps its share, else on further pages."""
     spec, style, width = sheet.spec, sheet.style, sheet.width
-    tables = _tables(sheet.assessment, sheet.bands) if spec.furniture else []
+    tables = sheet_tables(sheet.assessment, sheet.bands) if spec.furniture else []
     if not tables:
         return
     block = Tables(tables, style, sheet.bands)

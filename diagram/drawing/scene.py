@@ -281,6 +281,7 @@ class CaseHeader:
     year: int | None = None
     age: str | None = None  # whole years at the exam, or "90+"
     sex: str | None = None
+    free_text: str | None = None  # what became of the study's notes and comments: "withheld" …
 
 
 def _path_points(commands: tuple[PathCommand, ...]) -> list[Point]:

@@ -8,7 +8,7 @@ definitions in page units, which cairosvg and rsvg-convert both paint.
 from __future__ import annotations
 
 import re
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from typing import TYPE_CHECKING, Any
 
 from diagram.drawing.scene import (
@@ -30,6 +30,10 @@ from diagram.drawing.style import BandStyle, Hatch
 
 if TYPE_CHECKING:
     import svgwrite
+
+# Extra attributes for an item's element (for example ``data-segment`` on each drawn vessel, so
+# that a page can tell which segment was clicked); None or an empty mapping adds nothing.
+Annotate = Callable[[Item], Mapping[str, str] | None]
 
 # C0 controls (tab, newline, carriage return become spaces), DEL, lone surrogates and the two
 # non-characters XML 1.0 forbids.
@@ -118,14 +122,32 @@ def _shape(dwg: svgwrite.Drawing, item: Rect | Polygon, element_id: str) -> Any:
     return dwg.polygon(_points(item.points), id=element_id)
 
 
-def _elements(dwg: svgwrite.Drawing, item: Item, bands: Mapping[str, BandStyle]) -> list[Any]:
+def _elements(
+    dwg: svgwrite.Drawing,
+    item: Item,
+    bands: Mapping[str, BandStyle],
+    annotate: Annotate | None = None,
+) -> list[Any]:
     """Return the SVG elements of one item (a banded shape gives two)."""
+    out = _item_elements(dwg, item, bands, annotate)
+    extra = annotate(item) if annotate is not None else None
+    if extra:
+        out[-1].update(dict(sorted(extra.items())))
+    return out
+
+
+def _item_elements(
+    dwg: svgwrite.Drawing,
+    item: Item,
+    bands: Mapping[str, BandStyle],
+    annotate: Annotate | None,
+) -> list[Any]:
     if isinstance(item, Group):
         el = dwg.g(id=item.id)
         if item.role:
             el["class"] = item.role
         for child in item.items:
-            for sub in _elements(dwg, child, bands):
+            for sub in _elements(dwg, child, bands, annotate):
                 el.add(sub)
         return [el]
     if isinstance(item, Rect | Polygon):
@@ -178,8 +200,9 @@ def _text_chars(scene: Scene) -> tuple[set[str], set[str]]:
     return regular, bold
 
 
-def render_svg(scene: Scene) -> str:
-    """Return the SVG text of ``scene``, carrying the subset of the shipped font it uses."""
+def render_svg(scene: Scene, annotate: Annotate | None = None) -> str:
+    """Return the SVG text of ``scene``, carrying the subset of the shipped font it uses;
+    ``annotate`` may add attributes to items' elements."""
     import svgwrite
 
     from diagram.output.webfont import family_list, font_face_css
@@ -198,7 +221,7 @@ def render_svg(scene: Scene) -> str:
     sheet["font-family"] = family_list(scene.font_family)
     bands = {band.id: band for band in scene.bands}
     for item in scene.items:
-        for el in _elements(dwg, item, bands):
+        for el in _elements(dwg, item, bands, annotate):
             sheet.add(el)
     dwg.add(sheet)
     return '<?xml version="1.0" encoding="utf-8"?>\n' + str(dwg.tostring()) + "\n"

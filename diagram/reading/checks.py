@@ -73,6 +73,18 @@ _TYPE_RULES = {
     "array": "must be a list",
 }
 _LIMIT_LABELS = {"psv": "PSV", "edv": "EDV", "proximal_psv": "a proximal PSV"}
+# fields whose plausible range (the schema's minimum and maximum, each with its basis in the
+# schema's $comment) is stated in words: what the value is and its unit
+_RANGE_LABELS = {
+    "vr": ("a velocity ratio", ""),
+    "prf_hz": ("a pulse repetition frequency", " Hz"),
+    "f0_mhz": ("a transmit frequency", " MHz"),
+    "shift_hz": ("a Doppler shift", " Hz"),
+    "brachial": ("a brachial pressure", " mmHg"),
+    "from_cm": ("an offset", " cm"),
+    "length_cm": ("a length", " cm"),
+}
+_BOUNDS = ("minimum", "maximum", "exclusiveMinimum", "exclusiveMaximum")
 _PATIENT_KEYS = {f.name for f in dataclasses.fields(Patient)}
 _YAML_BOOLEAN_WORDS = {"yes", "no", "on", "off"}
 _PLAIN_DECIMAL = re.compile(r"[-+]?(0|[1-9][0-9]*)(\.[0-9]*)?([eE][-+]?[0-9]+)?|[-+]?\.[0-9]+")
@@ -116,6 +128,24 @@ def _close(word: str, choices: list[str]) -> str | None:
     folded = {c.lower(): c for c in choices}
     match = difflib.get_close_matches(word.lower(), list(folded), n=1, cutoff=0.6)
     return f"did you mean {folded[match[0]]}?" if match else None
+
+
+def _range_field(loc: Loc) -> str:
+    """Return the name a plausible range is known by: the key, or "brachial" for its sides."""
+    if loc[:2] == ("pressures", "brachial"):
+        return "brachial"
+    return str(loc[-1]) if loc else ""
+
+
+def _range_rule(name: str, schema: dict[str, Any]) -> str:
+    """Return the rule of a plausible range, from the schema's bounds."""
+    label, unit = _RANGE_LABELS[name]
+    high = _num(schema["maximum"])
+    if "exclusiveMinimum" in schema:
+        span = f"above {_num(schema['exclusiveMinimum'])} and at most {high}{unit}"
+    else:
+        span = f"between {_num(schema['minimum'])} and {high}{unit}"
+    return f"is refused: {label} must be {span} to be plausible."
 
 
 _SURROGATE = re.compile("[\ud800-\udfff]")
@@ -229,6 +259,8 @@ class Checker:
         elif kind in ("minimum", "maximum") and loc[-1:] == ("angle",):
             low, high = _num(schema["minimum"]), _num(schema["maximum"])
             rule = f"must be between {low} and {high} degrees."
+        elif kind in _BOUNDS and _range_field(loc) in _RANGE_LABELS:
+            rule = _range_rule(_range_field(loc), schema)
         elif kind == "minimum":
             limit = error.validator_value
             rule = "must not be negative." if limit == 0 else f"must be at least {_num(limit)}."

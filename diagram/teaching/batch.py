@@ -1,15 +1,16 @@
-"""Many teaching cases at once: worker processes, the audit file and the optional link file.
+"""Many teaching cases at once: worker processes and what each case reports back.
 
-Case ids are drawn here, in the parent, so that they are unique in the batch and in the output
-folder; each worker de-identifies, draws, scans and writes one study and returns a small status
-holding no identifier. The audit (``audit.json`` in the output folder) lists per case what kinds
-of identifier were removed and how many free-text scrubs were made, never a value. The link
-file (case id ➜ source file) is written only when asked for, and never into the output folder.
+Case ids are drawn in the parent (:mod:`diagram.cli.teach`), so that they are unique in the
+batch and in the output folder; each worker de-identifies, draws, scans and writes one study and
+returns a small status holding no identifier (:class:`TeachResult`), plus the free texts kept
+for review when they are kept. Messages are quiet: they name the input by its place in the batch
+and never echo a value of the study (not its file name, keys, anchors or segment names); the
+records (audit, link file, review list) are in :mod:`diagram.teaching.records`.
 """
 
 from __future__ import annotations
 
-import json
+import re
 import signal
 from collections.abc import Callable, Iterator
 from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
@@ -19,9 +20,6 @@ from typing import Any
 
 from diagram.errors import DiagramError
 
-AUDIT_NAME = "audit.json"
-AUDIT_FORMAT = 1
-
 
 @dataclass(frozen=True)
 class TeachSettings:
@@ -30,6 +28,7 @@ class TeachSettings:
     out_dir: Path
     formats: tuple[str, ...]
     keep_year: bool = True
+    keep_text: bool = False
     page: str = "a4"
     template: Path | None = None
     png_dpi: float = 150.0
@@ -57,6 +56,8 @@ class TeachResult:
     scrubs: tuple[tuple[str, int], ...] = ()
     refused: tuple[tuple[str, str], ...] = ()  # (category, output) the scan found
     errors: tuple[str, ...] = ()
+    texts: tuple[tuple[str, str], ...] = ()  # (field, text) kept for the review list
+    withheld: int = 0  # free texts withheld
 
     @property
     def ok(self) -> bool:
@@ -72,6 +73,7 @@ class TeachResult:
             "fields_removed": list(self.removed),
             "text_scrubs": dict(self.scrubs),
             "scrubs": sum(n for _, n in self.scrubs),
+            "free_text": {"withheld": self.withheld, "kept_for_review": len(self.texts)},
             "outputs": list(self.written),
             "refused": [{"category": c, "output": o} for c, o in self.refused],
         }
@@ -94,63 +96,100 @@ class TeachSummary:
         return head + "."
 
 
-def _label(task: TeachTask, study: object | None) -> str:
-    """Return how messages name the input: its path, scrubbed of the study's identifiers."""
-    from diagram.reading.study import Study
-    from diagram.teaching.scrub import identifiers_of, scrub
+_QUOTED = re.compile(r"'[^']*'|\"[^\"]*\"|\([&*!][^)]*\)")
+_SAFE_HINT = re.compile(r"did you mean [A-Za-z0-9 _-]+\?|[^'\"0-9&*!]*")
 
-    text = str(task.study)
-    if isinstance(study, Study):
-        text = scrub(text, identifiers_of(study))[0]
-    return f"input {task.n} ({text})"
+
+def _vocabulary() -> frozenset[str]:
+    """Return the words a field path may show: the schema's keys and the segment ids."""
+    from diagram import anatomy
+    from diagram.reading.checks import study_schema
+    from diagram.reading.study import GRAFT_SITES
+
+    keys: set[str] = set()
+
+    def walk(node: object) -> None:
+        if isinstance(node, dict):
+            keys.update(str(k) for k in node.get("properties", {}))
+            for value in node.values():
+                walk(value)
+        elif isinstance(node, list):
+            for value in node:
+                walk(value)
+
+    walk(study_schema())
+    return frozenset(keys | set(anatomy.SEGMENT_IDS) | set(GRAFT_SITES))
+
+
+def quiet_lines(n: int, exc: DiagramError) -> tuple[str, ...]:
+    """Return a tool error's lines as a teaching run prints them: no value of the study.
+
+    The input is named by its place in the batch, not its file name; a field path shows only
+    the study format's own keys and segment ids; quoted text, anchors and tags are left out
+    of the rule; a hint is kept only when it quotes nothing.
+    """
+    from diagram.errors import InputError
+
+    if not isinstance(exc, InputError):
+        return tuple(f"input {n}: {_QUOTED.sub('…', line)}" for line in exc.lines())
+    known = _vocabulary()
+    out = []
+    for p in exc.problems:
+        parts = re.split(r"(\.|\[\d+\])", p.field) if p.field else []
+        field = "".join(
+            x if not x or x == "." or x.startswith("[") or x in known else "(key)" for x in parts
+        )
+        where = f"input {n}" + (f": line {p.line}" if p.line is not None else "")
+        hint = f" ({p.hint})" if p.hint and _SAFE_HINT.fullmatch(p.hint) else ""
+        out.append(f"{where}: {field or '(file)'}: {_QUOTED.sub('…', p.rule)}{hint}")
+    return tuple(out)
 
 
 def teach_one(task: TeachTask) -> TeachResult:
     """Export one study as a teaching case into the output folder; never raises a tool error."""
     from diagram.reading.load import load_study
-    from diagram.teaching.case import render_case, write_case
+    from diagram.teaching.case import CaseSettings, render_case, write_case
     from diagram.teaching.clean import CleanError
 
     cfg = task.settings
     base = TeachResult(task.n, task.case_id, task.study)
-    study = None
     try:
         study = load_study(task.study)
         outputs = render_case(
             study,
             task.case_id,
-            cfg.formats,
-            keep_year=cfg.keep_year,
-            page=cfg.page,
-            template=cfg.template,
-            png_dpi=cfg.png_dpi,
+            CaseSettings(
+                formats=cfg.formats,
+                keep_year=cfg.keep_year,
+                keep_text=cfg.keep_text,
+                page=cfg.page,
+                template=cfg.template,
+                png_dpi=cfg.png_dpi,
+            ),
         )
         case = outputs.case
         base = replace(
             base,
             removed=tuple(str(c) for c in case.removed),
             scrubs=tuple((str(c), n) for c, n in case.scrubs.items()),
+            withheld=case.withheld,
         )
         if outputs.hits:
-            label = _label(task, study)
             return replace(
                 base,
                 refused=tuple((str(h.category), h.output) for h in outputs.hits),
                 errors=tuple(
-                    f"{label}: not written: {h.category} found in the {h.output} output."
+                    f"input {task.n}: not written: {h.category} found in the {h.output} output."
                     for h in outputs.hits
                 ),
             )
         written = write_case(outputs, cfg.out_dir)
-        return replace(base, written=tuple(p.name for p in written))
+        return replace(base, written=tuple(p.name for p in written), texts=case.texts)
     except CleanError as exc:
-        line = f"{_label(task, study)}: not written: the {exc.output} output: {exc.detail}."
+        line = f"input {task.n}: not written: the {exc.output} output: {exc.detail}."
         return replace(base, refused=((str(exc.category), exc.output),), errors=(line,))
     except DiagramError as exc:
-        if study is None:  # the loader's own messages (they never echo patient values)
-            return replace(base, errors=tuple(exc.lines()))
-        label = _label(task, study)
-        return replace(base, errors=tuple(f"{label}: {line}" for line in exc.lines()))
+        return replace(base, errors=quiet_lines(task.n, exc))
 
 
 def _worker_init() -> None:
@@ -203,64 +242,3 @@ def run_teach(
     except KeyboardInterrupt:
         summary.interrupted = True
     return summary
-
-
-def read_audit(out_dir: Path) -> list[dict[str, Any]]:
-    """Return the cases an earlier run listed in the folder's audit file (none if there is none)."""
-    from diagram.errors import ExportError
-
-    path = out_dir / AUDIT_NAME
-    if not path.exists():
-        return []
-    try:
-        doc = json.loads(path.read_text("utf-8"))
-    except (OSError, UnicodeDecodeError, json.JSONDecodeError):
-        doc = None
-    if not isinstance(doc, dict) or doc.get("audit_format") != AUDIT_FORMAT:
-        raise ExportError(f"{path}: is not a limbchart teaching audit file; not touching it.")
-    cases = doc.get("cases")
-    return [c for c in cases if isinstance(c, dict)] if isinstance(cases, list) else []
-
-
-def write_audit(out_dir: Path, earlier: list[dict[str, Any]], results: list[TeachResult]) -> Path:
-    """Write the audit file: the earlier runs' cases, then this run's in input order."""
-    from diagram._version import __version__
-    from diagram.output.export import write_atomic
-
-    doc = {
-        "audit_format": AUDIT_FORMAT,
-        "tool": f"limbchart {__version__}",
-        "note": "categories and counts only: no identifier, no source file, no date",
-        "cases": earlier + [r.audit_entry() for r in sorted(results, key=lambda r: r.n)],
-    }
-    path = out_dir / AUDIT_NAME
-    write_atomic(path, (json.dumps(doc, indent=2) + "\n").encode("utf-8"))
-    return path
-
-
-def check_link_target(link: Path, out_dir: Path) -> None:
-    """Refuse a link file inside the output folder (it would travel with the cases) or existing."""
-    from diagram.errors import ExportError
-
-    target, folder = link.resolve(), out_dir.resolve()
-    if target == folder or target.is_relative_to(folder):
-        raise ExportError(
-            f"{link}: the link file must not be inside the output folder {out_dir}: it would "
-            "travel with the teaching cases; keep it apart, inside the hospital."
-        )
-    if link.exists():
-        raise ExportError(f"{link}: exists; a link file is never overwritten, give a new name.")
-    if not link.parent.is_dir():
-        raise ExportError(f"{link}: the folder {link.parent} does not exist.")
-
-
-def write_link(link: Path, results: list[TeachResult]) -> Path:
-    """Write case id ➜ source file (tab-separated) for the cases written."""
-    from diagram.output.export import write_atomic
-
-    rows = ["# case id\tsource study file (keep this file apart from the teaching cases)"]
-    rows.extend(
-        f"{r.case_id}\t{r.source.resolve()}" for r in sorted(results, key=lambda r: r.n) if r.ok
-    )
-    write_atomic(link, ("\n".join(rows) + "\n").encode("utf-8"))
-    return link

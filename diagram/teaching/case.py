@@ -24,13 +24,13 @@ from collections import Counter
 from collections.abc import Mapping
 from dataclasses import dataclass, replace
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, TypeVar
 
 from diagram._version import __version__
 from diagram.drawing.scene import CaseHeader
 from diagram.errors import DiagramError, ExportError
-from diagram.reading.study import Graft, Lesion, Limb, Patient, Sample, SegmentFinding, Study
-from diagram.teaching.patterns import Category
+from diagram.reading.study import Limb, Patient, Sample, Study
+from diagram.teaching.categories import Category
 from diagram.teaching.scan import Hit, scan_outputs
 from diagram.teaching.scrub import Identifiers, age_at_exam, identifiers_of, scrub
 
@@ -64,6 +64,10 @@ def age_text(age: int | None) -> str | None:
     return "90+" if age >= 90 else str(age)
 
 
+FREE_TEXT_WITHHELD = "withheld"
+FREE_TEXT_KEPT = "kept, to be reviewed"
+
+
 @dataclass(frozen=True)
 class TeachCase:
     """A de-identified study and what was taken out of it (categories and counts, no values)."""
@@ -73,6 +77,8 @@ class TeachCase:
     header: CaseHeader
     removed: tuple[Category, ...]  # fields emptied or replaced
     scrubs: Mapping[Category, int]  # free-text replacements by category
+    texts: tuple[tuple[str, str], ...] = ()  # (field, scrubbed text) kept for the review list
+    withheld: int = 0  # free texts left out (the default)
 
     @property
     def scrub_count(self) -> int:
@@ -93,41 +99,71 @@ def _check_criteria(study: Study) -> None:
             )
 
 
-def deidentify(
-    study: Study, case_id: str, *, keep_year: bool = True, ids: Identifiers | None = None
-) -> TeachCase:
-    """Return the study with identifiers removed and free text scrubbed, as a teaching case."""
-    _check_criteria(study)
-    ids = ids or identifiers_of(study)
-    counts: Counter[Category] = Counter()
+_S = TypeVar("_S", bound=Sample)
 
-    def clean(text: str | None) -> str | None:
+
+class _FreeText:
+    """What becomes of each free text: withheld, or scrubbed and listed for review."""
+
+    def __init__(self, ids: Identifiers, keep: bool) -> None:
+        self.ids, self.keep = ids, keep
+        self.counts: Counter[Category] = Counter()
+        self.texts: list[tuple[str, str]] = []
+        self.withheld = 0
+
+    def __call__(self, text: str | None, where: str) -> str | None:
         if text is None:
             return None
-        out, found = scrub(text, ids)
-        counts.update(found)
+        if not self.keep:
+            self.withheld += 1
+            return None
+        out, found = scrub(text, self.ids)
+        self.counts.update(found)
+        self.texts.append((where, out))
         return out
 
-    def sample(s: Sample) -> Sample:
-        return s if s.comment is None else replace(s, comment=clean(s.comment))
+    def sample(self, s: _S, where: str) -> _S:
+        return s if s.comment is None else replace(s, comment=self(s.comment, f"{where}.comment"))
 
-    def segment(s: SegmentFinding) -> SegmentFinding:
-        return s if s.comment is None else replace(s, comment=clean(s.comment))
-
-    def lesion(s: Lesion) -> Lesion:
-        return s if s.comment is None else replace(s, comment=clean(s.comment))
-
-    def graft(g: Graft) -> Graft:
-        return replace(g, samples={site: sample(s) for site, s in g.samples.items()})
-
-    def limb(lb: Limb) -> Limb:
+    def limb(self, lb: Limb) -> Limb:
+        base = f"limbs.{lb.side.value}"
+        grafts = tuple(
+            replace(
+                g,
+                samples={
+                    site: self.sample(s, f"{base}.grafts[{i}].samples.{site}")
+                    for site, s in g.samples.items()
+                },
+            )
+            for i, g in enumerate(lb.grafts)
+        )
         return replace(
             lb,
-            segments={seg: segment(f) for seg, f in lb.segments.items()},
-            lesions=tuple(lesion(les) for les in lb.lesions),
-            grafts=tuple(graft(g) for g in lb.grafts),
+            segments={
+                seg: self.sample(f, f"{base}.segments.{seg}") for seg, f in lb.segments.items()
+            },
+            lesions=tuple(
+                self.sample(les, f"{base}.lesions[{i}]") for i, les in enumerate(lb.lesions)
+            ),
+            grafts=grafts,
         )
 
+
+def deidentify(
+    study: Study,
+    case_id: str,
+    *,
+    keep_year: bool = True,
+    keep_text: bool = False,
+    ids: Identifiers | None = None,
+) -> TeachCase:
+    """Return the study with identifiers removed, as a teaching case.
+
+    Free text (indication, notes, comments) is withheld; with ``keep_text`` it is scrubbed and
+    kept, and every kept text is listed (``TeachCase.texts``) for a person to review.
+    """
+    _check_criteria(study)
+    text = _FreeText(ids or identifiers_of(study), keep_text)
     p, e = study.patient, study.exam
     removed = [
         cat
@@ -157,19 +193,25 @@ def deidentify(
             operator=None,
             referrer=None,
             study_uid=None,
-            indication=clean(e.indication),
+            indication=text(e.indication, "exam.indication"),
         ),
-        limbs={side: limb(lb) for side, lb in study.limbs.items()},
+        limbs={side: text.limb(lb) for side, lb in study.limbs.items()},
         prior=None,
-        notes=clean(study.notes),
+        notes=text(study.notes, "notes"),
     )
+    if text.withheld:
+        removed.append(Category.FREE_TEXT)
     header = CaseHeader(
         case_id=case_id,
         year=e.date.year if keep_year and e.date else None,
         age=age_text(age_at_exam(p.birth_date, e.date)),
         sex=p.sex,
+        free_text=FREE_TEXT_KEPT if keep_text else FREE_TEXT_WITHHELD,
     )
-    return TeachCase(case_id, clean_study, header, tuple(removed), dict(sorted(counts.items())))
+    scrubs = dict(sorted(text.counts.items()))
+    return TeachCase(
+        case_id, clean_study, header, tuple(removed), scrubs, tuple(text.texts), text.withheld
+    )
 
 
 def case_pages(
@@ -200,7 +242,8 @@ def _drawing(pages: tuple[str, ...]) -> Drawing:
 
 
 def _yaml_text(case: TeachCase) -> str:
-    from diagram.teaching.study_yaml import study_yaml
+    from diagram.teaching.casefile import teaching_data
+    from diagram.teaching.study_yaml import dump_study
 
     h = case.header
     facts = [f"teaching case {case.case_id}"]
@@ -208,11 +251,15 @@ def _yaml_text(case: TeachCase) -> str:
         facts.append(f"exam year {h.year}")
     if h.age is not None:
         facts.append(f"age at exam {h.age}")
+    kept = h.free_text == FREE_TEXT_KEPT
     lines = (
         "; ".join(facts),
         "identifiers removed by limbchart teach",
+        "free text (notes, indication, comments) scrubbed and kept: to be reviewed before release"
+        if kept
+        else "free text (notes, indication, comments) withheld",
     )
-    return study_yaml(case.study, comments=lines)
+    return dump_study(teaching_data(case.study, keep_text=kept), comments=lines)
 
 
 def _check_reload(case: TeachCase, text: str) -> None:
@@ -244,47 +291,83 @@ class CaseOutputs:
         return not self.hits
 
 
-def render_case(
-    study: Study,
-    case_id: str,
-    formats: tuple[str, ...] = DEFAULT_FORMATS,
-    *,
-    keep_year: bool = True,
-    page: str = "a4",
-    template: str | Path | None = None,
-    png_dpi: float = 150.0,
-) -> CaseOutputs:
-    """De-identify, draw and encode one study in every format asked for, then scan it all."""
+@dataclass(frozen=True)
+class CaseSettings:
+    """How every case of an export is made."""
+
+    formats: tuple[str, ...] = DEFAULT_FORMATS
+    keep_year: bool = True
+    keep_text: bool = False
+    page: str = "a4"
+    template: str | Path | None = None
+    png_dpi: float = 150.0
+
+
+def _encode(
+    case: TeachCase,
+    cfg: CaseSettings,
+    same_as: tuple[tuple[str, ...], dict[str, bytes]] | None = None,
+) -> tuple[tuple[str, ...], dict[str, bytes]]:
+    """Return the case's pages and its outputs by format.
+
+    ``same_as`` (pages, outputs) of another case: where this case's pages are the same SVG
+    text, its PDF, PNG and DICOM are the same bytes (each is made from the pages alone), so
+    they are taken from there instead of being rendered again.
+    """
     from diagram.output.export import ExportOptions, render_bytes
     from diagram.teaching.clean import clean_png, clean_svg, strip_pdf_info, teaching_dicom
 
-    unknown = [f for f in formats if f not in TEACH_FORMATS]
-    if unknown:
-        raise ValueError(f"not a teaching format: {', '.join(unknown)}")  # the CLI checks first
-    ids = identifiers_of(study)
-    case = deidentify(study, case_id, keep_year=keep_year, ids=ids)
     data: dict[str, bytes] = {}
-    if set(formats) - {"yaml"}:
-        drawing = _drawing(case_pages(case, page=page, template=template))
+    pages: tuple[str, ...] = ()
+    drawn = [f for f in cfg.formats if f != "yaml"]
+    if drawn:
+        pages = case_pages(case, page=cfg.page, template=cfg.template)
+    if same_as is not None and same_as[0] == pages:
+        data.update((f, same_as[1][f]) for f in drawn if f != "svg")
+    todo = [f for f in drawn if f not in data]
+    if todo:
+        drawing = _drawing(pages)
         pdf = b""
-        if {"pdf", "dcm"} & set(formats):
+        if {"pdf", "dcm"} & set(todo):
             pdf = strip_pdf_info(render_bytes(drawing, "pdf"))
-        for fmt in formats:
+        for fmt in todo:
             if fmt == "svg":  # several pages are stacked into one picture: allow-listed again
                 data[fmt] = clean_svg(render_bytes(drawing, "svg").decode("utf-8")).encode("utf-8")
             elif fmt == "pdf":
                 data[fmt] = pdf
             elif fmt == "png":
-                data[fmt] = clean_png(render_bytes(drawing, "png", ExportOptions(png_dpi=png_dpi)))
+                options = ExportOptions(png_dpi=cfg.png_dpi)
+                data[fmt] = clean_png(render_bytes(drawing, "png", options))
             elif fmt == "dcm":
-                data[fmt] = teaching_dicom(pdf, case_id, case.header.sex, version=__version__)
-    if "yaml" in formats:
+                data[fmt] = teaching_dicom(pdf, case.case_id, case.header.sex, version=__version__)
+    if "yaml" in cfg.formats:
         text = _yaml_text(case)
         _check_reload(case, text)
         data["yaml"] = text.encode("utf-8")
+    return pages, {f: data[f] for f in cfg.formats}
+
+
+def render_case(study: Study, case_id: str, cfg: CaseSettings | None = None) -> CaseOutputs:
+    """De-identify, draw and encode one study in every format asked for, then scan it all.
+
+    The same study with a dummy identity is drawn too, as the scan's baseline.
+    """
+    from diagram.teaching.casefile import dummy_identity
+    from diagram.teaching.evidence import needles_of
+
+    cfg = cfg or CaseSettings()
+    unknown = [f for f in cfg.formats if f not in TEACH_FORMATS]
+    if unknown:
+        raise ValueError(f"not a teaching format: {', '.join(unknown)}")  # the CLI checks first
+    case = deidentify(study, case_id, keep_year=cfg.keep_year, keep_text=cfg.keep_text)
+    pages, data = _encode(case, cfg)
+    needles = needles_of(study)
+    dummy_study = dummy_identity(study, frozenset(w for _, w in needles.words))
+    dummy = deidentify(dummy_study, case_id, keep_year=cfg.keep_year, keep_text=cfg.keep_text)
+    _, baseline = _encode(dummy, cfg, same_as=(pages, data))
     names = {fmt: f"{case_id}.{fmt}" for fmt in data}
-    hits = scan_outputs(data, names.values(), ids, source_uid=study.exam.study_uid)
-    return CaseOutputs(case, {names[f]: data[f] for f in formats}, hits)
+    hits = scan_outputs(data, baseline, names.values(), needles, source_uid=study.exam.study_uid)
+    return CaseOutputs(case, {names[f]: data[f] for f in cfg.formats}, hits)
 
 
 def write_case(outputs: CaseOutputs, out_dir: Path) -> tuple[Path, ...]:

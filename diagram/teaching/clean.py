@@ -16,7 +16,7 @@ from collections.abc import Mapping
 from xml.etree.ElementTree import Element, ParseError
 from xml.sax.saxutils import escape, quoteattr
 
-from diagram.teaching.patterns import Category
+from diagram.teaching.categories import Category
 
 _SVG_NS = "{http://www.w3.org/2000/svg}"
 _NUM = r"-?(?:\d+(?:\.\d*)?|\.\d+)(?:e-?\d+)?"

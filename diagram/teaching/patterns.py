@@ -13,30 +13,8 @@ import datetime as dt
 import re
 from collections.abc import Callable
 from dataclasses import dataclass
-from enum import StrEnum
 
-
-class Category(StrEnum):
-    """What kind of identifier was removed or found (the audit and messages name only this)."""
-
-    NAME = "name"
-    PATIENT_ID = "patient-id"
-    BIRTH_DATE = "birth-date"
-    EXAM_DATE = "exam-date"
-    ACCESSION = "accession"
-    SITE = "site"
-    OPERATOR = "operator"
-    REFERRER = "referrer"
-    STUDY_UID = "study-uid"
-    PRIOR = "prior-path"
-    DATE = "date"
-    PHONE = "phone"
-    EMAIL = "e-mail"
-    URL = "url"
-    IP_ADDRESS = "ip-address"
-    LONG_NUMBER = "long-number"
-    AGE = "age-over-89"
-    METADATA = "document-metadata"  # a metadata field or element a teaching output must not hold
+from diagram.teaching.categories import Category
 
 
 @dataclass(frozen=True)
@@ -45,7 +23,6 @@ class Rule:
 
     category: Category
     regex: re.Pattern[str]
-    scan: bool = True  # also looked for in outputs (False: removed from free text only)
     check: Callable[[re.Match[str]], bool] | None = None
 
 
@@ -199,18 +176,16 @@ GENERIC_RULES: tuple[Rule, ...] = (
     ),
 )
 
-# removed from free text, but not looked for in outputs (the sheet's own words would trip them)
+# further free-text rules: a month named alone, a short phone number after its label
 SCRUB_ONLY_RULES: tuple[Rule, ...] = (
     Rule(
         Category.DATE,
         re.compile(boundary("|".join(_MONTH_WORDS))),
-        scan=False,
     ),
     Rule(  # a telephone or fax number after its label, however short
         Category.PHONE,
         re.compile(
             boundary(r"tel|telephone|phone|fax|ph|mobile|cell") + r"\.?:?\s*\+?\d[\d ().\-]{4,}\d"
         ),
-        scan=False,
     ),
 )

@@ -1,25 +1,27 @@
 """The fail-closed scan: read every teaching output back and look for the source's identifiers.
 
-Each format is read the way a recipient would read it: the SVG's text and attributes, the PDF's
-extracted text and metadata (pypdf), the PNG's chunks, every DICOM element (pydicom) including
-the encapsulated PDF, the YAML's strings, and the file names. A hit names the category and the
-output only, never the value. Text is looked at line by line as well as whole, so that the
-letters of a name spread over one line ("A d a  D e m o") are found even where the scrubber,
-which works on words, let them through.
+Each format is read the way a recipient would read it: the SVG's text and attribute values,
+the PDF's extracted text and metadata (pypdf), the PNG's chunks, every DICOM element (pydicom)
+including the encapsulated PDF, the YAML's raw text and every string in it, and the file names.
+What is found is counted with :func:`diagram.teaching.evidence.evidence`, which shares no code
+with the scrubber. The same case is drawn a second time with a neutral dummy identity; a finding
+is evidence of a leak only where the real outputs hold it more often than the dummy's (the
+sheet's own words, legend, citations and markup are in both). Document metadata, a date element
+in the DICOM file and the source's Study Instance UID are refused outright. A hit names the
+category and the output only, never the value.
 """
 
 from __future__ import annotations
 
-import hashlib
 import io
 from collections.abc import Iterable, Iterator, Mapping
 from dataclasses import dataclass
 from typing import Any
 
 from diagram.errors import ExportError
+from diagram.teaching.categories import Category
 from diagram.teaching.clean import PNG_CHUNKS_KEPT, CleanError, png_chunks
-from diagram.teaching.patterns import Category
-from diagram.teaching.scrub import Identifiers, find
+from diagram.teaching.evidence import Needles, evidence
 
 # keys of a PDF Info dictionary or XMP packet: none may be left in a teaching PDF
 _PDF_METADATA_KEYS = (
@@ -38,7 +40,6 @@ _DICOM_TEXT_VRS = frozenset(
     ("AE", "AS", "CS", "DS", "IS", "LO", "LT", "PN", "SH", "ST", "UC", "UR", "UT")
 )
 _DICOM_DATE_VRS = frozenset(("DA", "DT", "TM"))
-_DICOM_CODES = frozenset(("CodeValue", "CodingSchemeDesignator"))  # coded terms, not free text
 
 
 @dataclass(frozen=True)
@@ -49,27 +50,45 @@ class Hit:
     output: str  # "svg", "pdf", "png", "dcm", "yaml" or "file name"
 
 
-def scan_svg(svg: bytes, ids: Identifiers) -> set[Category]:
-    """Return the categories found in an SVG's text, attribute values and markup."""
+@dataclass(frozen=True)
+class Reading:
+    """An output as a recipient reads it: its texts, and what is refused whatever it says."""
+
+    texts: tuple[str, ...]
+    refused: frozenset[Category] = frozenset()
+
+
+def read_svg(svg: bytes) -> Reading:
+    """Return the text of every text element and every attribute value of an SVG."""
     import defusedxml.ElementTree as DET
 
-    text = svg.decode("utf-8")
-    found = find(text, ids, markup=True)
-    if any(mark in text for mark in _SVG_LEFTOVERS):
-        found.add(Category.METADATA)
+    raw = svg.decode("utf-8", errors="replace")
+    refused = {Category.METADATA} if any(m in raw for m in _SVG_LEFTOVERS) else set()
     try:
         root = DET.fromstring(svg, forbid_dtd=True)
     except (ValueError, SyntaxError):  # ParseError is a SyntaxError
-        return found | {Category.METADATA}
-    words: list[str] = []
-    for el in root.iter():  # attribute values are in the raw text searched above
-        words.extend(part for part in (el.text, el.tail) if part and part.strip())
-    # one text element per line: names spread over one label are found, not across labels
-    return found | find("\n".join(words), ids)
+        return Reading((raw,), frozenset({Category.METADATA}))
+    texts: list[str] = []
+    for el in root.iter():
+        if el.tag.endswith("}text") or el.tag == "text":
+            texts.append("".join(el.itertext()))
+        texts.extend(str(v) for v in el.attrib.values())
+    return Reading(tuple(texts), frozenset(refused))
 
 
-def scan_pdf(pdf: bytes, ids: Identifiers) -> set[Category]:
-    """Return the categories found in a PDF's extracted text and any metadata left in it."""
+def _pdf_refusals(pdf: bytes) -> frozenset[Category]:
+    from pypdf import PdfReader
+
+    if any(key in pdf for key in _PDF_METADATA_KEYS):
+        return frozenset({Category.METADATA})
+    reader = PdfReader(io.BytesIO(pdf))
+    if reader.metadata or reader.xmp_metadata is not None:
+        return frozenset({Category.METADATA})
+    return frozenset()
+
+
+def read_pdf(pdf: bytes, *, text: bool = True) -> Reading:
+    """Return each page's extracted text (``text``); any document metadata is refused."""
     try:
         from pypdf import PdfReader
     except ImportError:  # no PDF is written unread
@@ -78,30 +97,23 @@ def scan_pdf(pdf: bytes, ids: Identifiers) -> set[Category]:
             "'pip install pypdf'."
         ) from None
 
-    found: set[Category] = set()
-    if any(key in pdf for key in _PDF_METADATA_KEYS):
-        found.add(Category.METADATA)
+    refused = _pdf_refusals(pdf)
+    if not text:
+        return Reading((), refused)
     reader = PdfReader(io.BytesIO(pdf))
-    if reader.metadata or reader.xmp_metadata is not None:
-        found.add(Category.METADATA)
-    for page in reader.pages:
-        # layout mode keeps words apart that plain extraction runs together ("duplexDemo")
-        found |= find(page.extract_text(extraction_mode="layout"), ids)
-    return found
+    # layout mode keeps words apart that plain extraction runs together ("duplexDemo")
+    texts = tuple(page.extract_text(extraction_mode="layout") for page in reader.pages)
+    return Reading(texts, refused)
 
 
-def scan_png(png: bytes, ids: Identifiers) -> set[Category]:
-    """Return METADATA when a PNG holds any chunk but image data (text, time, EXIF, ICC)."""
+def read_png(png: bytes) -> Reading:
+    """Refuse a PNG that holds any chunk but image data (text, time, EXIF, ICC)."""
     try:
         chunks = png_chunks(png)
     except CleanError:
-        return {Category.METADATA}
-    found: set[Category] = set()
-    for kind, data in chunks:
-        if kind not in PNG_CHUNKS_KEPT:
-            found.add(Category.METADATA)
-            found |= find(data.decode("latin-1"), ids)
-    return found
+        return Reading((), frozenset({Category.METADATA}))
+    extra = [data.decode("latin-1") for kind, data in chunks if kind not in PNG_CHUNKS_KEPT]
+    return Reading(tuple(extra), frozenset({Category.METADATA} if extra else ()))
 
 
 def _dicom_elements(ds: Any) -> Iterator[Any]:
@@ -109,42 +121,34 @@ def _dicom_elements(ds: Any) -> Iterator[Any]:
     yield from ds.iterall()
 
 
-def scan_dicom(
-    dcm: bytes,
-    ids: Identifiers,
-    *,
-    source_uid: str | None,
-    scanned_pdfs: Mapping[str, set[Category]],
-) -> set[Category]:
-    """Return the categories found in any DICOM element, the encapsulated PDF included.
+def read_dicom(dcm: bytes, *, source_uid: str | None, text: bool = True) -> Reading:
+    """Return every text element of a DICOM file and the encapsulated PDF's text.
 
-    ``scanned_pdfs`` maps the SHA-256 of PDFs already scanned to their result: an encapsulated
-    document identical to one of them need not be read twice.
+    Refused outright: any date or time with a value, and the source's Study Instance UID.
     """
     from pydicom import dcmread
 
-    found: set[Category] = set()
+    refused: set[Category] = set()
+    texts: list[str] = []
     ds = dcmread(io.BytesIO(dcm))
     for elem in _dicom_elements(ds):
         vr, value = elem.VR, elem.value
         if value is None or value == "" or vr == "SQ":
             continue
+        values = [str(v) for v in (value if isinstance(value, list | tuple) else [value])]
         if vr in _DICOM_DATE_VRS:
-            found.add(Category.DATE)  # every date and time of a teaching file is empty
-        elif vr == "UI" or elem.keyword in _DICOM_CODES:
-            uids = [str(v) for v in (value if isinstance(value, list | tuple) else [value])]
-            if source_uid and source_uid in uids:
-                found.add(Category.STUDY_UID)
-            found |= set().union(*(find(u, ids, markup=True) for u in uids))
+            refused.add(Category.DATE)  # every date and time of a teaching file is empty
+        elif vr == "UI":
+            if source_uid and source_uid in values:
+                refused.add(Category.STUDY_UID)
         elif elem.keyword == "EncapsulatedDocument":
             size = int(ds.get("EncapsulatedDocumentLength", len(value)))
-            doc = bytes(value[:size])
-            digest = hashlib.sha256(doc).hexdigest()
-            found |= scanned_pdfs[digest] if digest in scanned_pdfs else scan_pdf(doc, ids)
+            inner = read_pdf(bytes(value[:size]), text=text)
+            texts.extend(inner.texts)
+            refused |= inner.refused
         elif vr in _DICOM_TEXT_VRS:
-            values = value if isinstance(value, list | tuple) else [value]
-            found |= find("\n".join(str(v) for v in values), ids)
-    return found
+            texts.append("\n".join(values))
+    return Reading(tuple(texts), frozenset(refused))
 
 
 def _strings(node: object) -> Iterator[str]:
@@ -159,38 +163,55 @@ def _strings(node: object) -> Iterator[str]:
         yield node
 
 
-def scan_yaml(text: bytes, ids: Identifiers) -> set[Category]:
-    """Return the categories found in a study file: its raw text and every string in it."""
+def read_yaml(text: bytes) -> Reading:
+    """Return a study file's raw text, line by line, and every string in it."""
     import yaml
 
     raw = text.decode("utf-8")
-    found = find(raw, ids, markup=True)
-    comments = [line for line in raw.splitlines() if line.lstrip().startswith("#")]
-    strings = [s.replace("\n", " ") for s in _strings(yaml.safe_load(raw))]
-    return found | find("\n".join(comments + strings), ids)
+    return Reading((raw, *_strings(yaml.safe_load(raw))))
+
+
+def read_output(fmt: str, data: bytes, *, source_uid: str | None, text: bool = True) -> Reading:
+    """Read one output as a recipient would (``text``: also extract the text of PDFs)."""
+    if fmt == "svg":
+        return read_svg(data)
+    if fmt == "pdf":
+        return read_pdf(data, text=text)
+    if fmt == "png":
+        return read_png(data)
+    if fmt == "dcm":
+        return read_dicom(data, source_uid=source_uid, text=text)
+    if fmt == "yaml":
+        return read_yaml(data)
+    raise ValueError(f"no reader for the output format {fmt!r}")  # a bug, not bad input
 
 
 def scan_outputs(
-    outputs: Mapping[str, bytes], names: Iterable[str], ids: Identifiers, *, source_uid: str | None
+    real: Mapping[str, bytes],
+    dummy: Mapping[str, bytes],
+    names: Iterable[str],
+    needles: Needles,
+    *,
+    source_uid: str | None,
 ) -> tuple[Hit, ...]:
-    """Scan every output (keyed by format) and file name; return the hits, sorted."""
+    """Scan every output and file name against the dummy drawing's; return the hits, sorted.
+
+    ``dummy`` holds the same formats made from the study with a neutral identity: a finding
+    counts only where ``real`` holds it more often. An output whose bytes are the dummy's own
+    cannot hold more of anything, so only its refusals are read (no text extraction).
+    """
     hits: set[Hit] = set()
-    pdfs: dict[str, set[Category]] = {}
-    for fmt in sorted(outputs, key=lambda f: f == "dcm"):  # PDFs before the DICOM that holds one
-        data = outputs[fmt]
-        if fmt == "svg":
-            found = scan_svg(data, ids)
-        elif fmt == "pdf":
-            found = pdfs[hashlib.sha256(data).hexdigest()] = scan_pdf(data, ids)
-        elif fmt == "png":
-            found = scan_png(data, ids)
-        elif fmt == "dcm":
-            found = scan_dicom(data, ids, source_uid=source_uid, scanned_pdfs=pdfs)
-        elif fmt == "yaml":
-            found = scan_yaml(data, ids)
-        else:
-            raise ValueError(f"no scan for the output format {fmt!r}")  # a bug, not bad input
-        hits.update(Hit(cat, fmt) for cat in found)
-    for name in names:
-        hits.update(Hit(cat, "file name") for cat in find(name, ids))
+    for fmt, data in real.items():
+        other = dummy.get(fmt)
+        same = other == data
+        reading = read_output(fmt, data, source_uid=source_uid, text=not same)
+        hits.update(Hit(cat, fmt) for cat in reading.refused)
+        if same:
+            continue
+        found = evidence(reading.texts, needles)
+        if other is not None:
+            found -= evidence(read_output(fmt, other, source_uid=None).texts, needles)
+        hits.update(Hit(cat, fmt) for cat, _ in found)
+    for cat, _ in evidence(list(names), needles):
+        hits.add(Hit(cat, "file name"))
     return tuple(sorted(hits, key=lambda h: (h.output, h.category)))

@@ -1,4 +1,4 @@
-"""A study's identifiers in every form, removed from free text and looked for in any text.
+"""A study's identifiers in every form, removed from free text (kept only for review).
 
 Text is compared in a folded form: NFKC, casefolded, accents and invisible format characters
 (zero-width spaces, soft hyphens) dropped, a few letters transliterated (ø ➜ o). "Demo, Ada",
@@ -6,10 +6,8 @@ Text is compared in a folded form: NFKC, casefolded, accents and invisible forma
 all fold to the same letters. Matches are mapped back onto the original text, so what is not
 an identifier keeps its exact spelling.
 
-Two uses share the forms (:class:`Identifiers`): :func:`scrub` replaces them in free text with
-:data:`MARKER`; :func:`find` reports which categories occur in an output. ``find`` also looks
-for the letters of each identifier with everything else removed ("A d a  D-e-m-o"), which the
-word-level scrubber does not recognise: an output is refused rather than trusted.
+:func:`scrub` replaces them in free text with :data:`MARKER`. What the scrubber misses is the
+leak scan's to find (:mod:`diagram.teaching.scan`), which shares no code with this module.
 """
 
 from __future__ import annotations
@@ -23,11 +21,11 @@ from dataclasses import dataclass
 from functools import lru_cache
 
 from diagram.reading.study import Study
+from diagram.teaching.categories import Category
 from diagram.teaching.patterns import (
     GENERIC_RULES,
     MONTH_NUMBERS,
     SCRUB_ONLY_RULES,
-    Category,
     Rule,
     boundary,
 )
@@ -95,8 +93,6 @@ class Identifiers:
     """The identifiers of one study as search rules (values never leave this object)."""
 
     rules: tuple[Rule, ...]  # word-level forms, study-specific
-    compact_forms: tuple[tuple[Category, str], ...]  # letters and digits only, for find()
-    literals: tuple[tuple[Category, str], ...]  # folded values as written, for markup
     initials: tuple[str, ...]  # bare capital initials ("AD"), removed only beside a removal
 
 
@@ -108,8 +104,8 @@ def _words(text: str) -> list[str]:
     return re.findall(r"[^\W\d_]+", fold(text))
 
 
-def _person(name: str, category: Category) -> tuple[list[Rule], list[tuple[Category, str]]]:
-    """Return the rules for a person's name in any order, with initials, and its compact forms."""
+def _person(name: str, category: Category) -> list[Rule]:
+    """Return the rules for a person's name in any order, with initials."""
     family, _, given = name.partition(",") if "," in name else ("", "", name)
     ordered = _words(given) + _words(family)  # given names first
     words = [w for w in ordered if w not in _TITLES]
@@ -126,31 +122,21 @@ def _person(name: str, category: Category) -> tuple[list[Rule], list[tuple[Categ
         forms.add((letters[-1], letters[0]))
         dotted = "|".join(r"\.\s?".join(f) + r"\.?" for f in sorted(forms))
         rules.append(Rule(category, re.compile(boundary(f"(?:{dotted})"))))
-    compacts = []
-    for order in (tokens, tokens[-1:] + tokens[:-1], list(reversed(tokens))):
-        joined = "".join(order)
-        if len(order) >= 2 and len(joined) >= 6:
-            compacts.append((category, joined))
-    return rules, compacts
+    return rules
 
 
-def _code(value: str, category: Category) -> tuple[list[Rule], list[tuple[Category, str]]]:
+def _code(value: str, category: Category) -> list[Rule]:
     """Return the rules for an id, accession or UID with any punctuation or none."""
     core = compact(value)
     rules: list[Rule] = []
-    compacts: list[tuple[Category, str]] = []
     if len(core) >= 3:
         flexible = _ID_SEP.join(re.escape(c) for c in core)
         rules.append(Rule(category, re.compile(boundary(flexible))))
     digits = "".join(c for c in core if c.isdigit())
     if len(digits) >= 4 and digits != core:  # the number without its letters
         flexible = _ID_SEP.join(digits)
-        rules.append(Rule(category, re.compile(boundary(flexible)), scan=len(digits) >= 5))
-    if len(core) >= 5:
-        compacts.append((category, core))
-    if len(digits) >= 6 and digits != core:
-        compacts.append((category, digits))
-    return rules, compacts
+        rules.append(Rule(category, re.compile(boundary(flexible))))
+    return rules
 
 
 def _date(day: dt.date, category: Category) -> list[Rule]:
@@ -173,22 +159,20 @@ def _date(day: dt.date, category: Category) -> list[Rule]:
     rules = [Rule(category, re.compile(boundary(f"(?:{p})"))) for p in full]
     # the day and month in figures, without a year, as "14/03" or "3-14": free text only
     numeric = rf"0?{day.day}[/\-]0?{day.month}|0?{day.month}[/\-]0?{day.day}"
-    rules.append(Rule(category, re.compile(boundary(f"(?:{numeric})")), scan=False))
+    rules.append(Rule(category, re.compile(boundary(f"(?:{numeric})"))))
     return rules
 
 
-def _site(site: str) -> tuple[list[Rule], list[tuple[Category, str]]]:
+def _site(site: str) -> list[Rule]:
     words = _words(site) + [w for w in re.findall(r"\d+", fold(site))]
     if not words:
-        return [], []
+        return []
     rules = [Rule(Category.SITE, re.compile(boundary(_SEP.join(re.escape(w) for w in words))))]
     core = [w for w in words if w not in _GENERIC_SITE_WORDS and len(w) >= 3]
     if core and core != words:
-        distinctive = len(core) >= 2 or len(core[0]) >= 6
         pattern = boundary(_SEP.join(re.escape(w) for w in core))
-        rules.append(Rule(Category.SITE, re.compile(pattern), scan=distinctive))
-    joined = "".join(words)
-    return rules, [(Category.SITE, joined)] if len(joined) >= 8 else []
+        rules.append(Rule(Category.SITE, re.compile(pattern)))
+    return rules
 
 
 def age_at_exam(birth: dt.date | None, exam: dt.date | None) -> int | None:
@@ -202,35 +186,25 @@ def identifiers_of(study: Study) -> Identifiers:
     """Return the search rules for every identifier the study holds."""
     p, e = study.patient, study.exam
     rules: list[Rule] = []
-    compacts: list[tuple[Category, str]] = []
-    literals: list[tuple[Category, str]] = []
     initials: set[str] = set()
-
-    def add(found: tuple[list[Rule], list[tuple[Category, str]]], cat: Category, raw: str) -> None:
-        rules.extend(found[0])
-        compacts.extend(found[1])
-        literals.append((cat, fold(raw.strip())))
 
     for name, cat in ((p.name, Category.NAME), (e.operator, Category.OPERATOR)):
         if name and name.strip():
-            add(_person(name, cat), cat, name)
+            rules.extend(_person(name, cat))
             caps = [w[0].upper() for w in _words(name) if w not in _TITLES]
             if len(caps) >= 2:
                 initials.update(("".join(caps), "".join(reversed(caps))))
     if e.referrer and e.referrer.strip():
-        add(_person(e.referrer, Category.REFERRER), Category.REFERRER, e.referrer)
+        rules.extend(_person(e.referrer, Category.REFERRER))
     for code, cat in (
         (p.id, Category.PATIENT_ID),
         (e.accession, Category.ACCESSION),
         (e.study_uid, Category.STUDY_UID),
     ):
         if code and code.strip():
-            add(_code(code, cat), cat, code)
+            rules.extend(_code(code, cat))
     if e.site and e.site.strip():
-        add(_site(e.site), Category.SITE, e.site)
-    # a year of birth identifies only from 90 years on (45 CFR 164.514(b)(2)(i)(C)); below
-    # that it is removed from free text but not looked for in the outputs
-    old = (age_at_exam(p.birth_date, e.date) or 0) >= 90
+        rules.extend(_site(e.site))
     for day, cat, alone in (
         (p.birth_date, Category.BIRTH_DATE, True),
         (e.date, Category.EXAM_DATE, False),
@@ -238,27 +212,17 @@ def identifiers_of(study: Study) -> Identifiers:
         if day is not None:
             dated = _date(day, cat)
             if alone:
-                dated.append(Rule(cat, re.compile(boundary(str(day.year))), scan=old))
+                dated.append(Rule(cat, re.compile(boundary(str(day.year)))))
             rules.extend(dated)
-            compacts.extend((cat, form) for form in _compact_dates(day))
-    return Identifiers(
-        tuple(rules), tuple(dict.fromkeys(compacts)), tuple(literals), tuple(sorted(initials))
-    )
-
-
-def _compact_dates(day: dt.date) -> list[str]:
-    y, m, d = f"{day.year}", f"{day.month:02d}", f"{day.day:02d}"
-    return [y + m + d, d + m + y, m + d + y]
+    return Identifiers(tuple(rules), tuple(sorted(initials)))
 
 
 Span = tuple[int, int, Category]
 
 
-def _spans(folded: str, rules: Iterable[Rule], *, scan_only: bool) -> list[Span]:
+def _spans(folded: str, rules: Iterable[Rule]) -> list[Span]:
     out: list[Span] = []
     for rule in rules:
-        if scan_only and not rule.scan:
-            continue
         for m in rule.regex.finditer(folded):
             if m.end() > m.start() and (rule.check is None or rule.check(m)):
                 out.append((m.start(), m.end(), rule.category))
@@ -288,7 +252,7 @@ def scrub(text: str, ids: Identifiers) -> tuple[str, Counter[Category]]:
     counts: Counter[Category] = Counter()
     out: list[str] = []
     pos = 0
-    for start, end, cat in _merge(_spans(folded, rules, scan_only=False)):
+    for start, end, cat in _merge(_spans(folded, rules)):
         a, b = where[start], where[end - 1] + 1
         while b < len(text) and unicodedata.category(text[b]) in _DROP:
             b += 1  # a combining mark or invisible character left behind the match
@@ -316,28 +280,3 @@ def _initials_beside_removal(text: str, ids: Identifiers, counts: Counter[Catego
         return (m.group(1) or "") + MARKER
 
     return near.sub(replace, text)
-
-
-def find(text: str, ids: Identifiers, *, markup: bool = False) -> set[Category]:
-    """Return the categories of identifiers found in ``text`` (an output being checked).
-
-    Text is searched as a whole for every form and pattern, and line by line for each
-    identifier's letters with everything between them removed (give one label or value per
-    line). ``markup`` (raw file text, attribute values) looks only for the study's own values:
-    the general patterns would trip over the numbers of markup.
-    """
-    folded = fold(text)
-    found = {cat for _, _, cat in _spans(folded, ids.rules, scan_only=True)}
-    if markup:
-        found.update(
-            cat
-            for cat, lit in ids.literals
-            if len(lit) >= 3 and re.search(boundary(re.escape(lit)), folded)
-        )
-        return found
-    found.update(cat for _, _, cat in _spans(folded, GENERIC_RULES, scan_only=True))
-    if ids.compact_forms:
-        for line in folded.splitlines():
-            squeezed = "".join(c for c in line if c.isalnum())
-            found.update(cat for cat, form in ids.compact_forms if form in squeezed)
-    return found

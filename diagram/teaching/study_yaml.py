@@ -161,6 +161,11 @@ def study_data(study: Study) -> dict[str, Any]:
 
 def study_yaml(study: Study, *, comments: tuple[str, ...] = ()) -> str:
     """Return the study file text; ``comments`` open it as ``#`` lines."""
+    return dump_study(study_data(study), comments=comments)
+
+
+def dump_study(data: Mapping[str, Any], *, comments: tuple[str, ...] = ()) -> str:
+    """Return study file data (:func:`study_data`) as YAML text; ``comments`` open it."""
     import yaml
 
     def represent_float(dumper: yaml.SafeDumper, value: float) -> yaml.Node:
@@ -174,7 +179,7 @@ def study_yaml(study: Study, *, comments: tuple[str, ...] = ()) -> str:
 
     _Dumper.add_representer(float, represent_float)
     body = yaml.dump(
-        study_data(study),
+        dict(data),
         Dumper=_Dumper,
         sort_keys=False,
         allow_unicode=True,

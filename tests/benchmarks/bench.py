@@ -16,6 +16,12 @@ Sections:
           same SVG (target <= 0.6x); warm PDF per page (target <= 25 ms); a batch of 200 to
           PDF with both renderers at the same --jobs (target >= 4x the studies/s).
 
+  edit    the editor's change round trip over HTTP (request, validate, assess, layout, SVG,
+          response) against a running `limbchart edit`, per example: median and 95th
+          percentile of 200 changes; target p95 <= 150 ms for the busiest example. Beside it the
+          server's CPU time per change (from /proc: what a change costs, whatever else the
+          machine does) and the same preview made in-process, as a ratio.
+
 Not a test: nothing here asserts. Write the printed figures into DEVELOPERS.md.
 """
 
@@ -186,6 +192,98 @@ def batch() -> None:
     )
 
 
+def _edit_round_trips(path: Path, changes: int) -> tuple[list[float], float, float]:
+    """Time ``changes`` preview round trips of one study (s).
+
+    Return the round trips, the in-process median and the server's CPU seconds per change.
+    """
+    import http.client
+    import json
+    import shutil
+    import signal
+    from urllib.parse import urlsplit
+
+    from diagram.editor.study_edit import EditedStudy, preview
+    from diagram.reading.load import load_study
+    from diagram.teaching.study_yaml import study_data
+
+    with tempfile.TemporaryDirectory() as folder:
+        copy = Path(folder) / path.name
+        shutil.copy(path, copy)
+        for sibling in path.parent.glob("*.yaml"):  # a prior is named relative to its study
+            if not (Path(folder) / sibling.name).exists():
+                shutil.copy(sibling, Path(folder) / sibling.name)
+        process = subprocess.Popen(
+            [sys.executable, "-m", "diagram", "edit", str(copy), "--no-browser"],
+            stdout=subprocess.PIPE,
+            stderr=subprocess.DEVNULL,
+            text=True,
+        )
+        assert process.stdout is not None
+        url = urlsplit(process.stdout.readline().strip())
+        token = url.query.split("=", 1)[1]
+        study = load_study(copy)
+        doc = study_data(study)
+        limbs = doc.setdefault("limbs", {})
+        segments = limbs.setdefault("right", {}).setdefault("segments", {})
+        sample = segments.setdefault("SFA-M", {})
+        conn = http.client.HTTPConnection(url.hostname or "127.0.0.1", url.port, timeout=30)
+        headers = {"Content-Type": "application/json", "X-Limbchart-Token": token}
+        times = []
+        cpu = 0.0
+        try:
+            for k in range(changes + 5):  # the first five warm up
+                if k == 5:
+                    cpu = -_cpu_seconds(process.pid)
+                sample["psv"] = 80 + (k % 40) * 5  # every change moves the band or the label
+                body = json.dumps(doc)
+                t0 = time.perf_counter()
+                conn.request("POST", "/api/preview", body=body, headers=headers)
+                answer = conn.getresponse()
+                data = answer.read()
+                elapsed = time.perf_counter() - t0
+                assert answer.status == 200 and b'"svg"' in data, data[:200]
+                if k >= 5:
+                    times.append(elapsed)
+            cpu += _cpu_seconds(process.pid)
+        finally:
+            conn.close()
+            process.send_signal(signal.SIGINT)
+            process.wait(timeout=30)
+        edited = EditedStudy(copy, copy.parent)
+        in_process = best_of(lambda: preview(study, edited), repeat=15)
+    return times, in_process, cpu / changes
+
+
+def _cpu_seconds(pid: int) -> float:
+    """Return the CPU time (user + system) a process has used, from /proc."""
+    fields = Path(f"/proc/{pid}/stat").read_text().rsplit(")", 1)[1].split()
+    return (int(fields[11]) + int(fields[12])) / os.sysconf("SC_CLK_TCK")
+
+
+def edit() -> None:
+    changes = 200
+    print(f"editor change round trip over HTTP ({changes} changes per study, ms)")
+    print(
+        f"{'study':24} {'median':>7} {'p95':>7} {'max':>7} {'server cpu':>11} "
+        f"{'in-process':>11} {'http/in':>8}"
+    )
+    worst = ("", 0.0)
+    for path in sorted((ROOT / "examples").glob("*.yaml")):
+        times, in_process, cpu = _edit_round_trips(path, changes)
+        times.sort()
+        p95 = times[math.ceil(0.95 * len(times)) - 1]
+        median = statistics.median(times)
+        print(
+            f"{path.stem:24} {median * 1e3:7.1f} {p95 * 1e3:7.1f} {times[-1] * 1e3:7.1f} "
+            f"{cpu * 1e3:11.1f} {in_process * 1e3:11.1f} {median / in_process:7.2f}x"
+        )
+        if p95 > worst[1]:
+            worst = (path.stem, p95)
+    print(f"busiest: {worst[0]}, p95 {worst[1] * 1e3:.1f} ms (target <= 150 ms)")
+    print(f"load average while measured: {os.getloadavg()[0]:.1f} on {os.cpu_count()} CPUs")
+
+
 def _busiest() -> Path:
     """Return the example whose sheet holds the most characters of text."""
     from diagram.drawing.scene import Text
@@ -268,7 +366,14 @@ def cairo() -> None:
     )
 
 
-SECTIONS = {"stages": stages, "labels": labels, "cold": cold, "batch": batch, "cairo": cairo}
+SECTIONS = {
+    "stages": stages,
+    "labels": labels,
+    "cold": cold,
+    "batch": batch,
+    "cairo": cairo,
+    "edit": edit,
+}
 
 if __name__ == "__main__":
     wanted = sys.argv[1:] or list(SECTIONS)

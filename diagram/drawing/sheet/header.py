@@ -122,6 +122,7 @@ def _set(
             ("Year", None if case.year is None else str(case.year)),
             ("Age", case.age),
             ("Sex", case.sex),
+            ("Free text", case.free_text),
         )
         fields, y = _fields((row,), style, x0, x1, y)
         return _rule(items + fields, style, x0, x1, y)

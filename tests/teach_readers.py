@@ -1,0 +1,74 @@
+"""Outputs read back with tools nobody here wrote, for the teaching-export tests.
+
+poppler's pdftotext and pdfinfo and pypdf for PDFs, pydicom over every element for DICOM (the
+encapsulated PDF through poppler), Pillow for PNG chunks, the raw bytes for SVG and YAML.
+"""
+
+from __future__ import annotations
+
+import io
+import json
+import re
+import subprocess
+from collections.abc import Callable
+from pathlib import Path
+
+
+def pdf_text(path: Path) -> str:
+    """Return the PDF's text as poppler lays it out, having checked its document information."""
+    cmd = ["pdftotext", "-layout", str(path), "-"]
+    text = subprocess.run(cmd, check=True, capture_output=True, text=True).stdout
+    info = subprocess.run(["pdfinfo", str(path)], check=True, capture_output=True, text=True)
+    for key in ("Producer", "Creator", "CreationDate", "ModDate", "Author", "Title"):
+        assert f"\n{key}:" not in "\n" + info.stdout, key
+    assert "Metadata Stream: no" in info.stdout
+    from pypdf import PdfReader
+
+    reader = PdfReader(io.BytesIO(path.read_bytes()))
+    assert not reader.metadata and reader.xmp_metadata is None
+    return text + "\n" + "\n".join(page.extract_text() for page in reader.pages)
+
+
+def dicom_text(path: Path, tmp: Path) -> str:
+    """Return every DICOM element's value as text (the encapsulated PDF through poppler)."""
+    from pydicom import dcmread
+
+    ds = dcmread(path)
+    assert ds.PatientIdentityRemoved == "YES"
+    assert ds.BurnedInAnnotation == "NO"
+    parts = []
+    for elem in [*ds.file_meta.iterall(), *ds.iterall()]:
+        if elem.VR in ("DA", "DT", "TM"):
+            assert not elem.value, elem.keyword  # every date and time empty
+        if elem.keyword == "EncapsulatedDocument":
+            pdf = tmp / f"{path.stem}-inner.pdf"
+            pdf.write_bytes(bytes(elem.value[: ds.EncapsulatedDocumentLength]))
+            parts.append(pdf_text(pdf))
+        elif elem.keyword == "CodeValue":  # PS3.16 CID 7050 codes, numbers by nature
+            assert elem.value in ("113100", "113108")
+        elif elem.VR == "UI":  # long digit runs by nature: none may be the source's (2.25.…)
+            assert not str(elem.value).startswith("2.25."), elem.keyword
+        elif elem.VR not in ("OB", "OW", "UN", "SQ", "UL", "US", "SL", "SS", "FL", "FD"):
+            parts.append(str(elem.value))
+    return "\n".join(parts)
+
+
+def png_text(path: Path) -> str:
+    """Return the PNG's ancillary chunks as text; only image chunks may be there."""
+    from PIL import Image
+
+    with Image.open(path) as im:
+        assert not getattr(im, "text", {}), "PNG text chunks"
+        assert set(im.info) <= {"dpi", "gamma", "srgb", "aspect"}, im.info
+        return json.dumps({k: str(v) for k, v in im.info.items()})
+
+
+def output_text(path: Path, tmp: Path) -> tuple[str, str]:
+    """Return an output's text and the part of it a reader sees (an SVG's text nodes)."""
+    kind = path.suffix
+    readers: dict[str, Callable[[Path], str]] = {".pdf": pdf_text, ".png": png_text}
+    readers[".dcm"] = lambda p: dicom_text(p, tmp)
+    text = readers[kind](path) if kind in readers else path.read_text("utf-8")  # SVG, YAML: raw
+    if kind == ".svg":  # colours such as #555555 are not numbers anyone reads
+        return text, "\n".join(re.findall(r">([^<]+)<", text))
+    return text, text
