@@ -355,10 +355,17 @@ def test_preview_follows_a_change_of_psv(client: TestClient) -> None:
 
 
 def test_draw_output_without_hooks_is_unchanged(study_file: Path) -> None:
+    from diagram.output.svg import render_svg
     from diagram.pipeline import draw
 
-    svg = draw(load_study(study_file)).svg
+    drawing = draw(load_study(study_file))
+    assert drawing.scene is not None
+    svg = drawing.svg
     assert "data-segment" not in svg and "data-side" not in svg
+    # hooks only add attributes: take them out and the text is the draw command's, byte for byte
+    marked = render_svg(drawing.scene, annotate=lambda item: {"data-x": "1"})
+    assert marked != svg and marked.replace(' data-x="1"', "") == svg
+    assert render_svg(drawing.scene, annotate=lambda item: None) == svg
 
 
 @pytest.mark.parametrize("fmt", ["svg", "pdf", "png", "dcm", "json"])
