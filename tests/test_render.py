@@ -6,7 +6,6 @@ import io
 import itertools
 import shutil
 import subprocess
-import time
 import xml.etree.ElementTree as ET
 from pathlib import Path
 
@@ -319,18 +318,15 @@ def _ink_rows(image: Image.Image) -> tuple[int, int, int, int]:
     return bbox
 
 
-def test_busy_sheet_with_the_shipped_map_renders_quickly(tmp_path: Path) -> None:
-    """The crowded study on the shipped template: layout + render well inside interactive use."""
+def test_busy_sheet_with_the_shipped_map_keeps_labels_apart(tmp_path: Path) -> None:
+    """The crowded study on the shipped template (its time is in the stages benchmark)."""
     from diagram.drawing.template.mapfile import load_template
 
     shipped = load_template()
     a = crowded()
     render_svg(layout(a, shipped, version="x"))  # warm the font caches (metrics, embedded subset)
-    start = time.perf_counter()
     scene = layout(a, shipped, version="0.0.0")
     text = render_svg(scene)
-    elapsed = time.perf_counter() - start
-    assert elapsed < 0.5, elapsed  # DESIGN §8 asks for tens of milliseconds; generous for CI
     ET.fromstring(text.encode())
     for i, p in enumerate(scene.label_boxes):
         assert not p.box.intersects(scene.vessel_box), p.text

@@ -6,7 +6,6 @@ No domain logic lives here. Heavy libraries are imported by the commands that ne
 
 from __future__ import annotations
 
-import json
 import os
 import signal
 import sys
@@ -18,6 +17,9 @@ import click
 
 from diagram._version import __version__
 from diagram.caution import CAUTION
+from diagram.cli.design import COMMANDS as DESIGN_COMMANDS
+from diagram.cli.edit import edit
+from diagram.cli.importing import import_report
 from diagram.cli.options import (
     DEFAULT_DPI,
     criteria_option,
@@ -30,7 +32,7 @@ from diagram.cli.options import (
     target_option,
     template_option,
 )
-from diagram.errors import DiagramError
+from diagram.cli.teach import teach
 
 if TYPE_CHECKING:
     from diagram.batch.run import BatchSettings
@@ -39,20 +41,7 @@ if TYPE_CHECKING:
 FORMATS = ("svg", "pdf", "png", "dcm", "json")
 
 
-@click.group(
-    context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100},
-    epilog=CAUTION,
-)
-@click.version_option(__version__, prog_name="limbchart")
-def cli() -> None:
-    """Draw graded leg-artery maps from arterial duplex findings.
-
-    Reads a study file (YAML or JSON), computes velocity ratios and stenosis bands with a
-    published criteria set, and draws the bilateral map as SVG, PDF or PNG.
-    """
-
-
-@cli.command()
+@click.command()
 @click.argument("studies", nargs=-1, required=True, type=click.Path(path_type=Path))
 @click.option(
     "-o",
@@ -153,20 +142,14 @@ def draw(
         profile = load_lab_profile(lab)
     page = page or (profile.page if profile and profile.page else "a4")
     if single:
-        from diagram.pipeline import draw as draw_study
-        from diagram.reading.load import load_prior, load_study
+        from diagram.inputs import draw_inputs, load_inputs, load_template_for
+        from diagram.reading.load import load_study
 
         study = load_study(studies[0])
         _show_import_notes(study.import_notes)
-        earlier = load_prior(study, prior)
-        drawing = draw_study(
-            study,
-            page=page,
-            template=template,
-            criteria=criteria,
-            target=target,
-            prior=earlier,
-            lab=profile,
+        inputs = load_inputs(study, criteria=criteria, prior=prior)
+        drawing = draw_inputs(
+            inputs, load_template_for(template, profile), page=page, target=target, lab=profile
         )
         options = ExportOptions(png_dpi=png_dpi, renderer=renderer)
         written = export(drawing, Path(output), chosen[0], options, overwrite=overwrite)
@@ -269,7 +252,7 @@ def _draw_batch(
         sys.exit(summary.exit_status)
 
 
-@cli.command()
+@click.command()
 @click.argument("study", type=click.Path(dir_okay=False, path_type=Path))
 @click.option("--json", "as_json", is_flag=True, help="Print the results document as JSON.")
 @criteria_option
@@ -279,15 +262,15 @@ def check(
     study: Path, as_json: bool, criteria: str | None, target: str | None, prior: Path | None
 ) -> None:
     """Validate a STUDY file and print its computed grading."""
+    import json
+
+    from diagram.inputs import assess_file
     from diagram.output.results import results_document, results_table
-    from diagram.pipeline import assess_study
-    from diagram.reading.load import load_prior, load_study
+    from diagram.reading.load import load_study
 
     current = load_study(study)
     _show_import_notes(current.import_notes)
-    assessment = assess_study(
-        current, criteria=criteria, target=target, prior=load_prior(current, prior)
-    )
+    assessment = assess_file(current, criteria=criteria, target=target, prior=prior)
     if as_json:
         click.echo(json.dumps(results_document(assessment, version=__version__), indent=2))
     else:
@@ -295,7 +278,7 @@ def check(
         click.echo(f"\n{CAUTION}")
 
 
-@cli.group()
+@click.group()
 def criteria() -> None:
     """List and show criteria sets (shipped, or a lab's own file)."""
 
@@ -319,10 +302,12 @@ def criteria_show(name_or_path: str) -> None:
     click.echo(criteria_table(load_criteria(name_or_path)))
 
 
-@cli.command()
+@click.command()
 @click.option("--results", is_flag=True, help="Print the schema of the results document instead.")
 def schema(results: bool) -> None:
     """Print the JSON Schema of the study file (or of the results document)."""
+    import json
+
     if results:
         from diagram.output.results import results_schema
 
@@ -333,21 +318,19 @@ def schema(results: bool) -> None:
     click.echo(json.dumps(study_schema(), indent=2))
 
 
-def _register() -> None:
-    """Add the commands defined beside their stages (their heavy imports stay inside them)."""
-    from diagram.cli.design import COMMANDS
-    from diagram.cli.edit import edit
-    from diagram.cli.importing import import_report
-    from diagram.cli.teach import teach
+# Every command of the tool, registered here and nowhere else.
+@click.group(
+    commands=[draw, check, criteria, schema, teach, import_report, edit, *DESIGN_COMMANDS],
+    context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100},
+    epilog=CAUTION,
+)
+@click.version_option(__version__, prog_name="limbchart")
+def cli() -> None:
+    """Draw graded leg-artery maps from arterial duplex findings.
 
-    cli.add_command(teach)
-    cli.add_command(import_report)
-    cli.add_command(edit)
-    for command in COMMANDS:
-        cli.add_command(command)
-
-
-_register()
+    Reads a study file (YAML or JSON), computes velocity ratios and stenosis bands with a
+    published criteria set, and draws the bilateral map as SVG, PDF or PNG.
+    """
 
 
 class Interrupted(KeyboardInterrupt):
@@ -404,6 +387,17 @@ def _printable(line: str) -> str:
     return "".join(ch if ch.isprintable() else ascii(ch)[1:-1] for ch in line)
 
 
+def _tool_error(exc: Exception) -> int:
+    """Print a tool error one line per problem and return its exit status; re-raise a bug."""
+    from diagram.errors import DiagramError  # imported here: ``--help`` needs none of it
+
+    if not isinstance(exc, DiagramError):
+        raise exc
+    for line in exc.lines():
+        click.echo(_printable(line), err=True)
+    return exc.exit_code
+
+
 def main(args: list[str] | None = None, prog_name: str | None = None) -> None:
     """Run the command line; a tool error prints one line per problem and exits with status 2.
 
@@ -418,16 +412,14 @@ def main(args: list[str] | None = None, prog_name: str | None = None) -> None:
                     args=args, prog_name=prog_name or "limbchart", standalone_mode=False
                 )
                 code = result if isinstance(result, int) else 0
-            except DiagramError as exc:
-                for line in exc.lines():
-                    click.echo(_printable(line), err=True)
-                code = exc.exit_code
             except click.exceptions.Abort:  # Ctrl-C or SIGTERM inside a command
                 click.echo("interrupted", err=True)
                 code = 130
             except click.ClickException as exc:
                 exc.show()
                 code = exc.exit_code
+            except Exception as exc:
+                code = _tool_error(exc)
             except SystemExit as exc:  # a command's own status, e.g. a batch's summary
                 code = exc.code
         except KeyboardInterrupt:  # a stop signal while a message above was printed

@@ -20,7 +20,7 @@ import os
 import secrets
 import signal
 import threading
-from collections.abc import Callable, Iterator, Mapping
+from collections.abc import Callable, Iterator, Mapping, Sequence
 from dataclasses import dataclass
 from functools import cached_property
 from pathlib import Path
@@ -300,6 +300,28 @@ def write_atomic(path: Path, data: bytes, *, overwrite: bool = True) -> None:
         if owned is not None:
             with contextlib.suppress(OSError):  # gone already once renamed into place
                 os.unlink(owned)
+
+
+def write_all(files: Sequence[tuple[Path, bytes]], *, overwrite: bool = True) -> tuple[Path, ...]:
+    """Write every file atomically, in order; on any failure remove the ones written, then raise.
+
+    All the files or none: an error or an interrupt between two writes takes back those already
+    written, except files that existed before and were replaced under ``overwrite`` (they cannot
+    be brought back). Without ``overwrite`` each file is created exclusively (:func:`write_atomic`).
+    """
+    made: list[Path] = []
+    try:
+        for path, data in files:
+            existed = overwrite and os.path.lexists(path)
+            write_atomic(path, data, overwrite=overwrite)
+            if not existed:
+                made.append(path)
+    except BaseException:
+        for path in made:
+            with contextlib.suppress(OSError):
+                path.unlink()
+        raise
+    return tuple(path for path, _ in files)
 
 
 def exists_message(path: Path) -> str:
