@@ -143,8 +143,8 @@ def test_field_rules(tmp_path: Path, text: str, expected: str) -> None:
         ("angle_deg", ".nan", False),
         ("weight_pt", "0.09", False),
         ("weight_pt", "0.1", True),
-        ("weight_pt", "1.2", True),  # half of the 2.4 pt spacing of the 50-74 lines
-        ("weight_pt", "1.21", False),
+        ("weight_pt", "1.8", True),  # half of the 3.6 pt spacing of the 50-74 lines
+        ("weight_pt", "1.81", False),
     ],
 )
 def test_texture_bounds(tmp_path: Path, field: str, value: str, ok: bool) -> None:

@@ -211,6 +211,7 @@ def gallery_svg(
         pressure_regions=(),
     )
     outer = render_svg(panel).replace('id="sheet"', 'id="gallery-sheet"', 1)
+    outer = outer.replace('id="font-faces"', 'id="gallery-font-faces"', 1)
     # The specimen's own sheet, scaled to the room under the panel, as a nested <svg>.
     room_w, room_h = width - 2 * MARGIN_PT, height - PANEL_PT - MARGIN_PT
     scale = min(1.0, room_w / map_scene.width_pt, room_h / map_scene.height_pt)
