@@ -147,6 +147,7 @@ def test_answers_are_not_cached_and_carry_a_strict_policy(client: TestClient) ->
     assert answer.headers["referrer-policy"] == "no-referrer"
     assert "script-src 'self'" in answer.headers["content-security-policy"]
     assert "default-src 'none'" in answer.headers["content-security-policy"]
+    assert "script-src 'self';" in answer.headers["content-security-policy"]  # no inline script
 
 
 def test_the_page_carries_the_hooks_and_no_outside_address(client: TestClient) -> None:
