@@ -15,7 +15,6 @@ import json
 import re
 import shutil
 import subprocess
-import sys
 import unicodedata
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import replace
@@ -25,7 +24,7 @@ from typing import Any
 import pytest
 import yaml
 from teach_generator import fold, full_width, study, write_studies
-from teach_readers import output_text
+from teach_readers import needs_poppler, output_text, run
 
 from diagram.assess import assess
 from diagram.cli.teach import FORMAT_CHOICES, teach
@@ -47,21 +46,6 @@ ROOT = Path(__file__).resolve().parents[1]
 EXAMPLE = ROOT / "examples" / "claudicant-sfa.yaml"
 WIDE = {c: c + 0xFEE0 for c in range(0x21, 0x7F)}  # ASCII ➜ full width
 CASE_FILE = re.compile(r"tc-[a-z]{5}-[a-z]{5}\.(pdf|svg|png|dcm|yaml)")
-needs_poppler = pytest.mark.skipif(shutil.which("pdftotext") is None, reason="poppler-utils")
-
-
-def run(args: list[str], capsys: pytest.CaptureFixture[str]) -> tuple[int, str]:
-    """Run ``teach`` as ``limbchart teach`` does (a tool error: its lines, exit status 2)."""
-    try:
-        teach.main(args=args, prog_name="limbchart teach", standalone_mode=False)
-        code = 0
-    except SystemExit as done:
-        code = int(done.code or 0)
-    except DiagramError as exc:
-        for line in exc.lines():
-            print(line, file=sys.stderr)
-        code = exc.exit_code
-    return code, capsys.readouterr().err
 
 
 # --- free text ----------------------------------------------------------------------------------
