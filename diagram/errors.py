@@ -25,9 +25,14 @@ class Problem:
     value: str | None
     rule: str
     hint: str | None = None
+    at: str | None = None  # a place other than a line, e.g. a content item of a DICOM file
 
     def __str__(self) -> str:
-        where = f"{self.file}:{self.line}" if self.line is not None else self.file
+        where = self.file
+        if self.line is not None:
+            where = f"{self.file}:{self.line}"
+        elif self.at is not None:
+            where = f"{self.file}:{self.at}"
         value = f" {self.value}" if self.value is not None else ""
         hint = f" ({self.hint})" if self.hint else ""
         field = self.field or "(file)"

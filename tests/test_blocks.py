@@ -11,6 +11,7 @@ from pathlib import Path
 
 import pytest
 
+from diagram.assess import assess as assess_study
 from diagram.assess.results import Assessment
 from diagram.drawing.layout import sheet_tables
 from diagram.drawing.map.block import not_drawn
@@ -24,7 +25,6 @@ from diagram.drawing.sheet.pressure import PressureStrip
 from diagram.drawing.sheet.tableblock import Tables
 from diagram.drawing.style import default_style
 from diagram.drawing.template.mapfile import load_template
-from diagram.pipeline import assess_study
 from diagram.reading.load import load_prior, load_study
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"

@@ -252,3 +252,65 @@ def test_arc_to_cubics_follows_the_ellipse(
         p0 = p3
     nearest = min(((x - through[0]) ** 2 + (y - through[1]) ** 2) ** 0.5 for x, y in points)
     assert nearest < 0.01 * max(rx, ry, 1.0)
+
+
+# --------------------------------------------------------------- textures visible on screens
+
+MIN_SPREAD = 10.0  # standard deviation of grey levels inside a hatched swatch; a flat tint is ~0
+
+
+def _swatch_scene() -> tuple[Scene, list[tuple[str, float, float, float, float]]]:
+    """Return a small page holding only the legend's band swatches of the default style."""
+    from dataclasses import replace
+
+    from diagram.drawing.scene import Box, Rect
+
+    full = drawing("claudicant-sfa").scene
+    assert full is not None
+    legend = [i for i in full.walk() if isinstance(i, Rect) and i.id.startswith("legend-swatch")]
+    assert {r.band for r in legend} >= {"lt50", "50-74", "75-99"}
+    placed, boxes = [], []
+    for k, rect in enumerate(legend):
+        x, y = 10.0 + k * 40.0, 10.0
+        placed.append(replace(rect, x=x, y=y))
+        assert rect.band is not None
+        boxes.append((rect.band, x, y, rect.w, rect.h))
+    page = Box(0, 0, 20 + 40 * len(legend), 30)
+    scene = Scene("map", page.w, page.h, "mm", full.font_family, full.bands, tuple(placed),
+                  page, page, (), ())  # fmt: skip
+    return scene, boxes
+
+
+def _spread(image: Image.Image, box: tuple[float, float, float, float], k: float) -> float:
+    from PIL import ImageStat
+
+    x, y, w, h = box
+    inner = (round(x * k) + 2, round(y * k) + 2, round((x + w) * k) - 2, round((y + h) * k) - 2)
+    return float(ImageStat.Stat(image.crop(inner)).stddev[0])
+
+
+@pytest.mark.skipif(shutil.which("rsvg-convert") is None, reason="needs librsvg's rsvg-convert")
+@pytest.mark.parametrize("dpi", [72, 96])
+def test_every_hatched_band_keeps_its_texture_on_screen(dpi: int) -> None:
+    from diagram.drawing.style import Hatch
+    from diagram.output.svg import render_svg
+
+    scene, boxes = _swatch_scene()
+    svg = render_svg(scene)
+    sheet = Drawing(results={}, scene=scene)
+    rsvg = subprocess.run(
+        ["rsvg-convert", "-d", str(dpi), "-p", str(dpi), "-b", "white"],
+        input=svg.encode(), capture_output=True, check=True,
+    ).stdout  # fmt: skip
+    images = {
+        "rsvg-convert": rsvg,
+        "cairosvg": render_bytes(sheet, "png", ExportOptions(png_dpi=dpi, renderer="cairosvg")),
+        "cairo": render_bytes(sheet, "png", ExportOptions(png_dpi=dpi)),
+    }
+    hatched = {b.id for b in scene.bands if b.hatch not in (Hatch.NONE, Hatch.SOLID)}
+    for name, png in images.items():
+        image = Image.open(io.BytesIO(png)).convert("L")
+        for band, *box in boxes:
+            if band in hatched:
+                spread = _spread(image, (box[0], box[1], box[2], box[3]), dpi / 72)
+                assert spread >= MIN_SPREAD, (name, band, dpi, spread)

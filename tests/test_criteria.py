@@ -267,3 +267,12 @@ def test_a_key_given_twice_is_refused_not_overwritten() -> None:
     with pytest.raises(CriteriaError) as err:
         parse_criteria(text, "lab.yaml", "lab.yaml")
     assert str(err.value) == "lab.yaml:4: (file): gives the key 'title' twice."
+
+
+def test_criteria_table_states_the_rule_and_the_psv_only_rows() -> None:
+    from diagram.criteria import criteria_table
+
+    stent = criteria_table(load_criteria("stent"))
+    assert "rule: the worse of PSV, Vr" in stent  # Bui 2012 writes "or"
+    assert "PSV only (no valid Vr): isr-moderate PSV >= 200 cm/s; isr-severe PSV > 300" in stent
+    assert "rule: Vr alone" in criteria_table(load_criteria("native"))

@@ -12,13 +12,13 @@ from dataclasses import replace
 import pytest
 
 from diagram.anatomy import Side
+from diagram.assess import assess as assess_study
 from diagram.assess.results import Assessment, BandDef
 from diagram.drawing.layout import layout
 from diagram.drawing.map.devices import GRAFT_STRETCHES
 from diagram.drawing.scene import Group, Item, Line, Polygon, Rect, Scene, Text
 from diagram.drawing.style import NOT_ASSESSED, default_style
 from diagram.drawing.template.mapfile import load_template
-from diagram.pipeline import assess_study
 from diagram.reading.load import load_study_text
 
 STUDY = """\

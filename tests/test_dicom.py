@@ -79,3 +79,39 @@ def test_dciodvfy_finds_no_errors(dcm: tuple[Path, bytes]) -> None:
     assert "EncapsulatedPDF" in report
     errors = [line for line in report.splitlines() if line.startswith("Error")]
     assert errors == []
+    warnings = [line for line in report.splitlines() if line.startswith("Warning")]
+    assert warnings == []  # Study Time and Study ID filled (they were warned about)
+
+
+def test_uids_come_from_the_one_uuid_root() -> None:
+    import pydicom
+
+    from diagram.output.dicom import IMPLEMENTATION_CLASS_UID, DicomIdentity, encapsulated_pdf
+
+    ds = pydicom.dcmread(io.BytesIO(encapsulated_pdf(b"%PDF-", DicomIdentity(accession="A-1"))))
+    made = (ds.StudyInstanceUID, ds.SeriesInstanceUID, ds.SOPInstanceUID)
+    for uid in (*made, ds.file_meta.ImplementationClassUID):
+        # PS3.5 B.2: 2.25 followed by a UUID as one integer (below 2**128), at most 64 characters
+        assert uid.startswith("2.25.") and len(uid) <= 64
+        assert 0 < int(uid[5:]) < 2**128 and not uid[5:].startswith("0")
+    assert ds.file_meta.ImplementationClassUID == IMPLEMENTATION_CLASS_UID
+    assert ds.StudyID == "A-1" and len(ds.StudyTime) == 6
+    bare = pydicom.dcmread(io.BytesIO(encapsulated_pdf(b"%PDF-", DicomIdentity())))
+    assert bare.StudyID == "1"
+
+
+def test_examples_carry_a_study_uid_and_a_missing_one_is_warned(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    from diagram.cli.main import main
+
+    for example in sorted((ROOT / "examples").glob("*.yaml")):
+        assert load_study(example).exam.study_uid, example.name
+    bare = tmp_path / "bare.yaml"
+    bare.write_text("format: 1\nlimbs: {right: {segments: {CFA: {psv: 100}}}}\n")
+    for suffix, warned in ((".dcm", True), (".pdf", False)):
+        with pytest.raises(SystemExit) as done:
+            main(["draw", str(bare), "-o", str(tmp_path / f"map{suffix}")])
+        assert done.value.code == 0
+        err = capsys.readouterr().err
+        assert ("the map will form a study of its own" in err) is warned

@@ -32,9 +32,9 @@ from diagram._version import __version__
 from diagram.drawing.template.mapfile import load_template
 from diagram.editor.app import TOKEN_HEADER, make_app
 from diagram.editor.study_edit import MAX_BODY, EditedStudy, open_study
+from diagram.inputs import assess_file
 from diagram.output.results import results_document
-from diagram.pipeline import assess_study
-from diagram.reading.load import load_prior, load_study
+from diagram.reading.load import load_study
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLES = ROOT / "examples"
@@ -71,8 +71,7 @@ def opened(client: TestClient) -> dict[str, Any]:
 
 
 def expected_results(path: Path) -> dict[str, Any]:
-    study = load_study(path)
-    return results_document(assess_study(study, prior=load_prior(study)), version=__version__)
+    return results_document(assess_file(path), version=__version__)
 
 
 # --- the guard ----------------------------------------------------------------------------------
@@ -148,6 +147,7 @@ def test_answers_are_not_cached_and_carry_a_strict_policy(client: TestClient) ->
     assert answer.headers["referrer-policy"] == "no-referrer"
     assert "script-src 'self'" in answer.headers["content-security-policy"]
     assert "default-src 'none'" in answer.headers["content-security-policy"]
+    assert "script-src 'self';" in answer.headers["content-security-policy"]  # no inline script
 
 
 def test_the_page_carries_the_hooks_and_no_outside_address(client: TestClient) -> None:

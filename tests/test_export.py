@@ -134,7 +134,7 @@ def test_unwritable_folder_leaves_nothing(tmp_path: Path) -> None:
 def test_writer_registry_is_read_only() -> None:
     with pytest.raises(TypeError):
         WRITERS["pdf"] = WRITERS["svg"]  # type: ignore[index]
-    assert set(WRITERS) == {"svg", "pdf", "png", "dcm", "json"}
+    assert set(WRITERS) == {"svg", "pdf", "png", "dcm", "json", "fhir"}
 
 
 def test_unknown_format_is_named_from_the_given_writers(tmp_path: Path) -> None:

@@ -50,10 +50,11 @@ NATIVE_CRITERIA = (ROOT / "diagram" / "criteria" / "native.yaml").read_text("utf
 EXAMPLE = ROOT / "examples" / "normal.yaml"
 
 
-# Open defects in other modules, found by these tests. Each has a strict-xfail reproducer in
-# test_open_defect_reproducer (bottom of this file; fixed ones move to test_fixed_defect_...). While one is open, a fuzz case that ends in
-# it is set aside (hypothesis.reject) instead of failing, so the harness keeps guarding against
-# every other failure. When a fix lands the reproducer XPASSes, which fails: delete both entries.
+# Open defects in other modules, found by these tests, keyed by (exception, module). While one
+# is open, a fuzz case that ends in it is set aside (hypothesis.reject) instead of failing, so the
+# harness keeps guarding against every other failure; its smallest input goes into REPRODUCERS
+# (bottom of this file) with the exception it raises. When the fix lands, delete the entry here:
+# test_fixed_defect_stays_fixed then requires the reproducer to end in a drawing or problems.
 OPEN_DEFECTS: dict[tuple[str, str], str] = {}  # none open: see the fixed reproducers
 
 
@@ -754,7 +755,9 @@ def valid_criteria(draw: st.DrawFn) -> dict[str, Any]:
     return crit
 
 
-def criteria_runs(text: str | bytes, *, must_show: bool = False, set_aside: bool = True) -> Run:
+def criteria_runs(
+    text: str | bytes, *, must_show: bool = False, must_refuse: bool = False, set_aside: bool = True
+) -> Run:
     """Show one criteria file, grade a study with it, and parse it; check all three."""
     with case_folder() as folder, open_defects_set_aside(set_aside):
         path = folder / "lab-criteria.yaml"
@@ -768,6 +771,8 @@ def criteria_runs(text: str | bytes, *, must_show: bool = False, set_aside: bool
             assert shown.out == ""
         if must_show:
             assert shown.code == 0, shown.err
+        if must_refuse:
+            assert shown.code == 2, shown.out
         study = folder / "study.yaml"
         study.write_text(
             "format: 1\nlimbs: {left: {segments: {CFA: {psv: 100}, SFA-P: {psv: 250}}}}\n"
@@ -834,6 +839,45 @@ def test_an_almost_valid_criteria_file_is_shown_or_refused(
     crit, what = mutation
     note(what)
     criteria_runs(crit_dump(crit, style))
+
+
+UNKNOWN_KEYS = st.text("abcdefghijklmnopqrstuvwxyz_", min_size=1, max_size=8).map(
+    lambda t: "x_" + t
+)
+OUT_OF_RANGE_VR = st.one_of(
+    st.just(0),
+    st.floats(-1e6, 0, allow_nan=False),
+    st.floats(50, 1e6, exclude_min=True, allow_nan=False),
+    st.just("2.0"),
+)
+
+
+@st.composite
+def broken_criteria(draw: st.DrawFn) -> tuple[dict[str, Any], str]:
+    """A valid criteria set with one change that surely breaks a rule of the loader."""
+    crit = draw(valid_criteria())
+    how = draw(st.sampled_from(("drop", "unknown key", "vr range", "look", "no occlusion")))
+    if how == "drop":
+        del crit[draw(st.sampled_from(("format", "name", "title", "source", "bands")))]
+    elif how == "unknown key":
+        crit[draw(UNKNOWN_KEYS)] = draw(SCALARS)
+    elif how == "vr range":
+        crit["bands"][1]["when"]["vr_min"] = draw(OUT_OF_RANGE_VR)
+    elif how == "look":
+        crit["bands"][0]["look"] = "x-" + draw(SAFE_TEXT)
+    else:
+        crit["bands"].pop()
+    return crit, how
+
+
+@settings(max_examples=cases(1))
+@given(mutation=broken_criteria(), style=STYLES)
+def test_a_criteria_file_breaking_a_rule_is_refused(
+    mutation: tuple[dict[str, Any], str], style: int
+) -> None:
+    crit, what = mutation
+    note(what)
+    criteria_runs(crit_dump(crit, style), must_refuse=True)
 
 
 @settings(max_examples=cases(3))
@@ -942,7 +986,9 @@ def valid_lab_profiles(draw: st.DrawFn) -> dict[str, Any]:
     return profile
 
 
-def lab_runs(text: str | bytes, *, must_draw: bool = False, set_aside: bool = True) -> Run:
+def lab_runs(
+    text: str | bytes, *, must_draw: bool = False, must_refuse: bool = False, set_aside: bool = True
+) -> Run:
     """Draw a study with a lab profile and parse the profile; check both against the contract."""
     from diagram.drawing.labprofile import LabProfileError, parse_lab_profile
 
@@ -963,6 +1009,8 @@ def lab_runs(text: str | bytes, *, must_draw: bool = False, set_aside: bool = Tr
             assert_problems(drawn, must_name=str(path))
         if must_draw:
             assert drawn.code == 0, drawn.err
+        if must_refuse:
+            assert drawn.code == 2, drawn.err
         if isinstance(text, str):
             try:
                 parse_lab_profile(text, "lab.yaml", folder)
@@ -995,6 +1043,34 @@ def test_an_almost_valid_lab_profile_draws_or_is_refused(
     lab_runs(crit_dump(profile, style))
 
 
+@st.composite
+def broken_lab_profiles(draw: st.DrawFn) -> tuple[dict[str, Any], str]:
+    """A valid lab profile with one change that surely breaks a rule of the loader."""
+    profile = draw(valid_lab_profiles())
+    how = draw(st.sampled_from(("unknown key", "page", "format", "tint")))
+    if how == "unknown key":
+        profile[draw(UNKNOWN_KEYS)] = draw(SCALARS)
+    elif how == "page":
+        profile["page"] = "x-" + draw(SAFE_TEXT)
+    elif how == "format":
+        profile["format"] = draw(st.integers(2, 99))
+    else:
+        profile.setdefault("bands", {})["normal"] = {
+            "tint": draw(st.from_regex(r"\A#[0-9a-f]{5}\Z"))
+        }
+    return profile, how
+
+
+@settings(max_examples=cases(1))
+@given(mutation=broken_lab_profiles(), style=STYLES)
+def test_a_lab_profile_breaking_a_rule_is_refused(
+    mutation: tuple[dict[str, Any], str], style: int
+) -> None:
+    profile, what = mutation
+    note(what)
+    lab_runs(crit_dump(profile, style), must_refuse=True)
+
+
 @settings(max_examples=cases(2))
 @given(
     source=st.one_of(
@@ -1024,7 +1100,7 @@ class Reproducer:
 
 
 GRADING = "diagram/assess/grading.py"
-CRITERIA = "diagram/criteria/__init__.py"
+CRITERIA = "diagram/criteria/parse.py"
 LEFT_SEGMENTS = "format: 1\nlimbs:\n  left:\n    segments:\n"
 REPRODUCERS = [
     Reproducer(

@@ -2,10 +2,13 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import pytest
 
 from diagram.anatomy import Side
 from diagram.assess.indices import abi_category, limb_indices, pressure_findings, round2
+from diagram.errors import StudyError
 from diagram.reading.study import LimbPressures, Presentation, Pressures
 
 
@@ -213,3 +216,22 @@ def test_ischaemia_grade_applies_to_clti_limbs(
     ix = limb_indices(p, Side.LEFT, presentation)
     assert ix.ischaemia_grade == 1 and ix.ischaemia_applies is applies
     assert ("CLTI" in ix.ischaemia_context) is True
+
+
+def test_study_file_takes_tcpo2_and_the_legs_presentation(tmp_path: Path) -> None:
+    from diagram.assess import assess
+    from diagram.reading.load import load_study
+
+    path = tmp_path / "s.yaml"
+    path.write_text(
+        "format: 1\npressures:\n  brachial: {right: 140}\n  right: {pt: 120, tcpo2: 28}\n"
+        "limbs:\n  right:\n    presentation: tissue-loss\n"
+    )
+    study = load_study(path)
+    assert study.pressures.right.tcpo2 == 28
+    assert study.limb(Side.RIGHT).presentation is Presentation.TISSUE_LOSS
+    ix = assess(study).indices[Side.RIGHT]
+    assert ix.ischaemia_grade == 3 and ix.ischaemia_applies  # TcPO2 28 < 30 (WIfI grade 3)
+    path.write_text("format: 1\nlimbs:\n  right:\n    presentation: rest pain\n")
+    with pytest.raises(StudyError, match="presentation: 'rest pain' must be one of"):
+        load_study(path)

@@ -143,8 +143,8 @@ def test_field_rules(tmp_path: Path, text: str, expected: str) -> None:
         ("angle_deg", ".nan", False),
         ("weight_pt", "0.09", False),
         ("weight_pt", "0.1", True),
-        ("weight_pt", "1.2", True),  # half of the 2.4 pt spacing of the 50-74 lines
-        ("weight_pt", "1.21", False),
+        ("weight_pt", "1.8", True),  # half of the 3.6 pt spacing of the 50-74 lines
+        ("weight_pt", "1.81", False),
     ],
 )
 def test_texture_bounds(tmp_path: Path, field: str, value: str, ok: bool) -> None:
@@ -202,14 +202,14 @@ def test_parse_in_memory_uses_the_base_folder() -> None:
 def test_a_lab_style_reaches_the_rendered_map() -> None:
     # The 50-74 band's tint, angle, spacing and weight appear in the SVG the pipeline renders.
     from diagram._version import __version__
+    from diagram.assess import assess
     from diagram.drawing.layout import layout
     from diagram.drawing.template.mapfile import load_template
     from diagram.output.svg import render_svg
-    from diagram.pipeline import assess_study
     from diagram.reading.load import load_study
 
     profile = load_lab_profile(LAB / "lab.yaml")
-    assessment = assess_study(load_study(EXAMPLES / "multilevel-occlusion.yaml"))
+    assessment = assess(load_study(EXAMPLES / "multilevel-occlusion.yaml"))
     assert any(les.band == "50-74" for limb in assessment.limbs.values() for les in limb.lesions)
     svg = render_svg(layout(assessment, load_template(), version=__version__, style=profile.style))
     default = render_svg(layout(assessment, load_template(), version=__version__))

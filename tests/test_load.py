@@ -15,7 +15,8 @@ from hypothesis import strategies as st
 from diagram import anatomy
 from diagram.anatomy import Side
 from diagram.errors import StudyError
-from diagram.reading.load import MAX_BYTES, load_study, load_study_text, study_schema
+from diagram.reading.formats import MAX_BYTES
+from diagram.reading.load import load_study, load_study_text, study_schema
 from diagram.reading.study import (
     GRAFT_SITES,
     Exam,

@@ -13,7 +13,7 @@ from pathlib import Path
 import pytest
 
 from diagram import anatomy
-from diagram.cli.main import main
+from diagram.cli.main import FORMATS, main
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLES = ROOT / "examples"
@@ -94,7 +94,13 @@ def test_top_level_help_names_every_output_format(capsys: pytest.CaptureFixture[
     code, out, _ = run(["--help"], capsys)
     assert code == 0
     text = " ".join(out.split())
-    assert "Output formats: SVG, PDF, PNG, DICOM (.dcm, Encapsulated PDF) and JSON" in text
+    assert (
+        "Output formats: SVG, PDF, PNG, DICOM (.dcm, Encapsulated PDF), JSON (the computed "
+        "results) and FHIR (.fhir.json, an HL7 FHIR R4 Bundle)" in text
+    )
+    listed = text.split("Output formats:")[1].split("Bundle")[0]
+    for fmt in FORMATS:  # every format draw --format takes is named
+        assert (f".{fmt}" if fmt == "dcm" else fmt.upper()) in listed, fmt
     assert "segments" in text
 
 

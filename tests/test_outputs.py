@@ -13,9 +13,10 @@ from pathlib import Path
 
 import pytest
 
+from diagram.inputs import draw_file
 from diagram.output.export import render_bytes
 from diagram.pipeline import draw
-from diagram.reading.load import load_prior, load_study
+from diagram.reading.load import load_study
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLES = sorted((ROOT / "examples").glob("*.yaml"))
@@ -32,7 +33,7 @@ def need(tool: str) -> None:
 def drawn(request: pytest.FixtureRequest, tmp_path_factory: pytest.TempPathFactory) -> dict:  # type: ignore[type-arg]
     path: Path = request.param
     study = load_study(path)
-    drawing = draw(study, prior=load_prior(study))
+    drawing = draw_file(study)
     folder = tmp_path_factory.mktemp(path.stem)
     out = {"study": study, "folder": folder}
     for fmt in ("svg", "pdf", "png"):

@@ -5,7 +5,7 @@ from __future__ import annotations
 import pytest
 
 from diagram.anatomy import SEGMENT_IDS, SEGMENTS, Side
-from diagram.assess import assess, resolve_criteria
+from diagram.assess import assess, study_sets
 from diagram.assess.planning import (
     STAGE_TABLE,
     PlanLevel,
@@ -55,7 +55,7 @@ def plan(
         limbs={Side.LEFT: limb},
     )
     a = assess(study)
-    return plan_limb(a.study, a.limbs[Side.LEFT], resolve_criteria(a.study), target=target)
+    return plan_limb(a.study, a.limbs[Side.LEFT], study_sets(a.study), target=target)
 
 
 # Nominal lengths the fractions rest on (anatomy.py, from memory).
@@ -347,7 +347,7 @@ def test_aortic_lesion_is_counted_under_the_leg_that_lists_it() -> None:
     limbs = {Side.RIGHT: right, Side.LEFT: left}
     s = Study(source="t.yaml", patient=Patient(), exam=Exam(), pressures=Pressures(), limbs=limbs)
     a = assess(s)
-    sets = resolve_criteria(a.study)
+    sets = study_sets(a.study)
     r, lt = (plan_limb(a.study, a.limbs[side], sets) for side in (Side.RIGHT, Side.LEFT))
     assert (r.levels[0].worst_band, r.levels[0].occluded_cm) == ("occluded", 3.0)
     assert (lt.levels[0].worst_band, lt.levels[0].occluded_cm) == ("occluded", 0.0)

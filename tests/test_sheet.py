@@ -32,10 +32,10 @@ from diagram.drawing.sheet.tableblock import Tables, row_heights
 from diagram.drawing.sheet.tables import change_table, pressure_entries
 from diagram.drawing.style import default_style
 from diagram.drawing.template.mapfile import Template, load_template
+from diagram.inputs import assess_file
 from diagram.output.svg import pdf_from_svgs, render_pages, render_svg
-from diagram.pipeline import assess_study
-from diagram.reading.load import load_prior, load_study
-from diagram.reading.study import LimbPressures, Pressures
+from diagram.reading.load import load_study
+from diagram.reading.study import LimbPressures, Presentation, Pressures
 
 ROOT = Path(__file__).resolve().parent.parent
 EXAMPLES = sorted(p.stem for p in (ROOT / "examples").glob("*.yaml"))
@@ -46,7 +46,7 @@ BUSIEST = ("followup-current", "clti-multilevel")  # most findings, both tables,
 @cache
 def example(stem: str) -> Assessment:
     study = load_study(ROOT / "examples" / f"{stem}.yaml")
-    return assess_study(study, prior=load_prior(study))
+    return assess_file(study)
 
 
 @cache
@@ -70,9 +70,15 @@ def entry_text(entry: Entry) -> str:
 # ----------------------------------------------------------------------------- pressure boxes
 
 
-def box(brachial: float, pt: float | None = None, toe: float | None = None) -> list[str]:
+def box(
+    brachial: float,
+    pt: float | None = None,
+    toe: float | None = None,
+    presentation: Presentation | None = Presentation.REST_PAIN,
+) -> list[str]:
     pressures = Pressures(brachial, brachial, right=LimbPressures(pt=pt, toe=toe))
-    return [entry_text(e) for e in pressure_entries(limb_indices(pressures, Side.RIGHT))]
+    ix = limb_indices(pressures, Side.RIGHT, presentation)
+    return [entry_text(e) for e in pressure_entries(ix)]
 
 
 @pytest.mark.parametrize(
@@ -131,6 +137,26 @@ def test_ischaemia_line_names_the_grade_and_what_set_it(
     head, basis = line.split(" · ", 1)
     assert head == grade
     assert basis.startswith("worst of ") or basis == "no ankle or toe pressure"
+    if pt is not None:
+        assert basis.endswith("; limb marked rest pain (CLTI)")
+
+
+# WIfI is a CLTI tool (Mills 2014): a claudicant's leg with pressures outside the CLTI range
+# (ESC 2017: toe < 30 mmHg) is not given a grade; one in the range is, and says why.
+@pytest.mark.parametrize(
+    ("toe", "line"),
+    [
+        (31, "Ischaemia (WIfI) not applied · limb marked claudication: WIfI grades CLTI limbs"),
+        (30, "Ischaemia (WIfI) not applied · limb marked claudication: WIfI grades CLTI limbs"),
+        (
+            29,
+            "Ischaemia (WIfI) grade 3 · worst of ABI 1.30 (grade 0), ankle 130 mmHg (grade 0), "
+            "toe 29 mmHg (grade 3); pressures in the CLTI range: toe 29 < 30 mmHg",
+        ),
+    ],
+)
+def test_ischaemia_grade_only_for_clti_legs(toe: float, line: str) -> None:
+    assert box(100, 130, toe, Presentation.CLAUDICATION)[2] == line
 
 
 @pytest.mark.parametrize("stem", EXAMPLES)
@@ -486,6 +512,24 @@ def golden_pages() -> list[tuple[str, int]]:
     return [(stem, n) for stem in EXAMPLES for n in range(1, sheet(stem).page_count + 1)]
 
 
+def regold_asked(env: dict[str, str] | None = None) -> bool:
+    """Return True when goldens are to be rewritten; refused in CI, where they are only compared."""
+    env = dict(os.environ) if env is None else env
+    if env.get("LIMBCHART_REGOLD") != "1":
+        return False
+    if env.get("CI"):
+        raise pytest.UsageError("LIMBCHART_REGOLD is refused when CI is set: CI only compares.")
+    return True
+
+
+def test_regold_is_refused_in_ci() -> None:
+    assert regold_asked({}) is False
+    assert regold_asked({"LIMBCHART_REGOLD": "1"}) is True
+    assert regold_asked({"LIMBCHART_REGOLD": "0", "CI": "true"}) is False
+    with pytest.raises(pytest.UsageError, match="refused when CI is set"):
+        regold_asked({"LIMBCHART_REGOLD": "1", "CI": "true"})
+
+
 def golden_name(stem: str, number: int) -> str:
     return f"{stem}.svg" if number == 1 else f"{stem}.page{number}.svg"
 
@@ -494,7 +538,7 @@ def golden_name(stem: str, number: int) -> str:
 def test_golden_svg(stem: str, number: int) -> None:
     svg = render_pages(sheet(stem))[number - 1]
     path = GOLDEN / golden_name(stem, number)
-    if os.environ.get("LIMBCHART_REGOLD") == "1":
+    if regold_asked():
         path.write_text(svg, encoding="utf-8", newline="\n")
     assert path.exists(), f"{path.name} missing: LIMBCHART_REGOLD=1 python -m pytest {__file__}"
     expected = path.read_bytes()
@@ -509,9 +553,17 @@ def test_no_stale_golden_files() -> None:
     assert {p.name for p in GOLDEN.glob("*.svg")} == wanted
 
 
-def test_render_svg_is_page_one() -> None:
-    scene = sheet("followup-current")
-    assert render_svg(scene) == render_pages(scene)[0]
+def test_each_page_is_rendered_from_its_own_scene() -> None:
+    scene = sheet("clti-multilevel", "letter")
+    pages = render_pages(scene)
+    count = len(scene.pages())
+    assert count > 1 and len(pages) == count
+    assert render_svg(scene) == pages[0]  # page 1 alone: the further pages are not drawn on it
+    for n, (page, svg) in enumerate(zip(scene.pages(), pages, strict=True), start=1):
+        assert svg == render_svg(page)
+        assert f"page {n} of {count}" in svg
+        others = [f"page {m} of {count}" for m in range(1, count + 1) if m != n]
+        assert not any(other in svg for other in others)
 
 
 @pytest.fixture(scope="module")

@@ -15,23 +15,21 @@ import json
 import re
 import shutil
 import subprocess
-import sys
 import unicodedata
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
-import click
 import pytest
 import yaml
 from teach_generator import fold, full_width, study, write_studies
-from teach_readers import output_text
+from teach_readers import needs_poppler, output_text, run
 
+from diagram.assess import assess
 from diagram.cli.teach import FORMAT_CHOICES, teach
 from diagram.errors import DiagramError
 from diagram.output.results import results_document
-from diagram.pipeline import assess_study
 from diagram.reading.load import load_study
 from diagram.reading.study import Study
 from diagram.teaching.case import (
@@ -48,21 +46,6 @@ ROOT = Path(__file__).resolve().parents[1]
 EXAMPLE = ROOT / "examples" / "claudicant-sfa.yaml"
 WIDE = {c: c + 0xFEE0 for c in range(0x21, 0x7F)}  # ASCII ➜ full width
 CASE_FILE = re.compile(r"tc-[a-z]{5}-[a-z]{5}\.(pdf|svg|png|dcm|yaml)")
-needs_poppler = pytest.mark.skipif(shutil.which("pdftotext") is None, reason="poppler-utils")
-
-
-def run(args: list[str], capsys: pytest.CaptureFixture[str]) -> tuple[int, str]:
-    """Run ``teach`` as ``limbchart teach`` does (a tool error: its lines, exit status 2)."""
-    try:
-        teach.main(args=args, prog_name="limbchart teach", standalone_mode=False)
-        code = 0
-    except SystemExit as done:
-        code = int(done.code or 0)
-    except DiagramError as exc:
-        for line in exc.lines():
-            print(line, file=sys.stderr)
-        code = exc.exit_code
-    return code, capsys.readouterr().err
 
 
 # --- free text ----------------------------------------------------------------------------------
@@ -175,8 +158,8 @@ def test_clinical_content_unchanged_and_identifiers_gone(tmp_path: Path) -> None
         (tmp_path / f"s{n}.json").write_text(json.dumps(data), "utf-8")
         source = load_study(tmp_path / f"s{n}.json")
         case = deidentify(source, new_case_id(), keep_text=True)
-        before = results_document(assess_study(source), version="t", identified=False)
-        after = results_document(assess_study(case.study), version="t", identified=False)
+        before = results_document(assess(source), version="t", identified=False)
+        after = results_document(assess(case.study), version="t", identified=False)
         assert before == after
         p, e = case.study.patient, case.study.exam
         assert (p.name, p.birth_date, p.id) == (None, None, case.case_id)
@@ -300,8 +283,8 @@ def test_study_file_reloads_and_draws(tmp_path: Path) -> None:
     path.write_bytes(out.files[path.name])
     again = load_study(path)
     assert draw(again).svg.startswith("<?xml")
-    assert results_document(assess_study(again), version="t", identified=False) == (
-        results_document(assess_study(load_study(EXAMPLE)), version="t", identified=False)
+    assert results_document(assess(again), version="t", identified=False) == (
+        results_document(assess(load_study(EXAMPLE)), version="t", identified=False)
     )
 
 
@@ -309,11 +292,13 @@ def test_study_file_reloads_and_draws(tmp_path: Path) -> None:
 
 
 def test_formats_agree_and_the_command_registers(capsys: pytest.CaptureFixture[str]) -> None:
+    from diagram.cli.main import cli, main
+
     assert FORMAT_CHOICES == TEACH_FORMATS
-    group = click.Group("limbchart")
-    group.add_command(teach)  # what cli.py does
-    with pytest.raises(SystemExit):
-        group.main(["teach", "--help"], prog_name="limbchart")
+    assert cli.commands["teach"] is teach  # the real group, as installed
+    with pytest.raises(SystemExit) as done:
+        main(["teach", "--help"])
+    assert done.value.code == 0
     assert "limbchart teach [OPTIONS] STUDY..." in capsys.readouterr().out
 
 
@@ -506,8 +491,8 @@ def test_two_hundred_studies_leave_no_identifier(
     for case, source in list(sources.items())[::10]:  # grading unchanged, from the YAML
         again = next((tmp_path / d / f"{case}.yaml") for d in ("out", "all") if
                      (tmp_path / d / f"{case}.yaml").exists())  # fmt: skip
-        assert results_document(assess_study(load_study(again)), version="t", identified=False) == (
-            results_document(assess_study(load_study(source)), version="t", identified=False)
+        assert results_document(assess(load_study(again)), version="t", identified=False) == (
+            results_document(assess(load_study(source)), version="t", identified=False)
         )
 
 

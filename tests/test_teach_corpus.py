@@ -11,33 +11,13 @@ from __future__ import annotations
 
 import json
 import re
-import shutil
-import sys
 from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 
 import pytest
 import yaml
 from teach_corpus import HARMLESS_NAMES, Entry, adversarial, fold, identity_values, study_data
-from teach_readers import output_text
-
-from diagram.cli.teach import teach
-from diagram.errors import DiagramError
-
-needs_poppler = pytest.mark.skipif(shutil.which("pdftotext") is None, reason="poppler-utils")
-
-
-def run(args: list[str], capsys: pytest.CaptureFixture[str]) -> tuple[int, str]:
-    try:
-        teach.main(args=args, prog_name="limbchart teach", standalone_mode=False)
-        code = 0
-    except SystemExit as done:
-        code = int(done.code or 0)
-    except DiagramError as exc:
-        for line in exc.lines():
-            print(line, file=sys.stderr)
-        code = exc.exit_code
-    return code, capsys.readouterr().err
+from teach_readers import needs_poppler, output_text, run
 
 
 def _harmless(folder: Path) -> dict[Path, str]:

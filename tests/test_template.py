@@ -11,7 +11,6 @@ import re
 import socket
 import subprocess
 import sys
-import time
 from collections.abc import Iterator
 from importlib import resources
 from pathlib import Path
@@ -342,7 +341,8 @@ def test_broken_fixtures_report_exactly_their_defect(fixture: str, expected: lis
 def test_swapped_sides_are_reported_for_every_vessel() -> None:
     path = FIXTURES / "swapped-sides.svg"
     lines = problem_lines(path)
-    assert len(lines) == 44
+    named = sorted(re.findall(r": vessels\.(\w+/[\w-]+): ", "\n".join(lines)))
+    assert named == sorted(ALL_KEYS - {"AO"})  # every paired vessel, each once
     assert lines[0] == (
         f"{path}:5: vessels.left/CIA: x=181.6 must be > 200.0 (the aorta's x): a left-side vessel "
         "lies on the viewer's right (the patient's right is on the viewer's left; check data-side)"
@@ -540,10 +540,8 @@ def test_join_tolerance_boundary(tmp_path: Path) -> None:
 @pytest.mark.parametrize("fixture", ["billion-laughs.svg", "external-entity.svg"])
 def test_entities_are_refused_before_anything_is_expanded_or_read(fixture: str) -> None:
     path = FIXTURES / fixture
-    started = time.perf_counter()
     with recorded() as events, pytest.raises(TemplateError) as err:
         load_template(path)
-    assert time.perf_counter() - started < 1.0
     assert err.value.lines() == [
         f"{path}:2: <!DOCTYPE>: DTDs, entity declarations and external entities are refused "
         "(remove the <!DOCTYPE ...> declaration and any entities)"
@@ -1051,7 +1049,8 @@ def test_both_legs_without_the_pelvis(tmp_path: Path) -> None:
     assert template.sides == ("right", "left") and len(template.vessels) == 38
     swapped = _bilateral_without_pelvis(tmp_path, swap=True)
     lines = problem_lines(swapped)
-    assert len(lines) == 38
+    named = sorted(re.findall(r": vessels\.(\w+/[\w-]+): ", "\n".join(lines)))
+    assert named == sorted(template.vessels)  # every vessel of both legs, each once
     assert all("midway between the legs" in line for line in lines)
     # the CFAs start at x 140.841 and 259.159 on the shipped map: midway is 200
     assert lines[0] == (
@@ -1187,9 +1186,7 @@ def test_root_size_boundary(tmp_path: Path, ok: bool) -> None:
 
 def test_too_many_elements_stop_the_reader(tmp_path: Path) -> None:
     path = variant(tmp_path, "<title>", "<g/>" * (MAX_ELEMENTS + 1) + "<title>")
-    started = time.perf_counter()
     problems = check_template(path)
-    assert time.perf_counter() - started < 5.0
     assert [(p.field, p.rule) for p in problems] == [
         ("g", f"more than {MAX_ELEMENTS} elements are refused")
     ]
@@ -1239,11 +1236,8 @@ def test_a_vessel_outside_the_viewbox_is_reported(tmp_path: Path) -> None:
 
 
 def run(args: list[str], capsys: pytest.CaptureFixture[str]) -> tuple[int, str, str]:
-    from diagram.cli.design import COMMANDS
-    from diagram.cli.main import cli, main
+    from diagram.cli.main import main
 
-    for command in COMMANDS:
-        cli.add_command(command)
     with pytest.raises(SystemExit) as done:
         main(args)
     out = capsys.readouterr()
@@ -1265,7 +1259,6 @@ def test_template_check_reports_each_problem_and_exits_2(
     code, out, err = run(["template", "check", str(path)], capsys)
     assert (code, out) == (2, "")
     assert err.splitlines() == problem_lines(path)
-    assert len(err.splitlines()) == 44
 
 
 def test_template_check_of_a_hostile_file(capsys: pytest.CaptureFixture[str]) -> None:

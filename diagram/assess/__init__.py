@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 from dataclasses import replace
-from pathlib import Path
 
 from diagram.anatomy import Side
 from diagram.assess.compare import check_prior, compare
@@ -12,8 +11,8 @@ from diagram.assess.indices import limb_indices, pressure_findings
 from diagram.assess.planning import plan_limb
 from diagram.assess.quality import quality_findings, with_shift_velocities
 from diagram.assess.results import Assessment, BandDef
-from diagram.criteria import NOT_ASSESSED, Criteria, CriteriaSets, load_criteria
-from diagram.errors import CriteriaError, Problem, StudyError
+from diagram.criteria import NOT_ASSESSED, Criteria, CriteriaSets, shipped_sets
+from diagram.errors import StudyError
 from diagram.reading.study import Study
 
 
@@ -30,48 +29,37 @@ def band_defs(sets: CriteriaSets, used: tuple[Criteria, ...]) -> tuple[BandDef, 
     return (*rest, *occluded, BandDef(NOT_ASSESSED, "Not assessed", -1, "", ""))
 
 
-def _load(name: str, base: Path | None, field: str, source: str) -> Criteria:
-    try:
-        return load_criteria(name, relative_to=base)
-    except CriteriaError as exc:
-        if len(exc.problems) == 1 and exc.problems[0].field == "exam.criteria":
-            p = exc.problems[0]
-            raise StudyError([Problem(source, None, field, p.value, p.rule, p.hint)]) from None
-        raise
-
-
-def resolve_criteria(study: Study, override: str | None = None) -> CriteriaSets:
-    """Return the sets the study names (native set replaced by ``override`` when given)."""
-    base = Path(study.source).parent if study.source else None
+def study_sets(study: Study) -> CriteriaSets:
+    """Return the shipped sets the study names (a lab's own file is loaded at the edge)."""
     exam = study.exam
-    return CriteriaSets(
-        native=_load(override or exam.criteria, base, "exam.criteria", study.source),
-        stent=_load(exam.stent_criteria, base, "exam.stent_criteria", study.source),
-        graft=_load(exam.graft_criteria, base, "exam.graft_criteria", study.source),
-    )
+    names = (exam.criteria, exam.stent_criteria, exam.graft_criteria)
+    return shipped_sets(names, source=study.source)
 
 
 def assess(
     study: Study,
     *,
-    criteria: Criteria | CriteriaSets | None = None,
+    criteria: CriteriaSets | Criteria | None = None,
     target: str | None = None,
     prior: Study | None = None,
+    prior_criteria: CriteriaSets | None = None,
 ) -> Assessment:
     """Grade the study, compute its indices and planning summary, and compare with a prior.
 
-    ``target`` chooses the tibial artery of the planning path (ATA, PTA or PER; the least
-    diseased by default). ``prior`` is an earlier exam of the same patient: it is assessed with
-    its own criteria sets and compared; a prior of another patient or a later date is refused.
+    ``criteria`` are the sets the study is graded with, loaded by the caller (the shipped sets
+    the study names when None; no file is read here). ``target`` chooses the tibial artery of the
+    planning path (ATA, PTA or PER; the least diseased by default). ``prior`` is an earlier exam
+    of the same patient: it is assessed with its own sets (``prior_criteria``) and compared; a
+    prior of another patient or a later date is refused.
     """
     if prior is not None:
         problems = check_prior(study, prior)
         if problems:
             raise StudyError(problems)
-    if isinstance(criteria, Criteria):
-        sets = replace(resolve_criteria(study), native=criteria)
+    if isinstance(criteria, Criteria):  # a native set alone: the study's shipped others with it
+        sets = replace(study_sets(study), native=criteria)
     else:
-        sets = criteria or resolve_criteria(study)
+        sets = criteria if criteria is not None else study_sets(study)
     study, findings = with_shift_velocities(study)
     limbs, grading_findings = grade_limbs(study, sets)
     findings.extend(grading_findings)
@@ -99,7 +87,11 @@ def assess(
         warnings=tuple(findings),
         criteria_used=tuple((c.name, c.title, c.origin) for c in used),
         planning=planning,
+        criteria_rules=tuple(note for c in used if (note := c.boundary_note())),
     )
     if prior is not None:
-        result = replace(result, comparison=compare(result, assess(prior, target=target)))
+        result = replace(
+            result,
+            comparison=compare(result, assess(prior, criteria=prior_criteria, target=target)),
+        )
     return result

@@ -11,11 +11,16 @@ from __future__ import annotations
 
 import datetime as dt
 from collections.abc import Callable
-from dataclasses import dataclass
 from decimal import ROUND_HALF_UP, Context, Decimal, localcontext
-from enum import StrEnum
 
 from diagram.anatomy import SEGMENT_IDS, UNPAIRED, Side
+from diagram.assess.compare_results import BAND_CHANGES as BAND_CHANGES
+from diagram.assess.compare_results import AbiChange as AbiChange
+from diagram.assess.compare_results import Change as Change
+from diagram.assess.compare_results import Comparison as Comparison
+from diagram.assess.compare_results import DeviceChange as DeviceChange
+from diagram.assess.compare_results import LesionChange as LesionChange
+from diagram.assess.compare_results import SegmentChange as SegmentChange
 from diagram.assess.results import Assessment, LesionResult, LimbIndices
 from diagram.criteria import LOOK_SEVERITY
 from diagram.errors import Problem
@@ -27,88 +32,6 @@ OCCLUDED = LOOK_SEVERITY["occluded"]
 # and Westerband 1997 (clinical-values.md, confirmed). A fall of exactly 0.15 is not.
 ABI_SIGNIFICANT_FALL = Decimal("0.15")
 ABI_SOURCE = "SVS 2018; Westerband 1997"
-
-
-class Change(StrEnum):
-    """How a segment's band moved between the prior and the current exam."""
-
-    WORSE = "worse"
-    BETTER = "better"
-    UNCHANGED = "unchanged"
-    NEW_OCCLUSION = "new-occlusion"
-    RESOLVED_OCCLUSION = "resolved-occlusion"
-    NEWLY_ASSESSED = "newly-assessed"
-    NO_LONGER_ASSESSED = "no-longer-assessed"
-
-
-# The changes of disease the map marks; a segment seen in one exam only is not one of them.
-BAND_CHANGES = frozenset(
-    {Change.WORSE, Change.BETTER, Change.NEW_OCCLUSION, Change.RESOLVED_OCCLUSION}
-)
-
-
-@dataclass(frozen=True)
-class SegmentChange:
-    """One segment in both exams (the unpaired aorta is listed once, under the right side)."""
-
-    side: Side
-    segment: str
-    before_band: str
-    after_band: str
-    change: Change
-    psv_before: float | None
-    psv_after: float | None
-    psv_change_pct: float | None  # (after - before) / before x 100, whole percent
-
-
-@dataclass(frozen=True)
-class LesionChange:
-    """A lesion starting in the same segment in both exams, matched by the nearest from_cm."""
-
-    side: Side
-    segment: str
-    from_cm_before: float
-    from_cm_after: float
-    band_before: str
-    band_after: str
-    psv_before: float | None
-    psv_after: float | None
-    psv_change_pct: float | None
-
-
-@dataclass(frozen=True)
-class DeviceChange:
-    """A stent or graft (keyed by its from and to segments) in one exam only."""
-
-    side: Side
-    kind: str  # "stent" | "graft"
-    from_: str
-    to: str
-    change: str  # "new" | "no-longer-recorded"
-
-
-@dataclass(frozen=True)
-class AbiChange:
-    """The ABI of one leg in both exams; ``significant`` is None when it cannot be judged."""
-
-    side: Side
-    before: float | None
-    after: float | None
-    change: float | None  # after - before, two decimals
-    significant: bool | None  # a fall of more than 0.15
-    basis: str
-
-
-@dataclass(frozen=True)
-class Comparison:
-    """Everything that changed between the prior exam and the current one."""
-
-    interval_days: int | None
-    segments: tuple[SegmentChange, ...]
-    lesions: tuple[LesionChange, ...]
-    devices: tuple[DeviceChange, ...]
-    abi: tuple[AbiChange, ...]
-    notes: tuple[str, ...]
 
 
 def _severity(assessment: Assessment) -> Callable[[str], int]:

@@ -10,8 +10,8 @@ from diagram.anatomy import Side
 from diagram.reading.study import Study
 
 if TYPE_CHECKING:  # defined downstream of this module; annotations only
-    from diagram.assess.compare import Comparison
-    from diagram.assess.planning import Planning
+    from diagram.assess.compare_results import Comparison
+    from diagram.assess.plan_results import Planning
 
 
 @dataclass(frozen=True)
@@ -198,3 +198,6 @@ class Assessment:
     criteria_used: tuple[tuple[str, str, str], ...] = ()  # (name, title, origin) of each set
     planning: Mapping[Side, Planning] = field(default_factory=dict)
     comparison: Comparison | None = None
+    # each used set's bands with their thresholds as the file writes them (>= or >): the legend
+    # says which side of a boundary goes to the higher band
+    criteria_rules: tuple[str, ...] = ()

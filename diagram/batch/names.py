@@ -156,13 +156,13 @@ def _clashes(named: Sequence[Named], formats: Sequence[str], out_dir: Path) -> l
 
 
 def _existing(named: Sequence[Named], formats: Sequence[str], out_dir: Path) -> list[str]:
-    from diagram.output.export import exists_message
+    from diagram.output.export import exists_message, suffix_for
 
     found = [
-        out_dir / f"{item.stem}.{fmt}"
+        out_dir / f"{item.stem}.{suffix_for(fmt)}"
         for item in named
         for fmt in formats
-        if os.path.lexists(out_dir / f"{item.stem}.{fmt}")
+        if os.path.lexists(out_dir / f"{item.stem}.{suffix_for(fmt)}")
     ]
     lines = [exists_message(path) for path in found[:_SHOWN_EXISTING]]
     if len(found) > _SHOWN_EXISTING:

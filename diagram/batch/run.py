@@ -23,12 +23,12 @@ from typing import TYPE_CHECKING, Any
 
 from diagram.batch.names import DEFAULT_NAME, Unnamed, plan_names
 from diagram.errors import DiagramError, ExportError, Problem, StudyError
+from diagram.reading.formats import study_suffixes
 
 if TYPE_CHECKING:
     from diagram.drawing.labprofile import LabProfile
     from diagram.output.export import Renderer
 
-STUDY_SUFFIXES = (".yaml", ".yml", ".json")
 MANIFEST_SUFFIXES = (".txt", ".list", ".manifest")  # lists of study paths, one a line
 
 
@@ -106,7 +106,7 @@ def expand_inputs(inputs: Iterable[Path]) -> list[Path]:
     problems: list[Problem] = []
     for item in inputs:
         if item.is_dir():
-            found = sorted(p for p in item.iterdir() if p.suffix.lower() in STUDY_SUFFIXES)
+            found = sorted(p for p in item.iterdir() if p.suffix.lower() in study_suffixes())
             if not found:
                 problems.append(
                     Problem(str(item), None, "", None, "is a folder with no study files in it.")
@@ -136,37 +136,20 @@ def draw_one(task: BatchTask) -> BatchResult:
     this call already wrote are removed again, so a study leaves all its files or none (a file it
     replaced under ``--overwrite`` cannot be brought back).
     """
-    from diagram.output.export import Drawing, ExportOptions, render_bytes, write_atomic
-    from diagram.pipeline import draw
-    from diagram.reading.load import load_prior, load_study
+    from diagram.inputs import draw_inputs, load_inputs, load_template_for
+    from diagram.output.export import ExportOptions, render_bytes, suffix_for, write_all
+    from diagram.reading.load import load_study
 
     cfg = task.settings
     try:
         study = load_study(task.study)
-        targets = [cfg.out_dir / f"{task.stem}.{fmt}" for fmt in cfg.formats]
-        drawing: Drawing = draw(
-            study,
-            page=cfg.page,
-            template=cfg.template,
-            criteria=cfg.criteria,
-            target=cfg.target,
-            prior=load_prior(study),
-            lab=cfg.lab,
-        )
+        targets = [cfg.out_dir / f"{task.stem}.{suffix_for(fmt)}" for fmt in cfg.formats]
+        inputs = load_inputs(study, criteria=cfg.criteria)
+        template = load_template_for(cfg.template, cfg.lab)
+        drawing = draw_inputs(inputs, template, page=cfg.page, target=cfg.target, lab=cfg.lab)
         options = ExportOptions(png_dpi=cfg.png_dpi, renderer=cfg.renderer)
         blobs = [render_bytes(drawing, fmt, options) for fmt in cfg.formats]
-        made: list[Path] = []
-        try:
-            for target, blob in zip(targets, blobs, strict=True):
-                existed = cfg.overwrite and os.path.lexists(target)
-                write_atomic(target, blob, overwrite=cfg.overwrite)
-                if not existed:
-                    made.append(target)
-        except BaseException:
-            for path in made:
-                with contextlib.suppress(OSError):
-                    path.unlink()
-            raise
+        write_all(list(zip(targets, blobs, strict=True)), overwrite=cfg.overwrite)
         return BatchResult(task.n, str(task.study), written=tuple(str(t) for t in targets))
     except DiagramError as exc:
         return BatchResult(task.n, str(task.study), errors=tuple(exc.lines()))

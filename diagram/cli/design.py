@@ -1,6 +1,6 @@
 """Commands for a lab's own design: ``template check|list``, ``style check``, ``gallery``.
 
-The groups are registered on the main command line with ``cli.add_command``. Like every command,
+The groups are listed in the main group (``diagram.cli.main``). Like every command,
 they only parse options and call the API; a tool error (``DiagramError``) reaches ``cli.main``,
 which prints one line per problem and exits with status 2. Heavy libraries are imported inside
 the commands, so that ``limbchart --help`` stays light.

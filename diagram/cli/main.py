@@ -6,7 +6,6 @@ No domain logic lives here. Heavy libraries are imported by the commands that ne
 
 from __future__ import annotations
 
-import json
 import os
 import signal
 import sys
@@ -18,6 +17,9 @@ import click
 
 from diagram._version import __version__
 from diagram.caution import CAUTION
+from diagram.cli.design import COMMANDS as DESIGN_COMMANDS
+from diagram.cli.edit import edit
+from diagram.cli.importing import import_report
 from diagram.cli.options import (
     DEFAULT_DPI,
     STUDIES_METAVAR,
@@ -32,31 +34,18 @@ from diagram.cli.options import (
     target_option,
     template_option,
 )
-from diagram.errors import DiagramError
+from diagram.cli.segments import segments
+from diagram.cli.teach import teach
 
 if TYPE_CHECKING:
     from diagram.batch.run import BatchSettings
     from diagram.drawing.labprofile import LabProfile
     from diagram.output.export import Renderer
 
-FORMATS = ("svg", "pdf", "png", "dcm", "json")
+FORMATS = ("svg", "pdf", "png", "dcm", "json", "fhir")
 
 
-@click.group(
-    context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100},
-    epilog=CAUTION,
-)
-@click.version_option(__version__, prog_name="limbchart")
-def cli() -> None:
-    """Draw graded leg-artery maps from arterial duplex findings.
-
-    Reads a study file (YAML or JSON), computes velocity ratios and stenosis bands with a
-    published criteria set, and draws the bilateral map. Output formats: SVG, PDF, PNG, DICOM
-    (.dcm, Encapsulated PDF) and JSON (the computed results).
-    """
-
-
-@cli.command()
+@click.command()
 @click.argument(
     "studies", nargs=-1, required=True, metavar=STUDIES_METAVAR, type=click.Path(path_type=Path)
 )
@@ -65,7 +54,7 @@ def cli() -> None:
     "--output",
     required=True,
     type=click.Path(),
-    help="Output file (format from its suffix: .svg .pdf .png .dcm .json), or a folder "
+    help="Output file (format from its suffix: .svg .pdf .png .dcm .json .fhir.json), or a folder "
     "(ending in /) for many studies.",
 )
 @click.option(
@@ -160,20 +149,18 @@ def draw(
         _warn_style(profile, lab)
     page = page or (profile.page if profile and profile.page else "a4")
     if single:
-        from diagram.pipeline import draw as draw_study
-        from diagram.reading.load import load_prior, load_study
+        from diagram.inputs import draw_inputs, load_inputs, load_template_for
+        from diagram.reading.load import load_study
 
         study = load_study(studies[0])
         _show_import_notes(study.import_notes)
-        earlier = load_prior(study, prior)
-        drawing = draw_study(
-            study,
-            page=page,
-            template=template,
-            criteria=criteria,
-            target=target,
-            prior=earlier,
-            lab=profile,
+        if chosen[0] == "dcm" and study.exam.study_uid is None:
+            from diagram.output.dicom import NO_STUDY_UID
+
+            click.echo(_printable(f"{studies[0]}: warning: {NO_STUDY_UID}"), err=True)
+        inputs = load_inputs(study, criteria=criteria, prior=prior)
+        drawing = draw_inputs(
+            inputs, load_template_for(template, profile), page=page, target=target, lab=profile
         )
         options = ExportOptions(png_dpi=png_dpi, renderer=renderer)
         written = export(drawing, Path(output), chosen[0], options, overwrite=overwrite)
@@ -282,7 +269,7 @@ def _draw_batch(
         sys.exit(summary.exit_status)
 
 
-@cli.command()
+@click.command()
 @click.argument(
     "studies", nargs=-1, required=True, metavar=STUDIES_METAVAR, type=click.Path(path_type=Path)
 )
@@ -304,14 +291,17 @@ def check(
     several studies each is headed by its file; a study with problems is reported and the rest
     are checked (exit status 2). --json prints the results document (a list for several).
     """
+    import json
+
     from diagram.batch.run import expand_inputs
+    from diagram.errors import DiagramError
     from diagram.output.results import results_document, results_table
 
     single = len(studies) == 1 and _is_study_file(studies[0])
     if prior is not None and not single:
         raise click.UsageError("--prior goes with one study; in a list each study names its own.")
     if single:
-        assessment = _assess_file(studies[0], criteria, target, prior)
+        assessment = _assess_path(studies[0], criteria, target, prior)
         if as_json:
             click.echo(json.dumps(results_document(assessment, version=__version__), indent=2))
         else:
@@ -322,7 +312,7 @@ def check(
     documents: list[dict[str, Any]] = []
     for path in expand_inputs(studies):
         try:
-            assessment = _assess_file(path, criteria, target, None)
+            assessment = _assess_path(path, criteria, target, None)
         except DiagramError as exc:
             failed += 1
             for line in exc.lines():
@@ -343,17 +333,17 @@ def check(
         raise SystemExit(2)
 
 
-def _assess_file(path: Path, criteria: str | None, target: str | None, prior: Path | None) -> Any:
+def _assess_path(path: Path, criteria: str | None, target: str | None, prior: Path | None) -> Any:
     """Return the assessment of one study file (with its prior, or ``prior`` instead)."""
-    from diagram.pipeline import assess_study
-    from diagram.reading.load import load_prior, load_study
+    from diagram.inputs import assess_file
+    from diagram.reading.load import load_study
 
     current = load_study(path)
     _show_import_notes(current.import_notes)
-    return assess_study(current, criteria=criteria, target=target, prior=load_prior(current, prior))
+    return assess_file(current, criteria=criteria, target=target, prior=prior)
 
 
-@cli.group()
+@click.group()
 def criteria() -> None:
     """List and show criteria sets (shipped, or a lab's own file)."""
 
@@ -380,11 +370,13 @@ def criteria_show(name_or_path: str) -> None:
     click.echo(criteria_table(load_criteria(name_or_path)))
 
 
-@cli.command()
+@click.command()
 @click.option("--results", is_flag=True, help="Print the schema of the results document instead.")
 @click.option("--lab", is_flag=True, help="Print the schema of a lab profile (lab.yaml) instead.")
 def schema(results: bool, lab: bool) -> None:
     """Print the JSON Schema of the study file (or of the results document, or a lab profile)."""
+    import json
+
     if results and lab:
         raise click.UsageError("give --results or --lab, not both.")
     if lab:
@@ -402,23 +394,31 @@ def schema(results: bool, lab: bool) -> None:
     click.echo(json.dumps(study_schema(), indent=2))
 
 
-def _register() -> None:
-    """Add the commands defined beside their stages (their heavy imports stay inside them)."""
-    from diagram.cli.design import COMMANDS
-    from diagram.cli.edit import edit
-    from diagram.cli.importing import import_report
-    from diagram.cli.segments import segments
-    from diagram.cli.teach import teach
+# Every command of the tool, registered here and nowhere else.
+@click.group(
+    commands=[
+        draw,
+        check,
+        criteria,
+        schema,
+        segments,
+        teach,
+        import_report,
+        edit,
+        *DESIGN_COMMANDS,
+    ],
+    context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100},
+    epilog=CAUTION,
+)
+@click.version_option(__version__, prog_name="limbchart")
+def cli() -> None:
+    """Draw graded leg-artery maps from arterial duplex findings.
 
-    cli.add_command(teach)
-    cli.add_command(import_report)
-    cli.add_command(segments)
-    cli.add_command(edit)
-    for command in COMMANDS:
-        cli.add_command(command)
-
-
-_register()
+    Reads a study file (YAML or JSON), computes velocity ratios and stenosis bands with a
+    published criteria set, and draws the bilateral map. Output formats: SVG, PDF, PNG, DICOM
+    (.dcm, Encapsulated PDF), JSON (the computed results) and FHIR (.fhir.json, an HL7 FHIR R4
+    Bundle).
+    """
 
 
 class Interrupted(KeyboardInterrupt):
@@ -475,6 +475,17 @@ def _printable(line: str) -> str:
     return "".join(ch if ch.isprintable() else ascii(ch)[1:-1] for ch in line)
 
 
+def _tool_error(exc: Exception) -> int:
+    """Print a tool error one line per problem and return its exit status; re-raise a bug."""
+    from diagram.errors import DiagramError  # imported here: ``--help`` needs none of it
+
+    if not isinstance(exc, DiagramError):
+        raise exc
+    for line in exc.lines():
+        click.echo(_printable(line), err=True)
+    return exc.exit_code
+
+
 def main(args: list[str] | None = None, prog_name: str | None = None) -> None:
     """Run the command line; a tool error prints one line per problem and exits with status 2.
 
@@ -489,16 +500,14 @@ def main(args: list[str] | None = None, prog_name: str | None = None) -> None:
                     args=args, prog_name=prog_name or "limbchart", standalone_mode=False
                 )
                 code = result if isinstance(result, int) else 0
-            except DiagramError as exc:
-                for line in exc.lines():
-                    click.echo(_printable(line), err=True)
-                code = exc.exit_code
             except click.exceptions.Abort:  # Ctrl-C or SIGTERM inside a command
                 click.echo("interrupted", err=True)
                 code = 130
             except click.ClickException as exc:
                 exc.show()
                 code = exc.exit_code
+            except Exception as exc:
+                code = _tool_error(exc)
             except SystemExit as exc:  # a command's own status, e.g. a batch's summary
                 code = exc.code
         except KeyboardInterrupt:  # a stop signal while a message above was printed

@@ -1,6 +1,6 @@
 """The ``limbchart segments`` command: every segment id, its aliases, level and nominal length.
 
-Registered on the command group with ``cli.add_command(segments)``. The lengths listed are the
+Listed in the command group of :mod:`diagram.cli.main`. The lengths listed are the
 ones a lesion's ``from_cm`` and ``length_cm`` are measured against; the band ids are those a
 segment's ``band:`` may name in each shipped criteria set.
 """

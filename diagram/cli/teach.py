@@ -1,6 +1,6 @@
 """The ``limbchart teach`` command: export studies as de-identified teaching cases.
 
-Registered on the command group with ``cli.add_command(teach)``. Only click is imported here;
+Listed in the command group of ``diagram.cli.main``. Only click is imported here;
 the work is in :mod:`diagram.teaching.batch` and :mod:`diagram.teaching.case`, imported when the
 command runs, so that ``limbchart --help`` stays light.
 """

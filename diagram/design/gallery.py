@@ -172,11 +172,11 @@ def gallery_svg(
 ) -> str:
     """Return the gallery page as SVG text (A4 unless ``page`` is ``letter``)."""
     from diagram._version import __version__
+    from diagram.assess import assess
     from diagram.drawing.layout import layout
     from diagram.drawing.scene import Box, Rect, Scene
     from diagram.drawing.template.mapfile import load_template
     from diagram.output.svg import render_svg
-    from diagram.pipeline import assess_study
     from diagram.reading.load import load_study_text
 
     style = style or default_style()
@@ -187,7 +187,7 @@ def gallery_svg(
     earlier = load_study_text(
         specimen_yaml(side, covered, prior=True), "specimen-prior.yaml", ".yaml"
     )
-    assessment = assess_study(study, prior=earlier)
+    assessment = assess(study, prior=earlier)
     map_scene = layout(
         assessment, tpl, page="map", version=__version__, generated_note=SPECIMEN_NOTE, style=style
     )
@@ -211,6 +211,7 @@ def gallery_svg(
         pressure_regions=(),
     )
     outer = render_svg(panel).replace('id="sheet"', 'id="gallery-sheet"', 1)
+    outer = outer.replace('id="font-faces"', 'id="gallery-font-faces"', 1)
     # The specimen's own sheet, scaled to the room under the panel, as a nested <svg>.
     room_w, room_h = width - 2 * MARGIN_PT, height - PANEL_PT - MARGIN_PT
     scale = min(1.0, room_w / map_scene.width_pt, room_h / map_scene.height_pt)

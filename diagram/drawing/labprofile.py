@@ -8,7 +8,7 @@
     page: a4                             # a4, letter or map
     font: DejaVu Sans                    # the shipped font is the only one (see below)
     bands:                               # by house look; any field may be left out
-      50-74: {tint: "#E59A4E", hatch: lines, spacing_pt: 2.4, angle_deg: 45, weight_pt: 0.55}
+      50-74: {tint: "#E59A4E", hatch: lines, spacing_pt: 3.6, angle_deg: 45, weight_pt: 0.82}
 
 Every field is optional. A band's fields replace those of the default style's band of the same
 look (``dataclasses.replace``); nothing else changes. The only font is the shipped DejaVu Sans:

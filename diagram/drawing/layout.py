@@ -73,11 +73,24 @@ class _Sheet:
         return block.draw(Box(self.x0, bottom - h, self.width, h)), bottom - h
 
 
+def _boundaries(assessment: Assessment) -> tuple[str, ...]:
+    """Return the legend's line on band boundaries: each set's thresholds as its file states them.
+
+    ">=" puts a value exactly on the boundary in the higher band, ">" leaves it in the lower one.
+    """
+    if not assessment.criteria_rules:
+        return ()
+    rules = "; ".join(assessment.criteria_rules).replace(">=", "\u2265")
+    head = "Band thresholds (\u2265: a value on the boundary goes to the higher band; >: not)"
+    return (f"{head}: {rules}.",)
+
+
 def sheet_tables(assessment: Assessment, bands: Mapping[str, BandStyle]) -> list[Table]:
     """Return the tables a full sheet carries: the planning summary, the change table."""
     out = []
     if assessment.planning:
-        out.append(planning_table(assessment.planning, bands))
+        grafts = {side: limb.grafts for side, limb in assessment.limbs.items()}
+        out.append(planning_table(assessment.planning, bands, grafts))
     if assessment.comparison is not None:
         out.append(change_table(assessment.comparison, bands))
     return out
@@ -92,7 +105,7 @@ def _legend(sheet: _Sheet, pressures: bool) -> Legend:
             if c.change in BAND_CHANGES
         }
     )
-    note = VELOCITY_NOTE + (" " + PRESSURE_SOURCES if pressures else "")
+    note = " ".join((VELOCITY_NOTE, *_boundaries(a), *((PRESSURE_SOURCES,) if pressures else ())))
     bands = sheet.bands
     return Legend(list(bands.values()), symbols_used(a, changes), sheet.style, bands, note)
 

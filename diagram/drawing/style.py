@@ -66,13 +66,15 @@ def _band(
 
 def _default_bands() -> tuple[BandStyle, ...]:
     # Tints fall in lightness with severity (relative luminance about 0.91, 0.62, 0.40, 0.14,
-    # 0.013; a test pins the order); textures add the second, colour-free cue.
+    # 0.013; a test pins the order); textures add the second, colour-free cue. Tiles of 3.3 pt
+    # or more keep the texture visible on screens (72-96 dpi) in every renderer tried; at
+    # 2.2-2.6 pt librsvg and poppler drew flat tints there (tests/test_cairo_render.py).
     return (
         # id          label           tint       hatch        spacing angle weight ink  outline
         _band("normal", "Normal", "#F2F6F3", Hatch.NONE, 4.0, 0.0, 0.0, "#4F6660", "#4F6660"),
-        _band("lt50", "<50%", "#ECCB6A", Hatch.DOTS, 2.6, 0.0, 0.5, "#5E4A0E", "#5E4A0E"),
-        _band("50-74", "50-74%", "#E59A4E", Hatch.LINES, 2.4, 45.0, 0.55, "#4A2608", "#4A2608"),
-        _band("75-99", "75-99%", "#A94A36", Hatch.CROSS, 2.2, 45.0, 0.5, "#2B0E07", "#2B0E07"),
+        _band("lt50", "<50%", "#ECCB6A", Hatch.DOTS, 3.9, 0.0, 0.75, "#5E4A0E", "#5E4A0E"),
+        _band("50-74", "50-74%", "#E59A4E", Hatch.LINES, 3.6, 45.0, 0.82, "#4A2608", "#4A2608"),
+        _band("75-99", "75-99%", "#A94A36", Hatch.CROSS, 3.3, 45.0, 0.75, "#2B0E07", "#2B0E07"),
         _band("occluded", "Occluded", "#241C20", Hatch.SOLID, 4.0, 0.0, 0.0, "#120D10", "#000000"),
         # Not assessed: white, sparse open rings, dashed edge - never read as a normal lumen.
         _band(

@@ -53,7 +53,10 @@ SECURITY_HEADERS = {
     "referrer-policy": "no-referrer",  # the address carries the token
     "x-frame-options": "DENY",
     "content-security-policy": (
-        "default-src 'none'; script-src 'self'; style-src 'self'; img-src 'self' data:; "
+        # The map's SVG carries the shipped font as an inline @font-face with a data: URL, so
+        # inline styles and data: fonts are allowed; scripts stay limited to the page's own file.
+        "default-src 'none'; script-src 'self'; style-src 'self' 'unsafe-inline'; "
+        "font-src data:; img-src 'self' data:; "
         "connect-src 'self'; form-action 'none'; frame-ancestors 'none'; base-uri 'none'"
     ),
 }

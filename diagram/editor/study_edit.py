@@ -19,11 +19,12 @@ from typing import Any
 from diagram import anatomy
 from diagram._version import __version__
 from diagram.errors import DiagramError, ExportError, InputError, Problem, StudyError
-from diagram.reading.load import MAX_BYTES, load_prior, load_study, load_study_text
+from diagram.reading.formats import MAX_BYTES, study_suffixes
+from diagram.reading.load import load_prior, load_study, load_study_text
 from diagram.reading.study import Study
 
 MAX_BODY = MAX_BYTES + 64 * 1024  # a study file's limit, plus the envelope of a save request
-STUDY_SUFFIXES = (".yaml", ".yml", ".json")
+STUDY_SUFFIXES = study_suffixes()
 EXPORTS: dict[str, tuple[str, str]] = {  # format: (media type, suffix)
     "svg": ("image/svg+xml", ".svg"),
     "pdf": ("application/pdf", ".pdf"),
@@ -69,7 +70,7 @@ def open_study(path: Path | None) -> EditedStudy:
 
     A file with problems raises its StudyError: the command line reports it as ``check`` would.
     """
-    from diagram.teaching.study_yaml import study_data
+    from diagram.reading.plain import study_data
 
     if path is None:
         return EditedStudy(None, Path.cwd(), data=dict(NEW_STUDY))
@@ -126,12 +127,24 @@ def _one_line(line: str) -> str:
     return "".join(ch if ch.isprintable() else ascii(ch)[1:-1] for ch in line)
 
 
+def _inputs(study: Study, edited: EditedStudy) -> dict[str, Any]:
+    """Return the criteria sets of the study and of its prior, read at the edge, as keywords."""
+    from diagram.inputs import study_criteria
+
+    prior = edited.prior
+    return {
+        "criteria": study_criteria(study),
+        "prior": prior,
+        "prior_criteria": study_criteria(prior) if prior is not None else None,
+    }
+
+
 def results(study: Study, edited: EditedStudy) -> dict[str, Any]:
     """Return the results document of the study (as ``check --json`` prints it)."""
+    from diagram.assess import assess
     from diagram.output.results import results_document
-    from diagram.pipeline import assess_study
 
-    return results_document(assess_study(study, prior=edited.prior), version=__version__)
+    return results_document(assess(study, **_inputs(study, edited)), version=__version__)
 
 
 def vessel_hooks(template: Any) -> dict[str, dict[str, str]]:
@@ -155,9 +168,10 @@ def preview(study: Study, edited: EditedStudy) -> dict[str, Any]:
     from diagram.output.svg import render_svg
     from diagram.pipeline import draw
 
-    drawing = draw(study, page=edited.page, template=edited.template, prior=edited.prior)
+    template = load_template(edited.template)
+    drawing = draw(study, page=edited.page, template=template, **_inputs(study, edited))
     assert drawing.scene is not None  # the pipeline hands over the Scene
-    hooks = vessel_hooks(load_template(edited.template))
+    hooks = vessel_hooks(template)
     svg = render_svg(drawing.scene, annotate=lambda item: hooks.get(item.id))
     box = drawing.scene.map_box
     return {
@@ -247,7 +261,7 @@ def save(study: Study, edited: EditedStudy, target: Path) -> Path:
     import json
 
     from diagram.output.export import write_atomic
-    from diagram.teaching.study_yaml import study_data, study_yaml
+    from diagram.reading.plain import study_data, study_yaml
 
     if target.suffix.lower() == ".json":
         text = json.dumps(study_data(study), indent=2, ensure_ascii=False) + "\n"
@@ -267,10 +281,12 @@ def save(study: Study, edited: EditedStudy, target: Path) -> Path:
 
 def export_bytes(study: Study, edited: EditedStudy, fmt: str) -> bytes:
     """Return the study drawn in one export format, through the same writers as ``draw``."""
+    from diagram.drawing.template.mapfile import load_template
     from diagram.output.export import render_bytes
     from diagram.pipeline import draw
 
-    drawing = draw(study, page=edited.page, template=edited.template, prior=edited.prior)
+    template = load_template(edited.template)
+    drawing = draw(study, page=edited.page, template=template, **_inputs(study, edited))
     return render_bytes(drawing, fmt)
 
 

@@ -16,7 +16,7 @@ import functools
 import io
 import math
 from collections.abc import Mapping
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 import cairo
 
@@ -124,7 +124,7 @@ def band_pattern(band: BandStyle) -> cairo.SurfacePattern:
 class CairoRenderer:
     """Draw one Scene page's items on a cairo context whose user units are page points."""
 
-    def __init__(self, ctx: cairo.Context[cairo.Surface], bands: Sequence[BandStyle]) -> None:
+    def __init__(self, ctx: cairo.Context[Any], bands: Sequence[BandStyle]) -> None:
         self.ctx = ctx
         self.bands: Mapping[str, BandStyle] = {band.id: band for band in bands}
         self._patterns: dict[str, cairo.SurfacePattern] = {}

@@ -3,13 +3,22 @@
 The sheet's PDF bytes go in Encapsulated Document (0042,0011) unchanged. Patient and study
 attributes come from the study file; the exam's Study Instance UID is reused when the study file
 gives one (``exam.study_uid``) so the archive files the sheet beside the images, otherwise a new
-one is made. Series and SOP Instance UIDs are always new. pydicom is imported only here.
+one is made (and the command line warns that the map will form a study of its own). Series and
+SOP Instance UIDs are always new.
+
+Every UID this tool makes comes from one root: ``2.25``, the UUID-derived root of PS3.5 B.2
+(``2.25.`` followed by a random UUID as one integer), never a library's example root. The
+Implementation Class UID is fixed: ``2.25.`` and the integer of the name-based UUID (RFC 4122
+version 5, URL namespace) of ``IMPLEMENTATION_NAME``. Study Time is the time the map is made (the
+study file holds no time of day; empty in a de-identified file); Study ID is the accession number
+(at most 16 characters, PS3.5 SH) or ``1`` without one. pydicom is imported only here.
 """
 
 from __future__ import annotations
 
 import datetime as dt
 import io
+import uuid
 from dataclasses import dataclass
 
 from diagram.reading.study import Study
@@ -17,6 +26,23 @@ from diagram.reading.study import Study
 DOCUMENT_TITLE = "Leg arterial duplex map"  # generic: no identifier in the title
 MANUFACTURER = "limbchart"
 _SEX = {"female": "F", "male": "M", "other": "O", "unknown": ""}
+UID_ROOT = "2.25"  # PS3.5 B.2: a UUID written as one decimal integer
+IMPLEMENTATION_NAME = "https://limbchart.invalid/dicom-implementation"
+IMPLEMENTATION_CLASS_UID = f"{UID_ROOT}.{uuid.uuid5(uuid.NAMESPACE_URL, IMPLEMENTATION_NAME).int}"
+NO_STUDY_UID = (
+    "exam.study_uid: not given: the map will form a study of its own in the archive; give the "
+    "exam's Study Instance UID to file it beside the images."
+)
+
+
+def new_uid() -> str:
+    """Return a new UID under the tool's one root (2.25, UUID-derived; at most 64 characters)."""
+    return f"{UID_ROOT}.{uuid.uuid4().int}"
+
+
+def study_id(accession: str) -> str:
+    """Return the Study ID (SH, 16 characters): the accession number, or 1 without one."""
+    return accession.strip()[:16] or "1"
 
 
 @dataclass(frozen=True)
@@ -77,14 +103,15 @@ def encapsulated_pdf(
 ) -> bytes:
     """Return a DICOM Part 10 file holding ``pdf`` as an Encapsulated PDF instance."""
     from pydicom.dataset import Dataset, FileMetaDataset
-    from pydicom.uid import EncapsulatedPDFStorage, ExplicitVRLittleEndian, generate_uid
+    from pydicom.uid import UID, EncapsulatedPDFStorage, ExplicitVRLittleEndian
 
     moment = now or dt.datetime.now()
-    sop_uid = generate_uid()
+    sop_uid = UID(new_uid())
     meta = FileMetaDataset()
     meta.MediaStorageSOPClassUID = EncapsulatedPDFStorage
     meta.MediaStorageSOPInstanceUID = sop_uid
     meta.TransferSyntaxUID = ExplicitVRLittleEndian
+    meta.ImplementationClassUID = UID(IMPLEMENTATION_CLASS_UID)
     meta.ImplementationVersionName = f"LIMBCHART{version.replace('.', '')}"[:16]
 
     ds = Dataset()
@@ -98,15 +125,16 @@ def encapsulated_pdf(
     ds.PatientBirthDate = ident.birth_date
     ds.PatientSex = ident.sex
     # General Study module
-    ds.StudyInstanceUID = ident.study_uid or generate_uid()
+    ds.StudyInstanceUID = ident.study_uid or new_uid()
     ds.StudyDate = ident.study_date
-    ds.StudyTime = ""
+    # the moment of making the map; a de-identified file holds no time (PS3.15 E: Z)
+    ds.StudyTime = "" if ident.deidentified else moment.strftime("%H%M%S")
     ds.ReferringPhysicianName = ident.referrer
-    ds.StudyID = ""
+    ds.StudyID = study_id(ident.accession)
     ds.AccessionNumber = ident.accession
     # Encapsulated Document Series module
     ds.Modality = "DOC"
-    ds.SeriesInstanceUID = generate_uid()
+    ds.SeriesInstanceUID = new_uid()
     ds.SeriesNumber = 1
     # General Equipment and SC Equipment modules
     ds.Manufacturer = MANUFACTURER

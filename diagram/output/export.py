@@ -20,7 +20,7 @@ import os
 import secrets
 import signal
 import threading
-from collections.abc import Callable, Iterator, Mapping
+from collections.abc import Callable, Iterator, Mapping, Sequence
 from dataclasses import dataclass
 from functools import cached_property
 from pathlib import Path
@@ -184,6 +184,13 @@ def _json(drawing: Drawing, options: ExportOptions) -> bytes:
         return (json.dumps(drawing.results, indent=2, sort_keys=False) + "\n").encode("ascii")
 
 
+def _fhir(drawing: Drawing, options: ExportOptions) -> bytes:
+    from diagram.output.dicom import DOCUMENT_TITLE
+    from diagram.output.fhir import fhir_bytes
+
+    return fhir_bytes(drawing.results, _pdf(drawing, options), DOCUMENT_TITLE)
+
+
 WRITERS: Mapping[str, Writer] = MappingProxyType(
     {
         "svg": _svg,
@@ -191,15 +198,24 @@ WRITERS: Mapping[str, Writer] = MappingProxyType(
         "png": _png,
         "dcm": _dcm,
         "json": _json,
+        "fhir": _fhir,
     }
 )
 FORMATS: tuple[str, ...] = tuple(WRITERS)
+FHIR_SUFFIX = ".fhir.json"  # a FHIR bundle is JSON: the double suffix tells it from results
+
+
+def suffix_for(fmt: str) -> str:
+    """Return the file suffix (without its dot) a format is written under."""
+    return FHIR_SUFFIX.lstrip(".") if fmt == "fhir" else fmt
 
 
 def format_for(
     path: Path, forced: str | None = None, writers: Mapping[str, Writer] = WRITERS
 ) -> str:
     """Return the output format: ``forced`` if given, else the path's suffix."""
+    if forced is None and path.name.lower().endswith(FHIR_SUFFIX):
+        return "fhir"
     fmt = (forced or path.suffix.lstrip(".")).lower()
     if fmt not in writers:
         shown = forced if forced else (path.suffix or "(no suffix)")
@@ -300,6 +316,28 @@ def write_atomic(path: Path, data: bytes, *, overwrite: bool = True) -> None:
         if owned is not None:
             with contextlib.suppress(OSError):  # gone already once renamed into place
                 os.unlink(owned)
+
+
+def write_all(files: Sequence[tuple[Path, bytes]], *, overwrite: bool = True) -> tuple[Path, ...]:
+    """Write every file atomically, in order; on any failure remove the ones written, then raise.
+
+    All the files or none: an error or an interrupt between two writes takes back those already
+    written, except files that existed before and were replaced under ``overwrite`` (they cannot
+    be brought back). Without ``overwrite`` each file is created exclusively (:func:`write_atomic`).
+    """
+    made: list[Path] = []
+    try:
+        for path, data in files:
+            existed = overwrite and os.path.lexists(path)
+            write_atomic(path, data, overwrite=overwrite)
+            if not existed:
+                made.append(path)
+    except BaseException:
+        for path in made:
+            with contextlib.suppress(OSError):
+                path.unlink()
+        raise
+    return tuple(path for path, _ in files)
 
 
 def exists_message(path: Path) -> str:

@@ -12,12 +12,14 @@ from diagram.assess.results import (
     Assessment,
     GraftResult,
     LesionResult,
+    LimbIndices,
     Reference,
     SegmentResult,
     Span,
     StentResult,
 )
 from diagram.caution import CAUTION
+from diagram.reading.plain import CRITERIA_KEYS, exam_data, patient_data
 from diagram.reading.study import Study
 
 if TYPE_CHECKING:
@@ -152,23 +154,10 @@ def _plain(value: Any) -> Any:
 
 
 def _study_echo(study: Study) -> dict[str, Any]:
-    p, e = study.patient, study.exam
+    exam = exam_data(study.exam)
     return {
-        "patient": {
-            "name": p.name,
-            "id": p.id,
-            "birth_date": p.birth_date.isoformat() if p.birth_date else None,
-            "sex": p.sex,
-        },
-        "exam": {
-            "date": e.date.isoformat() if e.date else None,
-            "accession": e.accession,
-            "site": e.site,
-            "operator": e.operator,
-            "referrer": e.referrer,
-            "indication": e.indication,
-            "study_uid": e.study_uid,
-        },
+        "patient": patient_data(study.patient),
+        "exam": {k: v for k, v in exam.items() if k not in CRITERIA_KEYS},
     }
 
 
@@ -228,76 +217,66 @@ def _fmt(value: float | None) -> str:
     return f"{value:g}" if not isinstance(value, float) or value.is_integer() else f"{value:.2f}"
 
 
+Row = tuple[str, ...]
+
+
+def _graft_rows(side: Side, g: GraftResult) -> list[Row]:
+    flow = f"graft flow {g.flow_velocity:g} cm/s" if g.flow_velocity is not None else ""
+    basis = "; ".join(x for x in (g.basis, flow) if x)
+    rows: list[Row] = [
+        (side.value, f"{g.conduit} graft {g.from_}-{g.to}", g.band, "-", "-", "-", basis)
+    ]
+    for site in g.sites:
+        where = f"  graft {site.site.replace('_', ' ')}"
+        rows.append((side.value, where, site.band, _fmt(site.psv), "-", _fmt(site.vr), site.basis))
+    return rows
+
+
+def _index_rows(side: Side, ix: LimbIndices | None) -> list[Row]:
+    if ix is None or (ix.abi is None and ix.tbi is None):
+        return []
+    rows: list[Row] = [
+        (side.value, "ABI", ix.abi_category or "-", "-", "-", _fmt(ix.abi), ix.abi_basis)
+    ]
+    if ix.tbi is not None:
+        rows.append(
+            (side.value, "TBI", ix.tbi_category or "-", "-", "-", _fmt(ix.tbi), ix.tbi_basis)
+        )
+    return rows
+
+
+def _limb_rows(assessment: Assessment, side: Side) -> list[Row]:
+    """Return one limb's rows: segments, lesions, stents, grafts, then its indices."""
+    limb = assessment.limbs[side]
+    rows: list[Row] = []
+    for seg in anatomy.SEGMENT_IDS:
+        r = limb.segments[seg]
+        if r.assessed and not (seg in anatomy.UNPAIRED and side is Side.LEFT):
+            # the unpaired aorta is listed once, under the right side
+            rows.append((side.value, seg, r.band, _fmt(r.psv), _fmt(r.edv), _fmt(r.vr), r.basis))
+    for les in limb.lesions:
+        where = f"{les.at} lesion {les.index + 1}"
+        if les.length_cm is not None:
+            where += f" ({les.length_cm:g} cm)"
+        rows.append(
+            (side.value, where, les.band, _fmt(les.psv), _fmt(les.edv), _fmt(les.vr), les.basis)
+        )
+    for stent in limb.stents:
+        extent = (
+            f"{stent.spans[0].segment}-{stent.spans[-1].segment}" if stent.spans else stent.from_
+        )
+        rows.append((side.value, f"stent {extent}", "-", "-", "-", "-", "in-stent criteria"))
+    for g in limb.grafts:
+        rows.extend(_graft_rows(side, g))
+    rows.extend(_index_rows(side, assessment.indices.get(side)))
+    return rows
+
+
 def results_table(assessment: Assessment) -> str:
     """Return the grading as a plain-text table, one row per assessed segment and lesion."""
-    rows: list[tuple[str, ...]] = [("side", "segment", "band", "PSV", "EDV", "Vr", "basis")]
+    rows: list[Row] = [("side", "segment", "band", "PSV", "EDV", "Vr", "basis")]
     for side in (Side.RIGHT, Side.LEFT):
-        limb = assessment.limbs[side]
-        for seg in anatomy.SEGMENT_IDS:
-            r = limb.segments[seg]
-            if not r.assessed or (seg in anatomy.UNPAIRED and side is Side.LEFT):
-                continue  # the unpaired aorta is listed once, under the right side
-            rows.append((side.value, seg, r.band, _fmt(r.psv), _fmt(r.edv), _fmt(r.vr), r.basis))
-        for les in limb.lesions:
-            where = f"{les.at} lesion {les.index + 1}"
-            if les.length_cm is not None:
-                where += f" ({les.length_cm:g} cm)"
-            rows.append(
-                (side.value, where, les.band, _fmt(les.psv), _fmt(les.edv), _fmt(les.vr), les.basis)
-            )
-        for st in limb.stents:
-            extent = f"{st.spans[0].segment}-{st.spans[-1].segment}" if st.spans else st.from_
-            rows.append((side.value, f"stent {extent}", "-", "-", "-", "-", "in-stent criteria"))
-        for g in limb.grafts:
-            flow = f"graft flow {g.flow_velocity:g} cm/s" if g.flow_velocity is not None else ""
-            rows.append(
-                (
-                    side.value,
-                    f"{g.conduit} graft {g.from_}-{g.to}",
-                    g.band,
-                    "-",
-                    "-",
-                    "-",
-                    "; ".join(x for x in (g.basis, flow) if x),
-                )
-            )
-            for site in g.sites:
-                rows.append(
-                    (
-                        side.value,
-                        f"  graft {site.site.replace('_', ' ')}",
-                        site.band,
-                        _fmt(site.psv),
-                        "-",
-                        _fmt(site.vr),
-                        site.basis,
-                    )
-                )
-        for ix in [assessment.indices.get(side)]:
-            if ix is not None and (ix.abi is not None or ix.tbi is not None):
-                rows.append(
-                    (
-                        side.value,
-                        "ABI",
-                        ix.abi_category or "-",
-                        "-",
-                        "-",
-                        _fmt(ix.abi),
-                        ix.abi_basis,
-                    )
-                )
-                if ix.tbi is not None:
-                    rows.append(
-                        (
-                            side.value,
-                            "TBI",
-                            ix.tbi_category or "-",
-                            "-",
-                            "-",
-                            _fmt(ix.tbi),
-                            ix.tbi_basis,
-                        )
-                    )
+        rows.extend(_limb_rows(assessment, side))
     widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]) - 1)]
     lines = [
         "  ".join(c.ljust(w) for c, w in zip(r[:-1], widths, strict=False)) + "  " + r[-1]

@@ -190,19 +190,35 @@ def _item_elements(
     raise TypeError(f"not a scene item: {item!r}")  # a bug in layout, not a user error
 
 
+def _text_chars(scene: Scene) -> tuple[set[str], set[str]]:
+    """Return the characters of the page's regular and bold text."""
+    regular: set[str] = set()
+    bold: set[str] = set()
+    for item in scene.walk():
+        if isinstance(item, Text):
+            (bold if item.weight is Weight.BOLD else regular).update(clean_text(item.text))
+    return regular, bold
+
+
 def render_svg(scene: Scene, annotate: Annotate | None = None) -> str:
-    """Return the SVG text of ``scene``; ``annotate`` may add attributes to items' elements."""
+    """Return the SVG text of ``scene``, carrying the subset of the shipped font it uses;
+    ``annotate`` may add attributes to items' elements."""
     import svgwrite
+
+    from diagram.output.webfont import family_list, font_face_css
 
     width, height = scene.size_in_unit()
     dwg = svgwrite.Drawing(profile="full", debug=False)
     dwg["width"] = f"{fmt(width)}{scene.unit}"
     dwg["height"] = f"{fmt(height)}{scene.unit}"
     dwg["viewBox"] = f"0 0 {fmt(scene.width_pt)} {fmt(scene.height_pt)}"
+    regular, bold = _text_chars(scene)
+    if regular or bold:
+        dwg.defs.add(dwg.style(font_face_css(scene.font_family, regular, bold), id="font-faces"))
     for band in scene.bands:
         dwg.defs.add(_pattern(dwg, band))
     sheet = dwg.g(id="sheet")
-    sheet["font-family"] = scene.font_family
+    sheet["font-family"] = family_list(scene.font_family)
     bands = {band.id: band for band in scene.bands}
     for item in scene.items:
         for el in _elements(dwg, item, bands, annotate):

@@ -39,12 +39,15 @@ class Parsed:
     kind: str = "yaml"
     tree: object = None
     lines: dict[Loc, int] = field(default_factory=dict)
+    places: dict[Loc, str] = field(default_factory=dict)  # where no line applies (e.g. DICOM)
     raw: dict[Loc, str] = field(default_factory=dict)  # source text of non-string scalars
     problems: list[Problem] = field(default_factory=list)
     unreadable: set[Loc] = field(default_factory=set)  # values already refused
 
-    def note(self, loc: Loc, line: int, rule: str, value: str | None = None) -> None:
-        self.problems.append(Problem("", line, dotted(loc), value, rule))
+    def note(
+        self, loc: Loc, line: int | None, rule: str, value: str | None = None, at: str | None = None
+    ) -> None:
+        self.problems.append(Problem("", line, dotted(loc), value, rule, at=at))
 
 
 _NO_VALUE = object()  # a problem about a key or an item, not about a value
@@ -223,9 +226,7 @@ class Checker:
     def __init__(self, name: str, parsed: Parsed) -> None:
         self.name = name
         self.parsed = parsed
-        self.problems: list[Problem] = [
-            Problem(name, p.line, p.field, p.value, p.rule, p.hint) for p in parsed.problems
-        ]
+        self.problems: list[Problem] = [dataclasses.replace(p, file=name) for p in parsed.problems]
         self.bad: set[Loc] = set(parsed.unreadable)
         self.seen: set[tuple[int | None, str, str]] = set()
 
@@ -233,6 +234,12 @@ class Checker:
         for end in range(len(loc), -1, -1):
             if loc[:end] in self.parsed.lines:
                 return self.parsed.lines[loc[:end]]
+        return None
+
+    def place(self, loc: Loc) -> str | None:
+        for end in range(len(loc), -1, -1):
+            if loc[:end] in self.parsed.places:
+                return self.parsed.places[loc[:end]]
         return None
 
     def show(self, loc: Loc, value: object) -> str | None:
@@ -263,7 +270,8 @@ class Checker:
         if (line, dotted(loc), rule) in self.seen:
             return
         self.seen.add((line, dotted(loc), rule))
-        self.problems.append(Problem(self.name, line, dotted(loc), text, rule, hint))
+        at = self.place(loc) if line is None else None
+        self.problems.append(Problem(self.name, line, dotted(loc), text, rule, hint, at))
 
     def refuse(
         self, item: dict[str, object], loc: Loc, key: str, rule: str, hint: str | None = None

@@ -17,14 +17,12 @@ same object as in the source: the grading cannot change.
 
 from __future__ import annotations
 
-import contextlib
-import inspect
 import secrets
 from collections import Counter
 from collections.abc import Mapping
 from dataclasses import dataclass, replace
 from pathlib import Path
-from typing import TYPE_CHECKING, Any, TypeVar
+from typing import TYPE_CHECKING, TypeVar
 
 from diagram._version import __version__
 from diagram.drawing.scene import CaseHeader
@@ -218,19 +216,16 @@ def case_pages(
     case: TeachCase, *, page: str = "a4", template: str | Path | None = None
 ) -> tuple[str, ...]:
     """Draw the teaching case (header: the case only); return each page's SVG, allow-listed."""
+    from diagram.assess import assess
     from diagram.drawing.layout import layout
     from diagram.drawing.template.mapfile import load_template
-    from diagram.output import svg as render
-    from diagram.pipeline import assess_study
+    from diagram.output.svg import render_pages
     from diagram.teaching.clean import clean_svg
 
-    assessment = assess_study(case.study)
-    extra: dict[str, Any] = {}
-    if "case" in inspect.signature(layout).parameters:  # the sheet header shows only the case
-        extra["case"] = case.header
-    scene = layout(assessment, load_template(template), page=page, version=__version__, **extra)
-    pages = getattr(render, "render_pages", None)  # a sheet whose tables run onto more pages
-    svgs: tuple[str, ...] = tuple(pages(scene)) if pages else (render.render_svg(scene),)
+    assessment = assess(case.study)  # a teaching case names shipped criteria sets only
+    tpl = load_template(template)
+    scene = layout(assessment, tpl, page=page, version=__version__, case=case.header)
+    svgs = render_pages(scene)
     return tuple(clean_svg(svg) for svg in svgs)
 
 
@@ -242,8 +237,8 @@ def _drawing(pages: tuple[str, ...]) -> Drawing:
 
 
 def _yaml_text(case: TeachCase) -> str:
+    from diagram.reading.plain import dump_study
     from diagram.teaching.casefile import teaching_data
-    from diagram.teaching.study_yaml import dump_study
 
     h = case.header
     facts = [f"teaching case {case.case_id}"]
@@ -264,13 +259,13 @@ def _yaml_text(case: TeachCase) -> str:
 
 def _check_reload(case: TeachCase, text: str) -> None:
     """Refuse a study file that does not read back to the same results (a bug, stated plainly)."""
+    from diagram.assess import assess
     from diagram.output.results import results_document
-    from diagram.pipeline import assess_study
     from diagram.reading.load import load_study_text
 
     again = load_study_text(text, f"{case.case_id}.yaml", ".yaml")
-    before = results_document(assess_study(case.study), version=__version__, identified=False)
-    after = results_document(assess_study(again), version=__version__, identified=False)
+    before = results_document(assess(case.study), version=__version__, identified=False)
+    after = results_document(assess(again), version=__version__, identified=False)
     if before != after:
         raise ExportError(
             f"{case.case_id}.yaml: the study file does not read back to the same grading."
@@ -372,7 +367,7 @@ def render_case(study: Study, case_id: str, cfg: CaseSettings | None = None) -> 
 
 def write_case(outputs: CaseOutputs, out_dir: Path) -> tuple[Path, ...]:
     """Write a clean case's files atomically; all of them or, on any failure, none."""
-    from diagram.output.export import write_atomic
+    from diagram.output.export import write_all
 
     if not outputs.clean:
         raise TeachError(f"{outputs.case.case_id}: the scan found identifiers; nothing written.")
@@ -380,14 +375,4 @@ def write_case(outputs: CaseOutputs, out_dir: Path) -> tuple[Path, ...]:
     taken = [t.name for t in targets if t.exists()]
     if taken:
         raise ExportError(f"{out_dir}: {', '.join(taken)} exist already; nothing written.")
-    made: list[Path] = []
-    try:
-        for target in targets:
-            write_atomic(target, outputs.files[target.name])
-            made.append(target)
-    except BaseException:
-        for path in made:
-            with contextlib.suppress(OSError):
-                path.unlink()
-        raise
-    return tuple(made)
+    return write_all([(t, outputs.files[t.name]) for t in targets], overwrite=False)

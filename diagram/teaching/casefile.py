@@ -95,7 +95,7 @@ def allowed(data: object, spec: Any) -> Any:
 
 def teaching_data(study: Study, *, keep_text: bool) -> dict[str, Any]:
     """Return the study file's data for a teaching case, through the allow-list."""
-    from diagram.teaching.study_yaml import study_data
+    from diagram.reading.plain import study_data
 
     spec = _with_text(ALLOWED) if keep_text else ALLOWED
     data: dict[str, Any] = allowed(study_data(study), spec)

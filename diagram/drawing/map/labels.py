@@ -111,8 +111,8 @@ def _velocity(v: float) -> str:
 
 
 def _ratio(v: float) -> str:
-    text = f"{v:.2f}"
-    return text[:-1] if text.endswith("0") else text
+    """Return a velocity ratio as graded: always two decimals (3.00, not 3.0)."""
+    return f"{v:.2f}"
 
 
 def segment_label(segment: str, psv: float) -> str:

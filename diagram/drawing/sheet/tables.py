@@ -13,8 +13,9 @@ from functools import partial
 
 from diagram.anatomy import Side
 from diagram.assess.compare import ABI_SOURCE, BAND_CHANGES, Change, Comparison
+from diagram.assess.grafts import GRAFT_LOW_FLOW_CM_S
 from diagram.assess.planning import CALCIFICATION_ASSUMPTION, Planning, planning_note
-from diagram.assess.results import LimbIndices
+from diagram.assess.results import GraftResult, LimbIndices
 from diagram.drawing.sheet.cells import Cell, Entry, Row, Run, Table, Tone
 from diagram.drawing.sheet.cells import basis as _basis
 from diagram.drawing.sheet.cells import entry as _entry
@@ -69,10 +70,14 @@ def pressure_entries(ix: LimbIndices | None) -> tuple[Entry, ...]:
         tbi = _entry(_strong(f"TBI {ix.tbi:.2f} {ix.tbi_category}"), _basis(f" · {ix.tbi_basis}"))
     if ix.ischaemia_grade is None:
         grade = _entry(_strong("Ischaemia (WIfI) not graded"), _basis(f" · {ix.ischaemia_basis}"))
+    elif not ix.ischaemia_applies:  # a CLTI tool: not printed for a claudicant's leg
+        grade = _entry(
+            _strong("Ischaemia (WIfI) not applied"), _basis(f" · {ix.ischaemia_context}")
+        )
     else:
         grade = _entry(
             _strong(f"Ischaemia (WIfI) grade {ix.ischaemia_grade}"),
-            _basis(f" · {ix.ischaemia_basis}"),
+            _basis(f" · {ix.ischaemia_basis}; {_pretty(ix.ischaemia_context)}"),
         )
     return abi, tbi, grade
 
@@ -103,10 +108,18 @@ def _pretty(text: str) -> str:
 def _level(p: Planning, k: int, bands: Mapping[str, BandStyle]) -> Cell:
     lv = p.levels[k]
     label = bands[lv.worst_band].label if lv.worst_band in bands else lv.worst_band
-    runs: list[Run | str] = [_strong(label)]
+    unseen = len(lv.not_assessed)
     if lv.worst_band == NOT_ASSESSED:  # nothing at this level was assessed
-        runs.append(_basis(" · " + ", ".join(lv.not_assessed)))
+        runs: list[Run | str] = [
+            _strong("Not assessed"),
+            _basis(f" · {unseen} of {lv.segment_count} segments: " + ", ".join(lv.not_assessed)),
+        ]
         return (_entry(*runs, chip=lv.worst_band),)
+    runs = []
+    if unseen:  # never a bare "Normal" over segments that were not examined
+        runs += [Run("Partly assessed", Tone.FLAG), " · ", _strong(label), " where seen"]
+    else:
+        runs.append(_strong(label))
     if lv.lesion_count == 0 and lv.diseased_cm == 0:
         runs.append(" · no disease \u226550%")
     else:
@@ -114,8 +127,9 @@ def _level(p: Planning, k: int, bands: Mapping[str, BandStyle]) -> Cell:
         runs.append(f" · \u226550% over {_cm(lv.diseased_cm)} ({count})")
         if lv.occluded_cm:
             runs.append(f" · occluded {_cm(lv.occluded_cm)}")
-    if lv.not_assessed:
-        runs.append(_basis(" · not assessed: " + ", ".join(lv.not_assessed)))
+    if unseen:
+        where = ", ".join(lv.not_assessed)
+        runs.append(_basis(f" · {unseen} of {lv.segment_count} not assessed: {where}"))
     return (_entry(*runs, chip=lv.worst_band),)
 
 
@@ -141,12 +155,18 @@ def _runoff(p: Planning) -> Cell:
         by_state.setdefault(r.state, []).append(r.vessel)
     words = {"patent": "patent", "occluded": "occluded", "not-assessed": "not fully assessed"}
     states = "; ".join(f"{', '.join(v)} {words.get(k, k)}" for k, v in by_state.items())
-    runs: list[Run | str] = [
-        _strong(f"{p.runoff_vessels} of 3"),
-        " patent to the ankle",
-        _basis(f" ({states})"),
-        " · SVS score ",
-    ]
+    unseen = len(p.runoff_unassessed)
+    if not unseen:
+        head: list[Run | str] = [_strong(f"{p.runoff_vessels} of 3"), " patent to the ankle"]
+    elif not p.runoff_vessels and "occluded" not in by_state:
+        head = [_strong("Not assessed"), " to the ankle"]  # not "0 of 3": nothing was seen
+    else:
+        head = [
+            _strong(f"{p.runoff_vessels} patent"),
+            f", {unseen} not assessed",
+            " to the ankle",
+        ]
+    runs: list[Run | str] = [*head, _basis(f" ({states})"), " · SVS score "]
     if p.runoff_score is None:
         runs += [_strong("\u2014"), _basis(" (not scored)")]
     else:
@@ -159,17 +179,25 @@ def _graded(head: Sequence[Run | str], drivers: Sequence[str]) -> Cell:
     return (_entry(*head, _basis(" · " + "; ".join(_pretty(d) for d in drivers))),)
 
 
+def _provisional(grade: str, provisional: bool) -> list[Run | str]:
+    """Return a grade's head; one resting on unseen segments says so (it may be higher)."""
+    head: list[Run | str] = [_strong(grade)]
+    if provisional:
+        head.append(Run(" provisional", Tone.FLAG))
+    return head
+
+
 def _fp(p: Planning) -> Cell:
-    return _graded(
-        [_strong("not graded" if p.fp_grade is None else f"FP{p.fp_grade}")], p.fp_drivers
-    )
+    if p.fp_grade is None:
+        return _graded([_strong("not graded")], p.fp_drivers)
+    return _graded(_provisional(f"FP{p.fp_grade}", p.fp_provisional), p.fp_drivers)
 
 
 def _ip(p: Planning) -> Cell:
     if p.ip_grade is None:
         return _graded([_strong("not graded")], p.ip_drivers)
     head: list[Run | str] = [
-        _strong(f"IP{p.ip_grade}"),
+        *_provisional(f"IP{p.ip_grade}", p.ip_provisional),
         f" · target {p.target}",
         _basis(f" ({p.target_basis})"),
     ]
@@ -177,7 +205,10 @@ def _ip(p: Planning) -> Cell:
 
 
 def _stage(p: Planning) -> Cell:
-    head = _entry(_strong(p.stage or "not staged"), _basis(f" · {_pretty(p.stage_basis)}"))
+    head = _entry(
+        *_provisional(p.stage or "not staged", p.stage_provisional),
+        _basis(f" · {_pretty(p.stage_basis)}"),
+    )
     if p.inflow_significant:
         inflow = _entry(
             Run("inflow disease \u226550%, staged apart", Tone.FLAG),
@@ -191,15 +222,44 @@ def _stage(p: Planning) -> Cell:
 
 
 def _tasc(p: Planning) -> Cell:
-    return _graded([_strong(p.tasc_fp or "\u2014")], p.tasc_drivers)
+    return _graded(_provisional(p.tasc_fp or "\u2014", p.tasc_provisional), p.tasc_drivers)
 
 
-def planning_table(planning: Mapping[Side, Planning], bands: Mapping[str, BandStyle]) -> Table:
-    """Return the surgeon's summary, per leg: levels, occlusions, runoff, grades, stage, TASC."""
+def _grafts(grafts: Sequence[GraftResult], bands: Mapping[str, BandStyle]) -> Cell:
+    """Return each bypass graft's risk with its basis; a low graft flow velocity is flagged."""
+    if not grafts:
+        return (_entry("none"),)
+    out = []
+    for g in grafts:
+        label = bands[g.band].label if g.band in bands else g.band
+        runs: list[Run | str] = [_strong(f"{g.conduit} {g.from_} \u2192 {g.to}: {label}")]
+        worst = g.basis.split("; graft flow velocity")[0]
+        runs.append(_basis(f" · {_pretty(worst)}"))
+        if g.flow_velocity is not None and g.flow_velocity < GRAFT_LOW_FLOW_CM_S:
+            low = f" · graft flow velocity {g.flow_velocity:g} cm/s, below 45"
+            runs.append(Run(low, Tone.FLAG))
+        elif g.flow_velocity is not None:
+            runs.append(_basis(f" · graft flow velocity {g.flow_velocity:g} cm/s"))
+        out.append(_entry(*runs, chip=g.band))
+    return tuple(out)
+
+
+def planning_table(
+    planning: Mapping[Side, Planning],
+    bands: Mapping[str, BandStyle],
+    grafts: Mapping[Side, Sequence[GraftResult]] | None = None,
+) -> Table:
+    """Return the surgeon's summary, per leg: levels, occlusions, runoff, grades, stage, TASC.
+
+    ``grafts`` adds a row with each bypass graft's surveillance risk and graft flow velocity.
+    """
     rows = [
         Row(name, _per_side(planning, partial(_level, k=k, bands=bands)))
         for k, name in enumerate(LEVEL_NAMES)
     ]
+    if grafts and any(grafts.values()):
+        cells = tuple(_grafts(grafts.get(s, ()), bands) for s in SIDES)
+        rows.append(Row("Bypass graft", cells))
     rows += [
         Row("Occlusions", _per_side(planning, _occlusions)),
         Row("Runoff (SVS)", _per_side(planning, _runoff)),

@@ -1,9 +1,10 @@
-"""Write a Study back as a study file (DESIGN.md §3), so that a teaching case can be redrawn.
+"""A Study back as a study file (DESIGN.md §3): its plain data, and that data as YAML text.
 
-Only the file's own keys are written, in the file's order, each only when it has a value.
-Numbers are written as plain decimals (the loader refuses YAML 1.1 exponent forms), whole
-numbers without a decimal point. ``load_study`` reads the result back to an equal study, apart
-from the line numbers and the source name.
+Only the file's own keys, in the file's order, each only when it has a value; numbers as whole
+numbers where they are whole, written as plain decimals (the loader refuses YAML 1.1 exponent
+forms). ``load_study`` reads the text back to an equal study, apart from the line numbers and the
+source name. The teaching export and the editor write it; the results document echoes the
+patient and exam fields from the same functions, so all say the same thing the same way.
 """
 
 from __future__ import annotations
@@ -15,7 +16,18 @@ from typing import Any
 
 from diagram import anatomy
 from diagram.anatomy import Side
-from diagram.reading.study import GRAFT_SITES, Graft, Lesion, Limb, Pressures, Sample, Stent, Study
+from diagram.reading.study import (
+    GRAFT_SITES,
+    Exam,
+    Graft,
+    Lesion,
+    Limb,
+    Patient,
+    Pressures,
+    Sample,
+    Stent,
+    Study,
+)
 
 _SAMPLE_KEYS = tuple(
     f.name for f in dataclasses.fields(Sample) if f.name not in ("line",)
@@ -115,35 +127,42 @@ def _optional(pairs: Mapping[str, object]) -> dict[str, Any]:
     return {k: v for k, v in pairs.items() if v is not None}
 
 
+CRITERIA_KEYS = ("criteria", "stent_criteria", "graft_criteria")
+
+
+def patient_data(p: Patient) -> dict[str, Any]:
+    """Return the patient's fields in the file's order, None for those not given."""
+    return {
+        "name": p.name,
+        "id": p.id,
+        "birth_date": p.birth_date.isoformat() if p.birth_date else None,
+        "sex": p.sex,
+    }
+
+
+def exam_data(e: Exam) -> dict[str, Any]:
+    """Return the exam's fields in the file's order, None for those not given."""
+    return {
+        "date": e.date.isoformat() if e.date else None,
+        "accession": e.accession,
+        "site": e.site,
+        "operator": e.operator,
+        "referrer": e.referrer,
+        "indication": e.indication,
+        "criteria": e.criteria,
+        "stent_criteria": e.stent_criteria,
+        "graft_criteria": e.graft_criteria,
+        "study_uid": e.study_uid,
+    }
+
+
 def study_data(study: Study) -> dict[str, Any]:
-    """Return the study as the plain data of a study file."""
-    p, e = study.patient, study.exam
+    """Return the study as the plain data of a study file (only the values it has)."""
     data: dict[str, Any] = {"format": study.format}
-    patient = _optional(
-        {
-            "name": p.name,
-            "id": p.id,
-            "birth_date": p.birth_date.isoformat() if p.birth_date else None,
-            "sex": p.sex,
-        }
-    )
+    patient = _optional(patient_data(study.patient))
     if patient:
         data["patient"] = patient
-    exam = _optional(
-        {
-            "date": e.date.isoformat() if e.date else None,
-            "accession": e.accession,
-            "site": e.site,
-            "operator": e.operator,
-            "referrer": e.referrer,
-            "indication": e.indication,
-            "criteria": e.criteria,
-            "stent_criteria": e.stent_criteria,
-            "graft_criteria": e.graft_criteria,
-            "study_uid": e.study_uid,
-        }
-    )
-    data["exam"] = exam
+    data["exam"] = _optional(exam_data(study.exam))
     pressures = _pressures(study.pressures)
     if pressures:
         data["pressures"] = pressures
