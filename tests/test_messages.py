@@ -117,9 +117,70 @@ def test_template_check_of_an_unknown_name_lists_the_shipped_ones(
     code, _, err = run(["template", "check", "legs"], capsys)
     assert code == 2
     assert err == (
-        "legs: (file): cannot be read: No such file or directory (check the template's path; "
-        "the shipped maps are bilateral, infrainguinal-left, infrainguinal-right)\n"
+        "legs: (file): is neither a shipped map nor a file (the shipped maps are bilateral, "
+        "infrainguinal-left, infrainguinal-right; a lab's own map is given by its path, e.g. "
+        "maps/our-legs.svg)\n"
     )
+    code, _, err = run(["template", "check", "legs.svg"], capsys)  # a path: said as a path
+    assert code == 2
+    assert err == (
+        "legs.svg: (file): cannot be read: No such file or directory (check the template's "
+        "path; the shipped maps are bilateral, infrainguinal-left, infrainguinal-right)\n"
+    )
+
+
+@pytest.mark.parametrize(
+    ("typed", "line"),
+    [
+        (
+            "sfa-m",
+            "Error: Invalid value for '--target': 'sfa-m' is not a tibial artery (give ATA, PTA "
+            "or PER: anterior tibial, posterior tibial, peroneal; SFA-M is a femoral segment).",
+        ),
+        (
+            "PTA-D",
+            "Error: Invalid value for '--target': 'PTA-D' is not a tibial artery (did you mean "
+            "PTA? the target names the whole artery).",
+        ),
+        (
+            "xyz",
+            "Error: Invalid value for '--target': 'xyz' is not a tibial artery (give ATA, PTA or "
+            "PER: anterior tibial, posterior tibial, peroneal).",
+        ),
+    ],
+)
+def test_a_target_that_is_not_a_tibial_artery_says_what_to_give(
+    typed: str, line: str, capsys: pytest.CaptureFixture[str]
+) -> None:
+    study = str(EXAMPLES / "claudicant-sfa.yaml")
+    code, out, err = run(["check", study, "--target", typed], capsys)
+    assert (code, out, err) == (2, "", line + "\n")
+
+
+@pytest.mark.parametrize(
+    ("args", "line"),
+    [
+        (["drwa"], "Error: No such command 'drwa'. Did you mean 'draw'? (see limbchart --help)"),
+        (
+            ["draw", "x.yaml"],
+            "Error: Missing option '-o' / '--output'. (see limbchart draw --help)",
+        ),
+        (
+            ["draw", "x.yaml", "-o", "x.pdf", "--fromat", "pdf"],
+            "Error: No such option '--fromat'. Did you mean '--format'? (see limbchart draw --help)",
+        ),
+        (["check"], "Error: Missing argument 'STUDY...'. (see limbchart check --help)"),
+        (
+            ["schema", "--lab", "--results"],
+            "Error: give --results or --lab, not both.",  # its own hint: no pointer to --help
+        ),
+    ],
+)
+def test_a_command_line_mistake_is_one_line(
+    args: list[str], line: str, capsys: pytest.CaptureFixture[str]
+) -> None:
+    code, out, err = run(args, capsys)
+    assert (code, out, err) == (2, "", line + "\n")
 
 
 @pytest.mark.parametrize("typed", ["pta", "Pta", "PTA"])
@@ -367,6 +428,7 @@ def test_the_set_up_command_writes_outside_the_checkout() -> None:
     assert target.startswith(("~/", "/")), target  # not a file in the checkout
     ignored = (ROOT / ".gitignore").read_text().splitlines()
     assert "*.egg-info/" in ignored and "build/" in ignored  # what pip install -e . leaves
+    assert "__pycache__/" in ignored  # what the first run leaves where bytecode is written
 
 
 def test_gallery_refuses_an_existing_file_unless_overwrite(
@@ -383,3 +445,135 @@ def test_gallery_refuses_an_existing_file_unless_overwrite(
     code, _, err = run(["gallery", "-o", str(out), "--overwrite"], capsys)
     assert (code, err) == (0, f"wrote {out}\n")
     assert out.read_text().startswith("<?xml")
+
+
+# --- a new user's mistakes, each typed into a copy of a shipped example ------------------------
+
+CLAUDICANT = (EXAMPLES / "claudicant-sfa.yaml").read_text("utf-8")
+
+
+def _docx() -> bytes:
+    import io
+    import zipfile
+
+    buffer = io.BytesIO()
+    with zipfile.ZipFile(buffer, "w") as archive:  # the order Word writes: the body comes late
+        archive.writestr("[Content_Types].xml", "<Types/>" + " " * 8000)
+        archive.writestr("_rels/.rels", "<Relationships/>")
+        archive.writestr("word/document.xml", "<w:document/>")
+    return buffer.getvalue()
+
+
+def _json_with_trailing_comma() -> bytes:
+    text = json.dumps({"format": 1, "patient": {"id": "DEMO-9", "sex": "male"}}, indent=2)
+    return text.replace('"sex": "male"', '"sex": "male",').encode()
+
+
+MISTAKES: list[tuple[str, str, bytes, str]] = [
+    # (name, suffix, file content, the one line expected after "FILE:")
+    (
+        "tab",
+        ".yaml",
+        CLAUDICANT.replace('  id: "DEMO-0101"', '\tid: "DEMO-0101"').encode(),
+        "5: (file): is not valid YAML: a tab indents this line. (indent with spaces; YAML does "
+        "not allow tabs for indentation)",
+    ),
+    (
+        "comma",
+        ".json",
+        _json_with_trailing_comma(),
+        "5: (file): is not valid JSON: a comma after the last item of the object. (remove the "
+        "trailing comma; JSON does not allow one)",
+    ),
+    (
+        "utf16",
+        ".yaml",
+        CLAUDICANT.encode("utf-16"),
+        "1: (file): is not UTF-8 text: it looks like UTF-16. (open it in a text editor and save "
+        "it with the encoding UTF-8)",
+    ),
+    (
+        "latin1",
+        ".yaml",
+        CLAUDICANT.replace("Demo Vascular Lab", "Démo Vascular Lab").encode("latin-1"),
+        "11: (file): is not UTF-8 text (byte 0xe9); it looks like Windows-1252 or Latin-1 "
+        "(ISO 8859-1). (open it in a text editor and save it with the encoding UTF-8)",
+    ),
+    (
+        "docx",
+        ".yaml",
+        _docx(),
+        "1: (file): is a Word (.docx) document, not a YAML or JSON study. (save it from the word "
+        "processor as plain text (.txt), then rename it to .yaml or .json)",
+    ),
+    (
+        "unit",
+        ".yaml",
+        CLAUDICANT.replace("psv: 385", "psv: 385 cm/s").encode(),
+        "67: limbs.left.lesions[0].psv: '385 cm/s' must be a number. (drop the unit and write "
+        "385: velocities are in cm/s)",
+    ),
+    (
+        "sex",
+        ".yaml",
+        CLAUDICANT.replace("sex: male", "sex: M").encode(),
+        "7: patient.sex: 'M' must be one of female, male, other, unknown. (did you mean male?)",
+    ),
+    (
+        "date",
+        ".yaml",
+        CLAUDICANT.replace("date: 2026-11-20", "date: 02/11/2026").encode(),
+        "9: exam.date: must be a date written YYYY-MM-DD. (e.g. 2026-11-02 for 2 November 2026: "
+        "a day and month split by '/' are read day-first in some countries, month-first in "
+        "others, so they are not guessed; the date is not repeated here, as it can identify the "
+        "patient)",
+    ),
+    (
+        "nc",
+        ".yaml",
+        CLAUDICANT.replace("left: {pt: 96,", "left: {pt: NC,").encode(),
+        "19: pressures.left.pt: 'NC' must be a number. (a vessel the cuff could not compress has "
+        "no pressure: leave pt out and list it as noncompressible: [pt] under pressures.left; the "
+        "ABI is then not given and the TBI (toe pressure) is the index)",
+    ),
+    (
+        "popliteal",
+        ".yaml",
+        CLAUDICANT.replace("- at: SFA-M", "- at: popliteal").encode(),
+        "64: limbs.left.lesions[0].at: 'popliteal' is not a segment id or alias. (did you mean "
+        "POP-AK or POP-BK?)",
+    ),
+    (
+        "femoral-mid",
+        ".yaml",
+        CLAUDICANT.replace("- at: SFA-M", "- at: femoral mid").encode(),
+        "64: limbs.left.lesions[0].at: 'femoral mid' is not a segment id or alias. (did you mean "
+        "SFA-M?)",
+    ),
+    (
+        "side",
+        ".yaml",
+        CLAUDICANT.replace("- at: SFA-M", "- at: LT SFA prox").encode(),
+        "64: limbs.left.lesions[0].at: 'LT SFA prox' is not a segment id or alias. (did you mean "
+        "SFA-P? the side comes from the limb it is listed under)",
+    ),
+]
+
+
+@pytest.mark.parametrize(
+    ("name", "suffix", "content", "line"), MISTAKES, ids=[m[0] for m in MISTAKES]
+)
+def test_a_typing_mistake_gets_one_line_that_says_what_to_do(
+    name: str,
+    suffix: str,
+    content: bytes,
+    line: str,
+    tmp_path: Path,
+    capsys: pytest.CaptureFixture[str],
+) -> None:
+    study = tmp_path / f"{name}{suffix}"
+    study.write_bytes(content)
+    out = tmp_path / "map.pdf"
+    code, stdout, err = run(["draw", str(study), "-o", str(out)], capsys)
+    assert (code, stdout, err) == (2, "", f"{study}:{line}\n")
+    assert sorted(p.name for p in tmp_path.iterdir()) == [study.name]  # nothing written

@@ -1277,7 +1277,7 @@ def test_template_check_of_a_missing_file_suggests_a_shipped_name(
     code, _, err = run(["template", "check", "infrainguinal-rigth"], capsys)
     assert code == 2
     assert err == (
-        "infrainguinal-rigth: (file): cannot be read: No such file or directory (did you mean "
+        "infrainguinal-rigth: (file): is neither a shipped map nor a file (did you mean "
         "the shipped infrainguinal-right?)\n"
     )
 

@@ -23,6 +23,7 @@ from diagram.cli.importing import import_report
 from diagram.cli.options import (
     DEFAULT_DPI,
     STUDIES_METAVAR,
+    HintedParameter,
     check_dpi,
     criteria_option,
     dpi_option,
@@ -475,6 +476,19 @@ def _printable(line: str) -> str:
     return "".join(ch if ch.isprintable() else ascii(ch)[1:-1] for ch in line)
 
 
+def _usage_line(exc: click.UsageError) -> str:
+    """Return a command-line mistake as one line, with where to read the command's options.
+
+    The refusals written for this tool carry their own hint; click's own (an unknown option, a
+    missing argument, a value not among the choices) get the command's ``--help`` as the hint.
+    """
+    message = " ".join(exc.format_message().split())
+    own = type(exc) is click.UsageError and not message.startswith("No such command")
+    if own or isinstance(exc, HintedParameter) or exc.ctx is None:
+        return f"Error: {message}"
+    return f"Error: {message} (see {exc.ctx.command_path} --help)"
+
+
 def _tool_error(exc: Exception) -> int:
     """Print a tool error one line per problem and return its exit status; re-raise a bug."""
     from diagram.errors import DiagramError  # imported here: ``--help`` needs none of it
@@ -503,6 +517,9 @@ def main(args: list[str] | None = None, prog_name: str | None = None) -> None:
             except click.exceptions.Abort:  # Ctrl-C or SIGTERM inside a command
                 click.echo("interrupted", err=True)
                 code = 130
+            except click.UsageError as exc:
+                click.echo(_printable(_usage_line(exc)), err=True)
+                code = exc.exit_code
             except click.ClickException as exc:
                 exc.show()
                 code = exc.exit_code

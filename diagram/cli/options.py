@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from pathlib import Path
+from typing import Any
 
 import click
 
@@ -27,10 +28,46 @@ criteria_option = click.option(
     metavar="NAME|PATH",
     help="Criteria set to grade with, instead of the one the study names.",
 )
+TARGETS = ("ATA", "PTA", "PER")
+
+
+class TargetArtery(click.ParamType):  # type: ignore[type-arg]  # not generic in older click
+    """The tibial artery a planning path runs to, read without regard to case.
+
+    A segment id or a name of another artery is refused with what to give instead: ``pta-d``
+    gets "did you mean PTA?", ``sfa-m`` is told the target is a tibial artery.
+    """
+
+    name = "|".join(TARGETS)
+
+    def convert(self, value: Any, param: click.Parameter | None, ctx: click.Context | None) -> str:
+        text = str(value).strip()
+        if text.upper() in TARGETS:
+            return text.upper()
+        from diagram import anatomy
+
+        found = anatomy.suggestions(text)
+        vessels = [t for t in TARGETS if any(s.startswith(f"{t}-") for s in found)]
+        if vessels:
+            hint = f"did you mean {' or '.join(vessels)}? the target names the whole artery"
+        else:
+            level = (
+                f"; {found[0]} is a {anatomy.SEGMENTS[found[0]].level.value} segment"
+                if found
+                else ""
+            )
+            hint = f"give ATA, PTA or PER: anterior tibial, posterior tibial, peroneal{level}"
+        raise HintedParameter(f"{text!r} is not a tibial artery ({hint}).", ctx, param)
+
+
+class HintedParameter(click.BadParameter):
+    """A bad option value whose message carries its own hint (no pointer to --help is added)."""
+
+
 target_option = click.option(
     "--target",
-    type=click.Choice(["ATA", "PTA", "PER"], case_sensitive=False),
-    help="Tibial artery of the planning path (default: the least diseased).",
+    type=TargetArtery(),
+    help="Tibial artery of the planning path, any case (default: the least diseased).",
 )
 prior_option = click.option(
     "--prior",

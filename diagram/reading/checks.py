@@ -212,10 +212,13 @@ def _unit_hint(loc: Loc, number: str, written: str) -> str:
 
 
 def _date_hint(text: str) -> str | None:
-    if re.fullmatch(r"[0-9]{1,2}[/.\-][0-9]{1,2}[/.\-][0-9]{2,4}", text.strip()):
+    """Return how to write a day-first or month-first date (the date itself is not echoed)."""
+    found = re.fullmatch(r"[0-9]{1,2}([/.\-])[0-9]{1,2}[/.\-][0-9]{2,4}", text.strip())
+    if found:
         return (
-            "write year-month-day, e.g. 2026-11-02 for 2 November 2026; a date such as "
-            "02/11/2026 is read day-first in some countries, month-first in others"
+            f"e.g. 2026-11-02 for 2 November 2026: a day and month split by '{found.group(1)}' "
+            "are read day-first in some countries, month-first in others, so they are not "
+            "guessed; the date is not repeated here, as it can identify the patient"
         )
     return None
 

@@ -37,12 +37,12 @@ def document_kind(data: bytes) -> str | None:
         if data.startswith(magic):
             return kind
     if data.startswith(b"PK\x03\x04"):  # a zip archive: an Office Open XML or OpenDocument file
-        head = data[:4096]
-        if b"word/" in head:
+        # the archive's directory at its end names every member, whatever order they come in
+        if b"word/document" in data:
             return "a Word (.docx) document"
-        if b"opendocument.text" in head:
+        if b"opendocument.text" in data:
             return "an OpenDocument text (.odt) document"
-        if b"xl/" in head or b"opendocument.spreadsheet" in head:
+        if b"xl/workbook" in data or b"opendocument.spreadsheet" in data:
             return "a spreadsheet"
         return "a zip archive"
     return None

@@ -205,9 +205,15 @@ def _read_file(path: Path, display: str) -> tuple[Template | None, tuple[Problem
         rule = f"cannot be read: {exc.strerror or exc}"
         near = difflib.get_close_matches(path.name.removesuffix(".svg"), shipped_templates(), n=1)
         shipped = ", ".join(shipped_templates())
+        bare = not path.suffix and len(path.parts) == 1  # a name, not a path
+        if bare and isinstance(exc, FileNotFoundError):
+            rule = "is neither a shipped map nor a file"
         hint = (
             f"did you mean the shipped {near[0]}?"
             if near
+            else f"the shipped maps are {shipped}; a lab's own map is given by its path, "
+            "e.g. maps/our-legs.svg"
+            if bare
             else f"check the template's path; the shipped maps are {shipped}"
         )
         return None, (Problem(display, None, "", None, rule, hint),)
