@@ -330,7 +330,7 @@ def test_a_folder_holding_a_teaching_set_is_refused_unless_added_to(
     assert run([str(EXAMPLE), "-o", str(out), "--quiet"], capsys)[0] == 0
     before = sorted(p.name for p in out.iterdir())
     code, err = run([str(EXAMPLE), "-o", str(out), "--quiet"], capsys)
-    assert code == 2 and "holds a teaching set already (1 cases in its audit.json)" in err
+    assert code == 2 and "holds a teaching set already (1 case in its audit.json)" in err
     assert "--add" in err and sorted(p.name for p in out.iterdir()) == before  # untouched
     code, _ = run([str(EXAMPLE), "-o", str(out), "--quiet", "--add", "--format", "svg"], capsys)
     assert code == 0

@@ -251,9 +251,11 @@ def _limb_rows(assessment: Assessment, side: Side) -> list[Row]:
     rows: list[Row] = []
     for seg in anatomy.SEGMENT_IDS:
         r = limb.segments[seg]
-        if r.assessed and not (seg in anatomy.UNPAIRED and side is Side.LEFT):
-            # the unpaired aorta is listed once, under the right side
-            rows.append((side.value, seg, r.band, _fmt(r.psv), _fmt(r.edv), _fmt(r.vr), r.basis))
+        unpaired = seg in anatomy.UNPAIRED
+        if r.assessed and not (unpaired and side is Side.LEFT):
+            # the unpaired aorta is listed once, with no side, among the right side's rows
+            where = "-" if unpaired else side.value
+            rows.append((where, seg, r.band, _fmt(r.psv), _fmt(r.edv), _fmt(r.vr), r.basis))
     for les in limb.lesions:
         where = f"{les.at} lesion {les.index + 1}"
         if les.length_cm is not None:

@@ -57,9 +57,10 @@ def read_audit(out_dir: Path, *, add: bool) -> dict[str, Any]:
         return {"runs": [], "cases": []}
     doc = _load_audit(path)
     if not add:
+        count = len(doc["cases"])
         raise ExportError(
-            f"{out_dir}: holds a teaching set already ({len(doc['cases'])} cases in its "
-            f"{AUDIT_NAME}); give a new folder, or --add to add these cases to it."
+            f"{out_dir}: holds a teaching set already ({count} case{'' if count == 1 else 's'} "
+            f"in its {AUDIT_NAME}); give a new folder, or --add to add these cases to it."
         )
     listed = sorted(
         name for case in doc["cases"] if case.get("status") == "written" for name in case["outputs"]
