@@ -312,3 +312,23 @@ def test_an_interrupted_cluster_batch_cancels_and_still_writes_the_manifest(
     maps = [p.name for p in out.iterdir() if p.name != "manifest.json"]
     assert all(re.fullmatch(r"map-\d{4}\.pdf", name) for name in maps), maps  # nothing partial
     assert drawn <= len(maps) <= drawn + failed
+
+
+@needs_dask
+def test_a_cluster_without_workers_is_refused_rather_than_waited_on(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    distributed = pytest.importorskip("distributed")
+    out = tmp_path / "out"
+    with distributed.LocalCluster(n_workers=0, processes=True, dashboard_address=None) as empty:
+        address = empty.scheduler_address
+        code, err = run(
+            ["draw", str(EXAMPLES / "normal.yaml"), "-o", f"{out}/", "--scheduler", address],
+            capsys,
+        )
+    assert (code, err) == (
+        2,
+        f"--scheduler {address}: the cluster has no workers; start some (dask worker ADDRESS) "
+        "and draw again.\n",
+    )
+    assert not out.exists()

@@ -10,7 +10,9 @@ Sections:
   labels  label packing cost for 10, 50, 200, 1000 labels; growth against n log n; 200 < 20 ms.
   cold    `limbchart --help` and `limbchart check` against `python -c "import click"`.
   batch   200 generated studies to PDF with --jobs 1 and --jobs 2: studies/s and speed-up
-          (target >= 1.7x on two cores); parent peak memory for 50 vs 500 studies.
+          (target >= 1.7x on two cores); parent peak memory for 50 vs 500 studies; the same
+          200 on a Dask cluster of two worker processes started here, beside --jobs 2 (needs
+          the dask extra).
   cairo   the Scene painted by cairo against the SVG converted by CairoSVG, side by side:
           cold `limbchart draw BUSIEST -o x.pdf` against a cold `python -m cairosvg` of the
           same SVG (target <= 0.6x); warm PDF per page (target <= 25 ms); a batch of 200 to
@@ -178,14 +180,17 @@ def cold() -> None:
         print(f"  {name:27s} {t * 1e3:7.1f}  {t / base:.2f}x")
 
 
-def _batch_once(folder: Path, jobs: int, renderer: str = "cairo") -> tuple[float, float]:
+def _batch_once(
+    folder: Path, jobs: int, renderer: str = "cairo", scheduler: str | None = None
+) -> tuple[float, float]:
     out = Path(tempfile.mkdtemp())
+    where = ["--scheduler", scheduler] if scheduler else ["--jobs", str(jobs)]
     code = (
         "import resource, sys\n"
         "from diagram.cli.main import main\n"
         "try:\n"
         f"    main(['draw', {str(folder)!r}, '-o', {str(out) + '/'!r}, '--format', 'pdf',"
-        f" '--jobs', '{jobs}', '--quiet', '--renderer', {renderer!r}])\n"
+        f" *{where!r}, '--quiet', '--renderer', {renderer!r}])\n"
         "except SystemExit:\n"
         "    pass\n"
         "print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss)\n"
@@ -194,6 +199,29 @@ def _batch_once(folder: Path, jobs: int, renderer: str = "cairo") -> tuple[float
     done = subprocess.run([sys.executable, "-c", code], check=True, capture_output=True, text=True)
     elapsed = time.perf_counter() - t0
     return elapsed, float(done.stdout.strip().splitlines()[-1]) / 1024
+
+
+def _batch_on_cluster(folder: Path, t_local: float) -> None:
+    """The same 200 studies on a Dask cluster of two single-threaded worker processes."""
+    try:
+        from distributed import LocalCluster
+    except ImportError:
+        print("  dask cluster: skipped (pip install 'limbchart[dask]')")
+        return
+    t0 = time.perf_counter()
+    with LocalCluster(
+        n_workers=2, processes=True, threads_per_worker=1, dashboard_address=None
+    ) as cluster:
+        started = time.perf_counter() - t0
+        # the first batch finds the workers fresh (they import limbchart), the second warm
+        t_cold, _ = _batch_once(folder, 2, scheduler=cluster.scheduler_address)
+        t_warm, _ = _batch_once(folder, 2, scheduler=cluster.scheduler_address)
+    for label, t in (("fresh workers", t_cold), ("warm workers", t_warm)):
+        print(
+            f"  dask 2 workers, {label:13s} {t:6.1f} s  {200 / t:6.1f} studies/s  "
+            f"{t_local / t:.2f}x the studies/s of --jobs 2"
+        )
+    print(f"  (cluster start {started:.1f} s, not counted)")
 
 
 def batch() -> None:
@@ -205,6 +233,7 @@ def batch() -> None:
     print(f"  --jobs 1  {t1:6.1f} s  {200 / t1:6.1f} studies/s  parent peak {m1:6.1f} MB")
     print(f"  --jobs 2  {t2:6.1f} s  {200 / t2:6.1f} studies/s  parent peak {m2:6.1f} MB")
     print(f"  speed-up  {t1 / t2:.2f}x")
+    _batch_on_cluster(tmp / "s200", t2)
     write_studies(tmp / "s50", 50)
     write_studies(tmp / "s500", 500)
     _, m50 = _batch_once(tmp / "s50", 2)
