@@ -48,7 +48,7 @@ def scheduler() -> Iterator[str]:
     """Start a scheduler and two single-threaded worker processes; return its address."""
     distributed = pytest.importorskip("distributed", reason="dask.distributed is not installed")
     with distributed.LocalCluster(
-        n_workers=2, processes=True, threads_per_worker=1, dashboard_address=None
+        n_workers=2, processes=True, threads_per_worker=1, dashboard_address=":0"
     ) as cluster:
         yield cluster.scheduler_address
 
@@ -320,7 +320,7 @@ def test_a_cluster_without_workers_is_refused_rather_than_waited_on(
 ) -> None:
     distributed = pytest.importorskip("distributed")
     out = tmp_path / "out"
-    with distributed.LocalCluster(n_workers=0, processes=True, dashboard_address=None) as empty:
+    with distributed.LocalCluster(n_workers=0, processes=True, dashboard_address=":0") as empty:
         address = empty.scheduler_address
         code, err = run(
             ["draw", str(EXAMPLES / "normal.yaml"), "-o", f"{out}/", "--scheduler", address],
