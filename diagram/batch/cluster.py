@@ -78,13 +78,22 @@ def connect(address: str) -> Iterator[DaskWorkers]:
     a cluster with no workers (a batch on it would wait for ever).
     """
     client_class = _client_class()
+    from distributed.comm.addressing import get_address_host_port
+
+    try:  # before a client is made: one made for a malformed address hangs on at exit
+        get_address_host_port(address)
+    except ValueError as exc:
+        raise ClusterError(
+            f"--scheduler {address}: is not a scheduler's address ({_reason(exc)}); give "
+            "one like tcp://host:8786."
+        ) from None
     try:
         client = client_class(address, timeout=CONNECT_SECONDS, set_as_default=False)
-    except (OSError, ValueError, TypeError) as exc:  # a timeout is an OSError
+    except OSError as exc:  # distributed reports its connect timeout as an OSError
+        why = "" if "timed out" in str(exc).lower() else f" ({_reason(exc)})"
         raise ClusterError(
-            f"--scheduler {address}: no Dask scheduler answered within {CONNECT_SECONDS:g} s "
-            f"({_reason(exc)}); check the address (e.g. tcp://host:8786) and that the "
-            "scheduler is running."
+            f"--scheduler {address}: no Dask scheduler answered within {CONNECT_SECONDS:g} s"
+            f"{why}; check the address and that the scheduler is running."
         ) from None
     try:
         workers = DaskWorkers(client, address)
