@@ -356,3 +356,27 @@ def test_a_malformed_scheduler_address_is_refused_at_once(
         "tcp://host:8786.\n",
     )
     assert not (tmp_path / "out").exists()
+
+
+@needs_dask
+def test_a_worker_drawing_in_several_threads_draws_the_same_files(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    """A cluster's worker may run several studies at once in threads of one process."""
+    distributed = pytest.importorskip("distributed")
+    write_studies(tmp_path / "in", 6)
+    formats = ["--format", "png", "--format", "json", "--dpi", "50", "--quiet"]
+    local, threads = tmp_path / "local", tmp_path / "threads"
+    assert (
+        run(["draw", str(tmp_path / "in"), "-o", f"{local}/", *formats, "--jobs", "1"], capsys)[0]
+        == 0
+    )
+    with distributed.LocalCluster(
+        n_workers=1, processes=True, threads_per_worker=3, dashboard_address=":0"
+    ) as cluster:
+        args = ["draw", str(tmp_path / "in"), "-o", f"{threads}/", *formats]
+        code, err = run([*args, "--scheduler", cluster.scheduler_address], capsys)
+    assert (code, err) == (0, "6 of 6 studies drawn, 0 failed.\n")
+    names = sorted(os.listdir(local))
+    assert names == sorted(os.listdir(threads)) and len(names) == 6 * 2 + 1
+    assert [n for n in names if (local / n).read_bytes() != (threads / n).read_bytes()] == []
