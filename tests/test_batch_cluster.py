@@ -92,6 +92,11 @@ def test_the_cluster_draws_a_batch_as_the_local_pool_does(
     assert err_l.splitlines()[-1] == err_c.splitlines()[-1] == "3 of 4 studies drawn, 1 failed."
     broken = f"{inputs / 'zz-broken.yaml'}:2: limbs.left.segments.SFA-X: is not a segment id"
     assert broken in err_l and broken in err_c and "Traceback" not in err_c
+    # progress: one line per study drawn, naming its files (the workers' absolute paths)
+    for n, name in enumerate(("claudicant-sfa", "multilevel-occlusion", "normal"), start=1):
+        files = ", ".join(f"{cluster / f'map-{n:04d}'}.{fmt}" for fmt in ("pdf", "svg", "json"))
+        assert f"{inputs / name}.yaml -> {files}" in err_c.splitlines()
+    assert err_l.count(" -> ") == err_c.count(" -> ") == 3
     # the same manifest: inputs, names, statuses, errors and counts
     assert manifest(local) == manifest(cluster)
     assert manifest(cluster)["batch"] == {
