@@ -266,17 +266,16 @@ def check(
     study: Path, as_json: bool, criteria: str | None, target: str | None, prior: Path | None
 ) -> None:
     """Validate a STUDY file and print its computed grading."""
-    import json
-
     from diagram.inputs import assess_file
-    from diagram.output.results import results_document, results_table
+    from diagram.output.results import results_document, results_json, results_table
     from diagram.reading.load import load_study
 
     current = load_study(study)
     _show_import_notes(current.import_notes)
     assessment = assess_file(current, criteria=criteria, target=target, prior=prior)
     if as_json:
-        click.echo(json.dumps(results_document(assessment, version=__version__), indent=2))
+        doc = results_document(assessment, version=__version__)
+        click.get_binary_stream("stdout").write(results_json(doc))  # the bytes -o x.json writes
     else:
         click.echo(results_table(assessment))
         click.echo(f"\n{CAUTION}")

@@ -15,7 +15,6 @@ from __future__ import annotations
 
 import contextlib
 import errno
-import json
 import os
 import secrets
 import signal
@@ -175,13 +174,9 @@ def _dcm(drawing: Drawing, options: ExportOptions) -> bytes:
 
 
 def _json(drawing: Drawing, options: ExportOptions) -> bytes:
-    try:
-        text = json.dumps(drawing.results, indent=2, sort_keys=False, ensure_ascii=False)
-        return (text + "\n").encode("utf-8")
-    except UnicodeEncodeError:
-        # A lone surrogate (from a JSON study's "\ud800" escape) is no UTF-8 character: write
-        # every non-ASCII character as a JSON escape instead, the value exactly as it came in.
-        return (json.dumps(drawing.results, indent=2, sort_keys=False) + "\n").encode("ascii")
+    from diagram.output.results import results_json
+
+    return results_json(drawing.results)
 
 
 def _fhir(drawing: Drawing, options: ExportOptions) -> bytes:
