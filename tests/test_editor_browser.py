@@ -168,6 +168,11 @@ def test_type_a_velocity_see_the_map_change_add_a_lesion_and_save(
     assert badge.get_attribute("data-band") == "50-74" and badge.text == "50-74%"
     assert "Vr 2.08" in browser.find_element(By.ID, "segment-result").text
     assert browser.find_element(By.ID, "status").text == "unsaved changes"
+    # indices keep two decimals, as on the sheet: left ankle 96 / brachial 138 = 0.696 (common practice)
+    legs = browser.find_element(By.ID, "legs").text
+    assert "ABI 0.70 abnormal (PT 96 / brachial 138 mmHg)" in legs
+    assert "ABI 1.03 normal" in legs
+    assert "not a substitute" in browser.find_element(By.ID, "page-caution").text
 
     # a typo gets the loader's own message beside the field, and the map keeps its last drawing
     edv = browser.find_element(By.CSS_SELECTOR, 'input[name="edv"]')

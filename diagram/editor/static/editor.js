@@ -333,8 +333,8 @@
       title.textContent = side === "right" ? "Right leg" : "Left leg";
       block.append(title);
       const rows = [];
-      if (limb.abi !== null && limb.abi !== undefined) rows.push(`ABI ${limb.abi} ${limb.abi_category || ""} (${limb.abi_basis})`);
-      if (limb.tbi !== null && limb.tbi !== undefined) rows.push(`TBI ${limb.tbi} (${limb.tbi_basis})`);
+      if (limb.abi !== null && limb.abi !== undefined) rows.push(`ABI ${Number(limb.abi).toFixed(2)} ${limb.abi_category || ""} (${limb.abi_basis})`);
+      if (limb.tbi !== null && limb.tbi !== undefined) rows.push(`TBI ${Number(limb.tbi).toFixed(2)} (${limb.tbi_basis})`);
       if (limb.ischaemia_grade !== null && limb.ischaemia_grade !== undefined) rows.push(`ischaemia grade ${limb.ischaemia_grade} (${limb.ischaemia_basis})`);
       const plan = limb.planning;
       if (plan) {
