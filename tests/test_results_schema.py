@@ -3,8 +3,8 @@
 Every example's results document (alone, compared with itself as the prior, and the follow-up
 pair with its real prior) validates; a copy damaged at any one position does not: an unknown key
 injected into an object, a number turned into a string, a string into a number, a boolean into a
-string. Positions that share one place in the layout (items of one list) are tried once per
-list position pattern; ``LIMBCHART_EVERY_POSITION=1`` tries every single position instead.
+string. Positions that share one place in the layout (the same path, list items alike) are
+tried once; ``LIMBCHART_EVERY_POSITION=1`` tries every position of every document instead.
 """
 
 from __future__ import annotations
@@ -107,11 +107,11 @@ def _mutated(doc: dict[str, Any], path: Path_, kind: str) -> dict[str, Any]:
 
 
 def _mutations() -> list[tuple[str, Path_, str]]:
-    seen: set[tuple[Path_, str]] = set()
+    seen: set[tuple[Any, ...]] = set()
     out = []
     for name, doc in DOCUMENTS:
         for path, kind in _positions(doc):
-            key = (path if EVERY_POSITION else _pattern(path), kind)
+            key = (name, path, kind) if EVERY_POSITION else (_pattern(path), kind)
             if key not in seen:
                 seen.add(key)
                 out.append((name, path, kind))
