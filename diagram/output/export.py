@@ -122,23 +122,32 @@ def _scene(drawing: Drawing, options: ExportOptions) -> Scene | None:
     return drawing.scene if options.renderer == "cairo" and not drawing.svg_pages else None
 
 
+def _title(drawing: Drawing) -> str:
+    """Return the document title: the Scene's, or the kind of sheet for SVG text alone."""
+    if drawing.scene is not None and drawing.scene.title:
+        return drawing.scene.title
+    from diagram.drawing.sheet.header import KIND
+
+    return KIND
+
+
 def _pdf(drawing: Drawing, options: ExportOptions) -> bytes:
+    from diagram.output.docmeta import fixed_date
+
+    date, title = fixed_date(), _title(drawing)
     scene = _scene(drawing, options)
     if scene is not None:
         from diagram.output.cairo_backend import pdf_bytes
 
-        return pdf_bytes(scene)
-    cairosvg = _cairosvg()
-    pages = drawing.pages
-    if len(pages) == 1:
-        data: bytes = cairosvg.svg2pdf(bytestring=pages[0].encode("utf-8"), unsafe=False)
-        return data
+        return pdf_bytes(scene, title=title, date=date)
+    _cairosvg()  # fontconfig pointed at the shipped fonts; a missing cairo said in one line
     from diagram.output.svg import pdf_from_svgs
 
-    return pdf_from_svgs(pages)
+    return pdf_from_svgs(drawing.pages, title=title, date=date)
 
 
 def _png(drawing: Drawing, options: ExportOptions) -> bytes:
+    from diagram.output.docmeta import png_with_dpi
     from diagram.output.pages import GAP_PT, stack_pngs
 
     gap = round(GAP_PT * options.png_dpi / 72)
@@ -146,7 +155,7 @@ def _png(drawing: Drawing, options: ExportOptions) -> bytes:
     if scene is not None:
         from diagram.output.cairo_backend import png_pages
 
-        return stack_pngs(png_pages(scene, options.png_dpi), gap)
+        return png_with_dpi(stack_pngs(png_pages(scene, options.png_dpi), gap), options.png_dpi)
     cairosvg = _cairosvg()
     images = [
         cairosvg.svg2png(
@@ -157,7 +166,7 @@ def _png(drawing: Drawing, options: ExportOptions) -> bytes:
         )
         for page in drawing.pages
     ]
-    return stack_pngs(images, gap)
+    return png_with_dpi(stack_pngs(images, gap), options.png_dpi)
 
 
 def _dcm(drawing: Drawing, options: ExportOptions) -> bytes:
