@@ -86,8 +86,9 @@ def _norm(text: str) -> str:
     return re.sub(r"[\s_\-.]+", "", text.strip().lower())
 
 
-def _build_aliases() -> dict[str, str]:
-    aliases: dict[str, str] = {}
+def _alias_pairs() -> list[tuple[str, str]]:
+    """Return (alias as written, canonical id) for every alias, ids first."""
+    pairs: list[tuple[str, str]] = []
     thirds = {"P": ("proximal", "prox"), "M": ("mid", "middle"), "D": ("distal", "dist")}
     long_names = {
         "AO": ("aorta", "distal aorta", "abdominal aorta"),
@@ -108,25 +109,47 @@ def _build_aliases() -> dict[str, str]:
     }
     for seg_id, names in long_names.items():
         for name in (seg_id, *names):
-            aliases[_norm(name)] = seg_id
+            pairs.append((name, seg_id))
     for stem, words in vessel_words.items():
         for third, third_words in thirds.items():
             seg_id = f"{stem}-{third}"
             for word in (stem, *words):
-                aliases[_norm(f"{word}-{third}")] = seg_id
+                pairs.append((f"{word}-{third}", seg_id))
                 for tw in third_words:
-                    aliases[_norm(f"{word} {tw}")] = seg_id
-                    aliases[_norm(f"{tw} {word}")] = seg_id
+                    pairs.append((f"{word} {tw}", seg_id))
+                    pairs.append((f"{tw} {word}", seg_id))
     for level_word, seg_id in (("AK", "POP-AK"), ("BK", "POP-BK")):
         for pop in ("POP", "popliteal"):
-            aliases[_norm(f"{pop} {level_word}")] = seg_id
+            pairs.append((f"{pop} {level_word}", seg_id))
+            pairs.append((f"{level_word} {pop}", seg_id))
         phrase = "above knee" if level_word == "AK" else "below knee"
-        aliases[_norm(f"popliteal {phrase}")] = seg_id
-        aliases[_norm(f"{phrase} popliteal")] = seg_id
+        pairs.append((f"popliteal {phrase}", seg_id))
+        pairs.append((f"{phrase} popliteal", seg_id))
+    return pairs
+
+
+def _build_aliases() -> dict[str, str]:
+    aliases: dict[str, str] = {}
+    for text, seg_id in _alias_pairs():
+        aliases.setdefault(_norm(text), seg_id)
     return aliases
 
 
+def _alias_names() -> dict[str, tuple[str, ...]]:
+    """Return each segment's aliases as a reader would write them, one spelling per alias."""
+    seen: set[str] = set()
+    names: dict[str, list[str]] = {seg: [] for seg in SEGMENTS}
+    for text, seg_id in _alias_pairs():
+        key = _norm(text)
+        awkward = " " in text and "-" in text  # 'superficial femoral-M' reads, but is not shown
+        if key not in seen and key != _norm(seg_id) and not awkward:
+            seen.add(key)
+            names[seg_id].append(text)
+    return {seg: tuple(found) for seg, found in names.items()}
+
+
 ALIASES: dict[str, str] = _build_aliases()
+ALIAS_NAMES: dict[str, tuple[str, ...]] = _alias_names()
 
 
 def resolve(name: str) -> str | None:
@@ -134,11 +157,78 @@ def resolve(name: str) -> str | None:
     return ALIASES.get(_norm(name))
 
 
+# The trade's shorthand, for suggestions: side words (the side comes from the limb a finding
+# is listed under), level words, and vessel words with the segments each may mean.
+_SIDE_WORDS = frozenset({"l", "r", "lt", "rt", "left", "right"})
+_LEVEL_WORDS = {
+    "p": "P", "prox": "P", "proximal": "P",
+    "m": "M", "mid": "M", "middle": "M",
+    "d": "D", "dist": "D", "distal": "D",
+    "ak": "AK", "aboveknee": "AK", "above": "AK",
+    "bk": "BK", "belowknee": "BK", "below": "BK",
+}  # fmt: skip
+_THIRDS = ("P", "M", "D")
+_VESSEL_WORDS: dict[str, tuple[str, ...]] = {
+    **{w: tuple(f"SFA-{t}" for t in _THIRDS) for w in ("sfa", "superficialfemoral", "fa")},
+    "femoral": ("CFA", "PFA", *(f"SFA-{t}" for t in _THIRDS)),
+    **{w: ("POP-AK", "POP-BK") for w in ("pop", "popliteal", "popl")},
+    **{w: tuple(f"ATA-{t}" for t in _THIRDS) for w in ("ata", "at", "anteriortibial")},
+    **{w: tuple(f"PTA-{t}" for t in _THIRDS) for w in ("pta", "pt", "posteriortibial")},
+    **{w: tuple(f"PER-{t}" for t in _THIRDS) for w in ("per", "peroneal", "fibular", "pa")},
+    "tibial": tuple(f"{v}-{t}" for v in ("ATA", "PTA") for t in _THIRDS),
+    "iliac": ("CIA", "EIA", "IIA"),
+    "fem": ("CFA", "PFA", *(f"SFA-{t}" for t in _THIRDS)),
+}
+# words that pick one of a vessel's segments other than by level
+_QUALIFIERS = {
+    "ext": "EIA", "external": "EIA", "int": "IIA", "internal": "IIA",
+    "common": "CIA", "com": "CIA", "deep": "PFA", "profunda": "PFA",
+}  # fmt: skip
+
+
+def suggestions(name: str) -> tuple[str, ...]:
+    """Return the canonical ids an unknown name most likely meant, for a "did you mean" hint.
+
+    Suggestions stay within the vessel the name mentions (``popliteal`` offers POP-AK and
+    POP-BK; ``femoral mid`` offers SFA-M), and side and level shorthand is understood
+    (``LT``, ``RT``, ``L``, ``R``, ``AK``, ``BK``, ``prox``, ``mid``, ``dist``).
+    """
+    words = [w for w in re.split(r"[\s_\-.]+", name.strip().lower()) if w]
+    words = [w for w in words if w not in _SIDE_WORDS] or words
+    direct = resolve(" ".join(words))
+    if direct is not None:
+        return (direct,)
+    levels = [_LEVEL_WORDS[w] for w in words if w in _LEVEL_WORDS]
+    picked = {_QUALIFIERS[w] for w in words if w in _QUALIFIERS}
+    vessel = "".join(w for w in words if w not in _LEVEL_WORDS and w not in _QUALIFIERS)
+    if vessel in _VESSEL_WORDS:
+        found = _VESSEL_WORDS[vessel]
+    elif near := difflib.get_close_matches(vessel, list(_VESSEL_WORDS), n=1, cutoff=0.75):
+        found = _VESSEL_WORDS[near[0]]
+    else:
+        key = _norm(name)
+        match = difflib.get_close_matches(key, list(ALIASES), n=1, cutoff=0.6)
+        return (ALIASES[match[0]],) if match else ()
+    chosen = tuple(s for s in found if s in picked or (levels and s.endswith(f"-{levels[0]}")))
+    return chosen or found
+
+
 def suggest(name: str) -> str | None:
-    """Return the closest canonical id for an unknown name, for a "did you mean" hint."""
-    key = _norm(name)
-    match = difflib.get_close_matches(key, list(ALIASES), n=1, cutoff=0.6)
-    return ALIASES[match[0]] if match else None
+    """Return the closest canonical id for an unknown name (the first of :func:`suggestions`)."""
+    found = suggestions(name)
+    return found[0] if found else None
+
+
+def did_you_mean(name: str) -> str | None:
+    """Return the hint for an unknown segment name: ``did you mean POP-AK or POP-BK?``."""
+    found = suggestions(name)
+    if not found:
+        return None
+    listed = found[0] if len(found) == 1 else f"{', '.join(found[:-1])} or {found[-1]}"
+    words = set(re.split(r"[\s_\-.]+", name.strip().lower()))
+    if words & _SIDE_WORDS and not words <= _SIDE_WORDS:
+        return f"did you mean {listed}? the side comes from the limb it is listed under"
+    return f"did you mean {listed}?"
 
 
 def vessel_key(side: Side | str, segment: str) -> str:

@@ -160,6 +160,7 @@ def test_every_command_is_on_the_installed_group() -> None:
         "gallery",
         "import",
         "schema",
+        "segments",
         "style",
         "teach",
         "template",

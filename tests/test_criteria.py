@@ -110,7 +110,7 @@ def test_criteria_commands(capsys: pytest.CaptureFixture[str], tmp_path: Path) -
         main(["criteria", "list"])
     out = capsys.readouterr().out
     assert done.value.code == 0
-    assert [line.split()[0] for line in out.splitlines()] == ["graft", "native", "stent"]
+    assert [line.split()[0] for line in out.splitlines()] == ["name", "graft", "native", "stent"]
 
     with pytest.raises(SystemExit) as done:
         main(["criteria", "show", "native"])

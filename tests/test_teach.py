@@ -299,7 +299,7 @@ def test_formats_agree_and_the_command_registers(capsys: pytest.CaptureFixture[s
     with pytest.raises(SystemExit) as done:
         main(["teach", "--help"])
     assert done.value.code == 0
-    assert "limbchart teach [OPTIONS] INPUTS..." in capsys.readouterr().out
+    assert "limbchart teach [OPTIONS] STUDY..." in capsys.readouterr().out
 
 
 def test_link_file_only_when_asked_and_never_inside_the_output(

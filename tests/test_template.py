@@ -754,7 +754,8 @@ def test_missing_viewbox_and_missing_file(tmp_path: Path) -> None:
     assert [p.field for p in check_template(path)] == ["svg.viewBox"]
     gone = tmp_path / "nowhere.svg"
     assert problem_lines(gone) == [
-        f"{gone}: (file): cannot be read: No such file or directory (check the template's path)"
+        f"{gone}: (file): cannot be read: No such file or directory (check the template's path; "
+        "the shipped maps are bilateral, infrainguinal-left, infrainguinal-right)"
     ]
     assert problem_lines(tmp_path) == [f"{tmp_path}: (file): is not a file"]
 

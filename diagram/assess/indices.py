@@ -125,7 +125,11 @@ def limb_indices(
 
     abi = _index(ankle, brachial)
     category = severity = None
-    if abi is not None and ankle is not None and brachial is not None:
+    if limb.noncompressible:  # 2016 AHA/ACC: a noncompressible ankle artery gives no ABI; use TBI
+        abi, category = None, "noncompressible"
+        named = " and ".join(v.upper() for v in limb.noncompressible)
+        abi_basis = f"{named} noncompressible (recorded): no ABI"
+    elif abi is not None and ankle is not None and brachial is not None:
         category = abi_category(abi)
         if category == "abnormal":
             severity = "severe" if abi <= ABI_SEVERE_MAX else "mild-moderate"
@@ -210,12 +214,17 @@ def pressure_findings(pressures: Pressures, indices: dict[Side, LimbIndices]) ->
             )
     for side, ix in indices.items():
         if ix.abi_category == "noncompressible":
+            found = (
+                f"ABI {ix.abi:.2f} > 1.40: vessels noncompressible"
+                if ix.abi is not None
+                else ix.abi_basis  # recorded noncompressible: no ABI figure
+            )
             out.append(
                 Finding(
                     "noncompressible",
                     side,
                     None,
-                    f"ABI {ix.abi:.2f} > 1.40: vessels noncompressible; rely on the "
+                    f"{found}; rely on the "
                     "TBI" + ("." if ix.tbi is not None else " (no toe pressure)."),
                 )
             )

@@ -12,7 +12,7 @@ from pathlib import Path
 
 import click
 
-from diagram.cli.options import overwrite_option
+from diagram.cli.options import TEMPLATE_METAVAR, overwrite_option
 
 
 def _template_arg(value: str) -> str | Path:
@@ -28,7 +28,7 @@ def template() -> None:
 
 
 @template.command("check")
-@click.argument("file", metavar="FILE.svg|NAME")
+@click.argument("file", metavar=TEMPLATE_METAVAR)
 def template_check(file: str) -> None:
     """Check a map template against the template contract (every problem on its own line).
 
@@ -118,7 +118,7 @@ def style_check(lab: Path | None) -> None:
 @click.option(
     "--template",
     "template_name",
-    metavar="FILE.svg|NAME",
+    metavar=TEMPLATE_METAVAR,
     help="Map template for the specimen (default: the lab's, else the shipped bilateral map).",
 )
 @overwrite_option

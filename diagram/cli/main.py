@@ -22,6 +22,8 @@ from diagram.cli.edit import edit
 from diagram.cli.importing import import_report
 from diagram.cli.options import (
     DEFAULT_DPI,
+    STUDIES_METAVAR,
+    check_dpi,
     criteria_option,
     dpi_option,
     jobs_option,
@@ -32,17 +34,21 @@ from diagram.cli.options import (
     target_option,
     template_option,
 )
+from diagram.cli.segments import segments
 from diagram.cli.teach import teach
 
 if TYPE_CHECKING:
     from diagram.batch.run import BatchSettings
+    from diagram.drawing.labprofile import LabProfile
     from diagram.output.export import Renderer
 
 FORMATS = ("svg", "pdf", "png", "dcm", "json", "fhir")
 
 
 @click.command()
-@click.argument("studies", nargs=-1, required=True, type=click.Path(path_type=Path))
+@click.argument(
+    "studies", nargs=-1, required=True, metavar=STUDIES_METAVAR, type=click.Path(path_type=Path)
+)
 @click.option(
     "-o",
     "--output",
@@ -131,7 +137,7 @@ def draw(
         if single
         else tuple(dict.fromkeys(formats or ("pdf",)))
     )
-    _check_dpi(dpi, chosen)
+    check_dpi(dpi, chosen)
     png_dpi = dpi or DEFAULT_DPI
     if single:
         refuse_existing(Path(output), overwrite)
@@ -140,6 +146,7 @@ def draw(
         from diagram.drawing.labprofile import load_lab_profile
 
         profile = load_lab_profile(lab)
+        _warn_style(profile, lab)
     page = page or (profile.page if profile and profile.page else "a4")
     if single:
         from diagram.inputs import draw_inputs, load_inputs, load_template_for
@@ -178,6 +185,21 @@ def draw(
     _draw_batch(studies, settings, jobs, quiet)
 
 
+def _warn_style(profile: LabProfile, path: Path) -> None:
+    """Warn (and go on) when the profile's bands would be misread in greyscale or by colour."""
+    from diagram.design.stylecheck import check_style
+
+    report = check_style(profile.style, source=profile.source, line_of=profile.line)
+    for problem in report.problems:
+        click.echo(_printable(f"warning: {problem}"), err=True)
+    if report.problems:
+        click.echo(
+            f"warning: the lab profile's band style fails the style check; the maps are drawn "
+            f"with it all the same (see limbchart style check {path})",
+            err=True,
+        )
+
+
 def _is_study_file(path: Path) -> bool:
     """Return True for a path that names one study file (not a folder, not a list of paths).
 
@@ -200,15 +222,6 @@ def _show_import_notes(notes: tuple[str, ...]) -> None:
     """Print what an imported report held that could not be placed, one line per item."""
     for line in notes:
         click.echo(_printable(line), err=True)
-
-
-def _check_dpi(dpi: float | None, formats: tuple[str, ...]) -> None:
-    """Refuse --dpi when no output is a PNG: a PDF, SVG or DICOM sheet is vector and ignores it."""
-    if dpi is not None and "png" not in formats:
-        raise click.UsageError(
-            f"--dpi sets the resolution of PNG output, and the output here is "
-            f"{', '.join(f.upper() for f in formats)} (vector, drawn at any size); leave --dpi out."
-        )
 
 
 def _is_folder(name: str) -> bool:
@@ -257,28 +270,78 @@ def _draw_batch(
 
 
 @click.command()
-@click.argument("study", type=click.Path(dir_okay=False, path_type=Path))
+@click.argument(
+    "studies", nargs=-1, required=True, metavar=STUDIES_METAVAR, type=click.Path(path_type=Path)
+)
 @click.option("--json", "as_json", is_flag=True, help="Print the results document as JSON.")
 @criteria_option
 @target_option
 @prior_option
 def check(
-    study: Path, as_json: bool, criteria: str | None, target: str | None, prior: Path | None
+    studies: tuple[Path, ...],
+    as_json: bool,
+    criteria: str | None,
+    target: str | None,
+    prior: Path | None,
 ) -> None:
-    """Validate a STUDY file and print its computed grading."""
-    from diagram.inputs import assess_file
+    """Validate each STUDY (a file, a folder of files, or a .txt list) and print its grading.
+
+    Prints what draw would put on the sheet: the grading per segment and lesion, the pressure
+    indices, the segments not assessed, the warnings and the change since the prior exam. With
+    several studies each is headed by its file; a study with problems is reported and the rest
+    are checked (exit status 2). --json prints the results document (a list for several).
+    """
+    import json
+
+    from diagram.batch.run import expand_inputs
+    from diagram.errors import DiagramError
     from diagram.output.results import results_document, results_json, results_table
+
+    single = len(studies) == 1 and _is_study_file(studies[0])
+    if prior is not None and not single:
+        raise click.UsageError("--prior goes with one study; in a list each study names its own.")
+    if single:
+        assessment = _assess_path(studies[0], criteria, target, prior)
+        if as_json:  # the bytes draw -o x.json writes
+            doc = results_document(assessment, version=__version__)
+            click.get_binary_stream("stdout").write(results_json(doc))
+        else:
+            click.echo(results_table(assessment))
+            click.echo(f"\n{CAUTION}")
+        return
+    failed = 0
+    documents: list[dict[str, Any]] = []
+    for path in expand_inputs(studies):
+        try:
+            assessment = _assess_path(path, criteria, target, None)
+        except DiagramError as exc:
+            failed += 1
+            for line in exc.lines():
+                click.echo(_printable(line), err=True)
+            documents.append({"input": str(path), "results": None, "errors": exc.lines()})
+            continue
+        if as_json:
+            doc = results_document(assessment, version=__version__)
+            documents.append({"input": str(path), "results": doc, "errors": []})
+        else:
+            click.echo(_printable(f"== {path}"))
+            click.echo(results_table(assessment) + "\n")
+    if as_json:
+        click.echo(json.dumps(documents, indent=2))
+    else:
+        click.echo(CAUTION)
+    if failed:
+        raise SystemExit(2)
+
+
+def _assess_path(path: Path, criteria: str | None, target: str | None, prior: Path | None) -> Any:
+    """Return the assessment of one study file (with its prior, or ``prior`` instead)."""
+    from diagram.inputs import assess_file
     from diagram.reading.load import load_study
 
-    current = load_study(study)
+    current = load_study(path)
     _show_import_notes(current.import_notes)
-    assessment = assess_file(current, criteria=criteria, target=target, prior=prior)
-    if as_json:
-        doc = results_document(assessment, version=__version__)
-        click.get_binary_stream("stdout").write(results_json(doc))  # the bytes -o x.json writes
-    else:
-        click.echo(results_table(assessment))
-        click.echo(f"\n{CAUTION}")
+    return assess_file(current, criteria=criteria, target=target, prior=prior)
 
 
 @click.group()
@@ -291,9 +354,12 @@ def criteria_list() -> None:
     """List the shipped criteria sets."""
     from diagram.criteria import load_criteria, shipped_names
 
-    for name in shipped_names():
-        crit = load_criteria(name)
-        click.echo(f"{name:8}  {crit.kind:7}  {crit.title}")
+    sets = [load_criteria(name) for name in shipped_names()]
+    name_w = max(len("name"), *(len(c.name) for c in sets))
+    kind_w = max(len("applies to"), *(len(c.kind) for c in sets))
+    click.echo(f"{'name':<{name_w}}  {'applies to':<{kind_w}}  title")
+    for crit in sets:
+        click.echo(f"{crit.name:<{name_w}}  {crit.kind:<{kind_w}}  {crit.title}")
 
 
 @criteria.command("show")
@@ -307,10 +373,18 @@ def criteria_show(name_or_path: str) -> None:
 
 @click.command()
 @click.option("--results", is_flag=True, help="Print the schema of the results document instead.")
-def schema(results: bool) -> None:
-    """Print the JSON Schema of the study file (or of the results document)."""
+@click.option("--lab", is_flag=True, help="Print the schema of a lab profile (lab.yaml) instead.")
+def schema(results: bool, lab: bool) -> None:
+    """Print the JSON Schema of the study file (or of the results document, or a lab profile)."""
     import json
 
+    if results and lab:
+        raise click.UsageError("give --results or --lab, not both.")
+    if lab:
+        from diagram.drawing.labprofile import lab_profile_schema
+
+        click.echo(json.dumps(lab_profile_schema(), indent=2))
+        return
     if results:
         from diagram.output.results import results_schema
 
@@ -323,7 +397,17 @@ def schema(results: bool) -> None:
 
 # Every command of the tool, registered here and nowhere else.
 @click.group(
-    commands=[draw, check, criteria, schema, teach, import_report, edit, *DESIGN_COMMANDS],
+    commands=[
+        draw,
+        check,
+        criteria,
+        schema,
+        segments,
+        teach,
+        import_report,
+        edit,
+        *DESIGN_COMMANDS,
+    ],
     context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100},
     epilog=CAUTION,
 )
@@ -332,7 +416,9 @@ def cli() -> None:
     """Draw graded leg-artery maps from arterial duplex findings.
 
     Reads a study file (YAML or JSON), computes velocity ratios and stenosis bands with a
-    published criteria set, and draws the bilateral map as SVG, PDF or PNG.
+    published criteria set, and draws the bilateral map. Output formats: SVG, PDF, PNG, DICOM
+    (.dcm, Encapsulated PDF), JSON (the computed results) and FHIR (.fhir.json, an HL7 FHIR R4
+    Bundle).
     """
 
 

@@ -11,13 +11,16 @@ from diagram.drawing.paper import PAGE_NAMES
 page_option = click.option(
     "--page",
     type=click.Choice(PAGE_NAMES),
-    help="Page size, or 'map' for the map and legend alone [default: the lab's, else a4].",
+    help="Page size, or 'map' for the map and legend alone [default: a4, or the lab profile's].",
 )
+TEMPLATE_METAVAR = "FILE.svg|NAME"
+STUDIES_METAVAR = "STUDY..."
 template_option = click.option(
     "--template",
     type=click.Path(dir_okay=False, path_type=Path),
+    metavar=TEMPLATE_METAVAR,
     help="A lab's own map template (SVG) or a shipped one by name "
-    "[default: the lab's, else bilateral].",
+    "[default: bilateral, or the lab profile's].",
 )
 criteria_option = click.option(
     "--criteria",
@@ -26,7 +29,7 @@ criteria_option = click.option(
 )
 target_option = click.option(
     "--target",
-    type=click.Choice(["ATA", "PTA", "PER"]),
+    type=click.Choice(["ATA", "PTA", "PER"], case_sensitive=False),
     help="Tibial artery of the planning path (default: the least diseased).",
 )
 prior_option = click.option(
@@ -50,3 +53,12 @@ overwrite_option = click.option(
     help="Replace output files that exist already (without it they are left as they are and "
     "nothing is drawn).",
 )
+
+
+def check_dpi(dpi: float | None, formats: tuple[str, ...]) -> None:
+    """Refuse --dpi when no output is a PNG: PDF, SVG and DICOM sheets are vector."""
+    if dpi is not None and "png" not in formats:
+        raise click.UsageError(
+            f"--dpi sets the resolution of PNG output, and the output here is "
+            f"{', '.join(f.upper() for f in formats)} (vector, drawn at any size); leave --dpi out."
+        )

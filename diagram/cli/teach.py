@@ -12,8 +12,16 @@ from pathlib import Path
 
 import click
 
-from diagram.cli.options import DEFAULT_DPI, dpi_option, jobs_option
-from diagram.drawing.paper import PAGE_NAMES
+from diagram.cli.options import (
+    DEFAULT_DPI,
+    STUDIES_METAVAR,
+    check_dpi,
+    dpi_option,
+    jobs_option,
+    page_option,
+    quiet_option,
+    template_option,
+)
 
 # the same as diagram.teaching.case.TEACH_FORMATS (a test keeps them equal)
 FORMAT_CHOICES = ("pdf", "svg", "png", "dcm", "yaml")
@@ -21,7 +29,9 @@ DEFAULT_FORMATS = ("pdf", "yaml")
 
 
 @click.command()
-@click.argument("inputs", nargs=-1, required=True, type=click.Path(path_type=Path))
+@click.argument(
+    "inputs", nargs=-1, required=True, metavar=STUDIES_METAVAR, type=click.Path(path_type=Path)
+)
 @click.option(
     "-o",
     "--output",
@@ -60,21 +70,11 @@ DEFAULT_FORMATS = ("pdf", "yaml")
     is_flag=True,
     help="Add these cases to a folder that holds a teaching set already (its audit is extended).",
 )
-@click.option(
-    "--page",
-    type=click.Choice(PAGE_NAMES),
-    default="a4",
-    show_default=True,
-    help="Page size, or 'map' for the map and legend alone.",
-)
-@click.option(
-    "--template",
-    type=click.Path(dir_okay=False, path_type=Path),
-    help="A lab's own map template (SVG); the shipped bilateral map by default.",
-)
+@page_option
+@template_option
 @dpi_option
 @jobs_option
-@click.option("--quiet", is_flag=True, help="No progress bar.")
+@quiet_option
 def teach(
     inputs: tuple[Path, ...],
     output: Path,
@@ -84,7 +84,7 @@ def teach(
     keep_text: bool,
     review: Path | None,
     add: bool,
-    page: str,
+    page: str | None,
     template: Path | None,
     dpi: float | None,
     jobs: int | None,
@@ -116,6 +116,8 @@ def teach(
 
     if review is not None and not keep_text:
         raise click.UsageError("--review names the review list of --keep-text; give both.")
+    chosen_formats = tuple(dict.fromkeys(formats or DEFAULT_FORMATS))
+    check_dpi(dpi, chosen_formats)
 
     try:
         paths = expand_inputs(inputs)
@@ -142,10 +144,10 @@ def teach(
         check_apart(review, output, "review list", append=add)
     settings = TeachSettings(
         out_dir=output,
-        formats=tuple(dict.fromkeys(formats or DEFAULT_FORMATS)),
+        formats=chosen_formats,
         keep_year=not no_year,
         keep_text=keep_text,
-        page=page,
+        page=page or "a4",
         template=template,
         png_dpi=DEFAULT_DPI if dpi is None else dpi,
     )

@@ -353,3 +353,60 @@ def _too_heavy(style: Style, overridden: set[str], bad: Bad) -> None:
                 f"must be at most half of spacing_pt ({b.spacing_pt:g}) for a {b.hatch} texture",
                 "wider marks fill the tile and read as solid",
             )
+
+
+def lab_profile_schema() -> dict[str, Any]:
+    """Return the JSON Schema (Draft 2020-12) of a lab profile, built from the rules above.
+
+    A schema cannot say everything the loader checks: a template path must name a file, and a
+    texture's marks must be at most half its spacing; ``limbchart style check`` reports those.
+    """
+    number = {"type": "number"}
+
+    def band(hatches: tuple[str, ...]) -> dict[str, Any]:
+        return {
+            "type": "object",
+            "additionalProperties": False,
+            "properties": {
+                "tint": {"type": "string", "pattern": _COLOUR.pattern, "description": "fill"},
+                "ink": {"type": "string", "pattern": _COLOUR.pattern, "description": "texture"},
+                "hatch": {"enum": list(hatches), "description": "texture"},
+                "spacing_pt": {**number, "minimum": SPACING_PT[0], "maximum": SPACING_PT[1]},
+                "angle_deg": {**number, "minimum": 0, "exclusiveMaximum": 180},
+                "weight_pt": {**number, "minimum": WEIGHT_PT_MIN, "maximum": 6},
+            },
+        }
+
+    return {
+        "$schema": "https://json-schema.org/draft/2020-12/schema",
+        "$id": "https://limbchart.invalid/schema/lab-profile-1.json",
+        "title": "limbchart lab profile, format 1",
+        "description": "A lab's name, default map template, page and band looks. Every field "
+        "is optional; a band's fields replace those of the default style's band of that look.",
+        "type": "object",
+        "additionalProperties": False,
+        "properties": {
+            "format": {"const": 1},
+            "lab_name": {
+                "type": "string",
+                "maxLength": MAX_NAME_CHARS,
+                "pattern": r"^[^\x00-\x1f\x7f]*\S[^\x00-\x1f\x7f]*$",
+                "description": "printed in the sheet header",
+            },
+            "template": {
+                "type": "string",
+                "minLength": 1,
+                "description": "a shipped template's name, or a path relative to the profile",
+            },
+            "page": {"enum": list(PAGE_NAMES)},
+            "font": {"const": SHIPPED_FONT, "description": "the shipped font is the only one"},
+            "bands": {
+                "type": "object",
+                "additionalProperties": False,
+                "properties": {
+                    look: band((*_HATCHES, "rings") if look == NOT_ASSESSED else _HATCHES)
+                    for look in LOOKS
+                },
+            },
+        },
+    }

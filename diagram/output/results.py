@@ -5,7 +5,7 @@ from __future__ import annotations
 import dataclasses
 import json
 from enum import Enum
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from diagram import anatomy
 from diagram.anatomy import Side
@@ -22,6 +22,9 @@ from diagram.assess.results import (
 from diagram.caution import CAUTION
 from diagram.reading.plain import CRITERIA_KEYS, exam_data, patient_data
 from diagram.reading.study import Study
+
+if TYPE_CHECKING:
+    from diagram.assess.compare import Comparison
 
 RESULTS_FORMAT = 1
 
@@ -259,7 +262,8 @@ def _limb_rows(assessment: Assessment, side: Side) -> list[Row]:
     rows: list[Row] = []
     for seg in anatomy.SEGMENT_IDS:
         r = limb.segments[seg]
-        if r.assessed:
+        if r.assessed and not (seg in anatomy.UNPAIRED and side is Side.LEFT):
+            # the unpaired aorta is listed once, under the right side
             rows.append((side.value, seg, r.band, _fmt(r.psv), _fmt(r.edv), _fmt(r.vr), r.basis))
     for les in limb.lesions:
         where = f"{les.at} lesion {les.index + 1}"
@@ -289,16 +293,88 @@ def results_table(assessment: Assessment) -> str:
         "  ".join(c.ljust(w) for c, w in zip(r[:-1], widths, strict=False)) + "  " + r[-1]
         for r in rows
     ]
-    unassessed = [
-        f"{side.value} {seg}"
-        for side in Side
-        for seg in anatomy.SEGMENT_IDS
-        if not assessment.limbs[side].segments[seg].assessed
-    ]
     out = [f"criteria: {assessment.criteria_title} ({assessment.criteria_name})", *lines]
-    if unassessed:
-        out.append(f"not assessed: {len(unassessed)} segments")
+    out += unassessed_lines(assessment)
+    if assessment.comparison is not None:
+        out += comparison_lines(assessment.comparison)
     for w in assessment.warnings:
         where = " ".join(x for x in (w.side.value if w.side else None, w.segment) if x)
         out.append(f"warning [{w.code}] {where}: {w.message}")
     return "\n".join(out)
+
+
+def unassessed_lines(assessment: Assessment) -> list[str]:
+    """Return the segments not assessed, by name: the aorta once, then each leg's."""
+    groups: list[tuple[str, list[str]]] = []
+    aorta = [s for s in anatomy.UNPAIRED if not assessment.limbs[Side.RIGHT].segments[s].assessed]
+    if aorta:
+        groups.append(("aorta", aorta))
+    for side in Side:
+        segs = assessment.limbs[side].segments
+        found = [s for s in anatomy.SEGMENT_IDS if s not in anatomy.UNPAIRED]
+        missing = [s for s in found if not segs[s].assessed]
+        if missing:
+            groups.append((side.value, missing))
+    total = sum(len(names) for _, names in groups)
+    if not total:
+        return []
+    lines = [f"not assessed: {total} segments"]
+    lines += [f"  {where}: {', '.join(names)}" for where, names in groups]
+    return lines
+
+
+def comparison_lines(comparison: Comparison) -> list[str]:
+    """Return the change since the prior exam as text, with what the sheet's change table shows."""
+    from diagram.assess.compare import ABI_SOURCE, BAND_CHANGES, Change
+
+    interval = (
+        "interval unknown"
+        if comparison.interval_days is None
+        else f"interval {comparison.interval_days} days"
+    )
+    out = [f"change since the prior exam ({interval}):"]
+    for c in comparison.segments:
+        if c.change in BAND_CHANGES:
+            psv = _psv_moved(c.psv_before, c.psv_after, c.psv_change_pct)
+            out.append(
+                f"  {c.side.value} {c.segment}: {c.before_band} -> {c.after_band} "
+                f"({c.change.value}){'; ' + psv if psv else ''}"
+            )
+    for side in Side:
+        for kind, words in (
+            (Change.NEWLY_ASSESSED, "newly assessed"),
+            (Change.NO_LONGER_ASSESSED, "not assessed this time"),
+        ):
+            segs = [c.segment for c in comparison.segments if c.side is side and c.change is kind]
+            if segs:
+                out.append(f"  {side.value} {words}: {', '.join(segs)}")
+    for les in comparison.lesions:
+        psv = _psv_moved(les.psv_before, les.psv_after, les.psv_change_pct) or "PSV not in both"
+        moved = (
+            f"; {les.band_before} -> {les.band_after}" if les.band_before != les.band_after else ""
+        )
+        out.append(
+            f"  {les.side.value} lesion {les.segment} at {les.from_cm_after:g} cm: {psv}{moved}"
+        )
+    for d in comparison.devices:
+        what = "new" if d.change == "new" else "no longer recorded:"
+        out.append(f"  {d.side.value} {what} {d.kind} {d.from_} -> {d.to}")
+    for a in comparison.abi:
+        if a.change is None or a.before is None or a.after is None:
+            out.append(f"  {a.side.value} ABI: {a.basis}")
+        else:
+            flag = f"significant fall > 0.15 ({ABI_SOURCE})" if a.significant else "not significant"
+            out.append(
+                f"  {a.side.value} ABI {a.before:.2f} -> {a.after:.2f} ({a.change:+.2f}): {flag}"
+            )
+    out += [f"  note: {note}" for note in comparison.notes]
+    if len(out) == 1:
+        out.append("  no change recorded")
+    return out
+
+
+def _psv_moved(before: float | None, after: float | None, pct: float | None) -> str:
+    if before is None or after is None:
+        return ""
+    change = f" ({pct:+.0f}%)" if pct is not None else ""  # whole percent, as on the sheet
+    return f"PSV {before:g} -> {after:g} cm/s{change}"

@@ -120,6 +120,8 @@ def _number(value: object) -> float | None:
 
 def _private(loc: Loc) -> bool:
     """Return True where a value may identify the patient and must not be echoed."""
+    if loc == ("patient", "sex"):  # not an identifier (HIPAA Safe Harbor keeps it)
+        return False
     if loc[:1] in (("patient",), ("notes",)) or loc[-1:] == ("comment",):
         return True
     if loc[:1] == ("exam",):  # every exam fact but the criteria names
@@ -152,6 +154,70 @@ def _range_rule(name: str, schema: dict[str, Any]) -> str:
 
 
 _SURROGATE = re.compile("[\ud800-\udfff]")
+_SHORT_ENUMS = {  # the trade's short forms of enum words
+    "m": "male", "f": "female", "man": "male", "woman": "female", "u": "unknown",
+    "tri": "triphasic", "bi": "biphasic", "mono": "monophasic",
+    "ante": "antegrade", "retro": "retrograde", "calc": "calcified",
+}  # fmt: skip
+_UNIT = re.compile(
+    r"([-+]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+))\s*"
+    r"(cm/s|cm/sec|cms|m/s|mm/s|mmhg|mm hg|cm|mm|°|deg|degrees|hz|khz|mhz)\.?",
+    re.IGNORECASE,
+)
+_UNITS = {  # the unit each kind of field is always in, as the study file says it
+    "cm/s": ({"psv", "edv", "proximal_psv"}, "velocities are in cm/s"),
+    "mmHg": ({"pt", "dp", "toe", "right", "left"}, "pressures are in mmHg"),
+    "cm": ({"length_cm", "from_cm"}, "lengths are in cm"),
+    "degrees": ({"angle"}, "angles are in degrees"),
+    "Hz": ({"prf_hz", "shift_hz"}, "this frequency is in Hz"),
+    "MHz": ({"f0_mhz"}, "the transmit frequency is in MHz"),
+}
+_UNIT_WORDS = {
+    "cm/s": "cm/s", "cm/sec": "cm/s", "cms": "cm/s", "m/s": "m/s", "mm/s": "mm/s",
+    "mmhg": "mmHg", "mm hg": "mmHg", "cm": "cm", "mm": "mm",
+    "°": "degrees", "deg": "degrees", "degrees": "degrees",
+    "hz": "Hz", "khz": "kHz", "mhz": "MHz",
+}  # fmt: skip
+_CONVERT = {("m/s", "cm/s"): 100.0, ("mm/s", "cm/s"): 0.1, ("mm", "cm"): 0.1, ("kHz", "Hz"): 1e3}
+_NC = re.compile(r"n\.?\s*/?\s*c\.?|non-?\s*compress(ible)?|incompressible|>\s*[0-9]+", re.I)
+NONCOMPRESSIBLE_HINT = (
+    "a vessel the cuff could not compress has no pressure: leave {vessel} out and list it as "
+    "noncompressible: [{vessel}] under pressures.{side}; the ABI is then not given and the TBI "
+    "(toe pressure) is the index"
+)
+
+
+def _enum_hint(value: str, choices: list[str]) -> str | None:
+    word = _SHORT_ENUMS.get(value.strip().lower())
+    if word in choices:
+        return f"did you mean {word}?"
+    return _close(value, choices)
+
+
+def _unit_hint(loc: Loc, number: str, written: str) -> str:
+    unit = _UNIT_WORDS[written.lower()]
+    field_unit, why = next(
+        ((u, why) for u, (keys, why) in _UNITS.items() if str(loc[-1]) in keys),
+        (None, ""),
+    )
+    if field_unit is None:
+        return f"write the number alone: {number}"
+    if unit == field_unit:
+        return f"drop the unit and write {number}: {why}"
+    factor = _CONVERT.get((unit, field_unit))
+    if factor is not None:
+        converted = _num(round(float(number) * factor, 6))
+        return f"{why}: {number} {unit} is {converted} {field_unit}; write {converted}"
+    return f"{why}: give the number in {field_unit}, without the unit"
+
+
+def _date_hint(text: str) -> str | None:
+    if re.fullmatch(r"[0-9]{1,2}[/.\-][0-9]{1,2}[/.\-][0-9]{2,4}", text.strip()):
+        return (
+            "write year-month-day, e.g. 2026-11-02 for 2 November 2026; a date such as "
+            "02/11/2026 is read day-first in some countries, month-first in others"
+        )
+    return None
 
 
 class Checker:
@@ -231,6 +297,27 @@ class Checker:
         limbs = tree.get("limbs")
         if isinstance(limbs, dict):
             self.limbs(limbs)
+        pressures = tree.get("pressures")
+        if isinstance(pressures, dict):
+            self.noncompressible(pressures)
+
+    def noncompressible(self, pressures: dict[str, object]) -> None:
+        """Refuse a pressure recorded for an artery also listed as noncompressible."""
+        for side in ("right", "left"):
+            limb = pressures.get(side)
+            listed = limb.get("noncompressible") if isinstance(limb, dict) else None
+            if not isinstance(limb, dict) or not isinstance(listed, list):
+                continue
+            for vessel in ("pt", "dp"):
+                if vessel in listed and vessel in limb:
+                    self.refuse(
+                        limb,
+                        ("pressures", side),
+                        vessel,
+                        f"is refused: {vessel} is also listed as noncompressible, which has "
+                        "no pressure.",
+                        hint=f"leave {vessel} out, or take it off the noncompressible list",
+                    )
 
     # -- schema errors --
 
@@ -254,6 +341,8 @@ class Checker:
             rule = "must be a finite number."
         elif "pattern" in schema and kind in ("type", "pattern", "maxLength"):
             rule = f"must be {schema['description']}."
+            if loc[-1:] in (("date",), ("birth_date",)) and isinstance(value, str):
+                hint = _date_hint(value)
         elif kind == "type":
             expected = str(error.validator_value)
             rule = f"{_TYPE_RULES.get(expected, 'has the wrong type')}."
@@ -261,7 +350,7 @@ class Checker:
         elif kind == "enum":
             choices = [str(c) for c in error.validator_value]
             rule = f"must be one of {', '.join(choices)}."
-            hint = _close(value, choices) if isinstance(value, str) else None
+            hint = _enum_hint(value, choices) if isinstance(value, str) else None
         elif kind == "const":
             rule = f"must be {error.validator_value}, the only study format this version reads."
         elif kind in ("minimum", "maximum") and loc[-1:] == ("angle",):
@@ -301,6 +390,11 @@ class Checker:
             return f"YAML reads {raw} as {str(value).lower()}; {advice}"
         if expected == "number" and isinstance(value, str):
             text = value.strip()
+            if loc[:1] == ("pressures",) and loc[-1:] in (("pt",), ("dp",)) and _NC.fullmatch(text):
+                return NONCOMPRESSIBLE_HINT.format(side=loc[1], vessel=loc[-1])
+            unit = _UNIT.fullmatch(text)
+            if unit:
+                return _unit_hint(loc, unit[1], unit[2])
             if self.parsed.kind == "yaml" and re.fullmatch(r"[-+]?[0-9]+[eE][-+]?[0-9]+", text):
                 return f"YAML 1.1 reads {text} as text; write {_num(float(text))}"
             if _PLAIN_DECIMAL.fullmatch(text):
@@ -348,12 +442,11 @@ class Checker:
             return None
         seg = anatomy.resolve(name)
         if seg is None:
-            close = anatomy.suggest(name)
             self.report(
                 loc,
                 "is not a segment id or alias.",
                 name if shown else _NO_VALUE,
-                hint=f"did you mean {close}?" if close else None,
+                hint=anatomy.did_you_mean(name),
             )
         return seg
 

@@ -19,13 +19,16 @@ MAX_BYTES = 2 * 1024 * 1024  # the text formats' size limit
 
 
 class Refused(Exception):
-    """Stop reading: the file is refused as a whole (at a line, or another place in the file)."""
+    """Stop reading: the file is refused as a whole (at a line or another place), with a hint."""
 
-    def __init__(self, line: int | None, rule: str, at: str | None = None) -> None:
+    def __init__(
+        self, line: int | None, rule: str, at: str | None = None, hint: str | None = None
+    ) -> None:
         super().__init__(rule)
         self.line = line
         self.rule = rule
         self.at = at
+        self.hint = hint
 
 
 @dataclass(frozen=True)

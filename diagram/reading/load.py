@@ -98,8 +98,10 @@ def load_study_text(text: str, name: str, suffix: str) -> Study:
 
 
 def _load_bytes(data: bytes, name: str, suffix: str) -> Study:
-    def refuse(rule: str, line: int | None = None, at: str | None = None) -> StudyError:
-        return StudyError([Problem(name, line, "", None, rule, at=at)])
+    def refuse(
+        rule: str, line: int | None = None, at: str | None = None, hint: str | None = None
+    ) -> StudyError:
+        return StudyError([Problem(name, line, "", None, rule, hint, at=at)])
 
     reader = reader_for(data, suffix)
     if reader is None:
@@ -113,7 +115,7 @@ def _load_bytes(data: bytes, name: str, suffix: str) -> Study:
     try:
         parsed = reader.parse(data)
     except Refused as err:
-        raise refuse(err.rule, err.line, err.at) from None
+        raise refuse(err.rule, err.line, err.at, err.hint) from None
     return _checked(parsed, name)
 
 
@@ -211,7 +213,10 @@ def _build(parsed: Parsed, name: str) -> Study:
     brachial = pressures.get("brachial", {})
 
     def limb_pressures(side: str) -> LimbPressures:
-        return LimbPressures(**_fields(LimbPressures, pressures.get(side, {})))
+        item = pressures.get(side, {})
+        found = _fields(LimbPressures, item)
+        found["noncompressible"] = tuple(item.get("noncompressible", ()))
+        return LimbPressures(**found)
 
     return Study(
         source=name,

@@ -111,11 +111,13 @@ def _pressures(p: Pressures) -> dict[str, Any]:
         out["brachial"] = brachial
     for side in ("right", "left"):
         limb = getattr(p, side)
-        kept = {
+        kept: dict[str, Any] = {
             k: _number(getattr(limb, k))
             for k in ("pt", "dp", "toe", "tcpo2")
             if getattr(limb, k) is not None
         }
+        if limb.noncompressible:
+            kept["noncompressible"] = list(limb.noncompressible)
         if kept:
             out[side] = kept
     return out

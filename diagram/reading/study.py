@@ -136,6 +136,7 @@ class LimbPressures:
     dp: float | None = None
     toe: float | None = None
     tcpo2: float | None = None  # transcutaneous oxygen pressure on the foot, mmHg
+    noncompressible: tuple[str, ...] = ()  # ankle arteries the cuff could not compress: pt, dp
 
 
 @dataclass(frozen=True)

@@ -2,7 +2,9 @@
 
 Both refuse hostile input before anything is built: NUL bytes, text that is not UTF-8, YAML
 anchors and aliases (no alias bombs), explicit YAML tags, nesting deeper than 20 levels and more
-than 10 000 values. Keys given twice are reported, not silently overwritten.
+than 10 000 values. Keys given twice are reported, not silently overwritten. A file that fails
+to decode or parse is explained in a user's words where it can be (:mod:`diagram.reading.diagnose`:
+a Word document, UTF-16 or Latin-1 text, a tab in YAML, a trailing comma in JSON).
 """
 
 from __future__ import annotations
@@ -16,6 +18,7 @@ from collections.abc import Iterator
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, cast
 
+from diagram.reading import diagnose
 from diagram.reading.checks import Loc, Parsed
 from diagram.reading.formats import Refused
 
@@ -39,15 +42,18 @@ def parse_json_bytes(data: bytes) -> Parsed:
 
 
 def _text(data: bytes) -> str:
-    """Return the file's text; refuse binary files and text that is not UTF-8."""
+    """Return the file's text; refuse documents, binary files and text that is not UTF-8."""
+    found = diagnose.not_a_text_file(data)
+    if found is not None:  # a Word document, a UTF-16 file ...
+        raise Refused(found.line, found.rule, hint=found.hint)
     if b"\0" in data:
         line = data.count(b"\n", 0, data.index(b"\0")) + 1
         raise Refused(line, "is a binary file (it holds NUL bytes), not a YAML or JSON study.")
     try:
         return data.decode("utf-8-sig")
     except UnicodeDecodeError as err:
-        line = data.count(b"\n", 0, err.start) + 1
-        raise Refused(line, f"is not UTF-8 text (byte 0x{data[err.start]:02x}).") from None
+        found = diagnose.not_utf8(data, err.start)
+        raise Refused(found.line, found.rule, hint=found.hint) from None
 
 
 # --- YAML -------------------------------------------------------------------------------------
@@ -66,6 +72,9 @@ def _parse_yaml(text: str) -> Parsed:
         line = mark.line + 1 if mark is not None else None
         if err.context and err.context_mark is not None and err.context_mark.line + 1 != line:
             where = f" ({err.context} on line {err.context_mark.line + 1})"
+        plain = diagnose.yaml_hint(text, line, mark.column if mark is not None else None)
+        if plain is not None:
+            raise Refused(plain.line, plain.rule, hint=plain.hint) from None
         raise Refused(line, f"is not valid YAML: {err.problem or err.context}{where}.") from None
     except yaml.YAMLError as err:
         raise Refused(None, f"is not valid YAML: {err}.") from None
@@ -206,6 +215,9 @@ def _parse_json(text: str) -> Parsed:
     try:
         top = _LocatingDecoder().decode(text)
     except json.JSONDecodeError as err:
+        plain = diagnose.json_hint(text, err.pos)
+        if plain is not None:
+            raise Refused(plain.line, plain.rule, hint=plain.hint) from None
         raise Refused(err.lineno, f"is not valid JSON: {err.msg}.") from None
     except ValueError:  # an integer with more digits than Python converts
         raise Refused(None, "holds a number too long to read.") from None

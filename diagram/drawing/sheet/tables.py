@@ -51,7 +51,9 @@ def pressure_entries(ix: LimbIndices | None) -> tuple[Entry, ...]:
             _entry(_strong("ABI not measured"), none),
             _entry(_strong("TBI not measured"), none),
         )
-    if ix.abi is None:
+    if ix.abi is None and ix.abi_category == "noncompressible":  # recorded noncompressible
+        abi = _entry(_strong("ABI noncompressible — use TBI"), _basis(f" · {ix.abi_basis}"))
+    elif ix.abi is None:
         abi = _entry(_strong("ABI not measured"), _basis(f" · {ix.abi_basis}"))
     elif ix.abi_category == "noncompressible":
         abi = _entry(

@@ -204,7 +204,12 @@ def _read_file(path: Path, display: str) -> tuple[Template | None, tuple[Problem
     except OSError as exc:
         rule = f"cannot be read: {exc.strerror or exc}"
         near = difflib.get_close_matches(path.name.removesuffix(".svg"), shipped_templates(), n=1)
-        hint = f"did you mean the shipped {near[0]}?" if near else "check the template's path"
+        shipped = ", ".join(shipped_templates())
+        hint = (
+            f"did you mean the shipped {near[0]}?"
+            if near
+            else f"check the template's path; the shipped maps are {shipped}"
+        )
         return None, (Problem(display, None, "", None, rule, hint),)
 
 
