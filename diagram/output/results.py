@@ -337,7 +337,7 @@ def comparison_lines(comparison: Comparison) -> list[str]:
         if c.change in BAND_CHANGES:
             psv = _psv_moved(c.psv_before, c.psv_after, c.psv_change_pct)
             out.append(
-                f"  {c.side.value} {c.segment}: {c.before_band} -> {c.after_band} "
+                f"  {c.side.value} {c.segment}: {c.band_before} -> {c.band_after} "
                 f"({c.change.value}){'; ' + psv if psv else ''}"
             )
     for side in Side:
