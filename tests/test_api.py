@@ -115,7 +115,8 @@ def test_a_lab_criteria_file_is_read_at_the_edge_not_by_the_assessment(tmp_path:
 
 
 LIGHT = ("cairo", "cairosvg", "cairocffi", "svgwrite", "fontTools", "jsonschema", "pydicom", "yaml")
-NEVER_ON_HELP = (*LIGHT, "diagram.assess", "diagram.criteria", "diagram.reading.checks")
+CLUSTER = ("dask", "distributed")  # the optional dask extra, imported by --scheduler alone
+NEVER_ON_HELP = (*LIGHT, *CLUSTER, "diagram.assess", "diagram.criteria", "diagram.reading.checks")
 
 
 def _imported_by(args: list[str]) -> list[str]:

@@ -14,12 +14,18 @@ import signal
 import sys
 from collections import deque
 from collections.abc import Callable, Iterable
-from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
+from concurrent.futures import (
+    FIRST_COMPLETED,
+    CancelledError,
+    Future,
+    ProcessPoolExecutor,
+    wait,
+)
 from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass, field
 from pathlib import Path
 from types import FrameType
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, Protocol
 
 from diagram.batch.names import DEFAULT_NAME, Unnamed, plan_names
 from diagram.errors import DiagramError, ExportError, Problem, StudyError
@@ -161,12 +167,15 @@ def draw_batch(
     *,
     jobs: int,
     on_result: Callable[[BatchResult], None],
+    cluster: Cluster | None = None,
 ) -> BatchSummary:
     """Draw every study of ``paths`` into ``settings.out_dir``, keeping its manifest.
 
     Every output name is decided first; a clash, or an existing file without ``overwrite``,
     refuses the whole batch before anything is made (``OutputNameError``). The manifest is
     written before the first study is drawn and again at the end, whatever ended the batch.
+    With a ``cluster`` its workers draw the studies (``jobs`` is then not used), after they
+    have shown that they see the output folder.
     """
     from diagram.batch.manifest import Manifest, read_manifest
     from diagram.output.export import held_signals
@@ -177,6 +186,8 @@ def draw_batch(
     )
     earlier = read_manifest(out_dir, overwrite=settings.overwrite) if out_dir.is_dir() else []
     _make_folder(out_dir)
+    if cluster is not None:
+        cluster.check_folder(out_dir)
     manifest = Manifest(out_dir, named, settings.formats, earlier)
     for item in unnamed:
         manifest.fail(item)
@@ -189,7 +200,7 @@ def draw_batch(
     for item in unnamed:
         on_result(_unnamed_result(item))
     tasks = [BatchTask(i.n, i.study, i.stem, settings) for i in named]
-    summary = run_batch(tasks, jobs=jobs, on_result=record)
+    summary = run_batch(tasks, jobs=jobs, on_result=record, workers=cluster)
     summary.failed += len(unnamed)
     summary.failures[:0] = [_unnamed_result(item) for item in unnamed]
     if summary.interrupted:
@@ -219,8 +230,9 @@ def run_batch(
     *,
     jobs: int,
     on_result: Callable[[BatchResult], None],
+    workers: Workers | None = None,
 ) -> BatchSummary:
-    """Draw every task with ``jobs`` worker processes (in this process when 1).
+    """Draw every task with ``jobs`` worker processes (in this process when 1), or ``workers``.
 
     A KeyboardInterrupt (Ctrl-C, or a stop signal the command line turns into one, carrying the
     signal number as ``signum``) ends the batch cleanly: no study is started after it but those
@@ -239,7 +251,9 @@ def run_batch(
         on_result(result)
 
     try:
-        if jobs <= 1:
+        if workers is not None:
+            _feed(workers, deque(tasks), record)
+        elif jobs <= 1:
             from diagram.output.export import held_signals
 
             for task in tasks:  # like a worker: a study is drawn whole, or not started
@@ -332,78 +346,141 @@ class _StopFlag:
 _POLL_SECONDS = 0.2  # how often a waiting batch looks at the stop flag
 
 
-def _pool_round(todo: deque[BatchTask], jobs: int, record: Callable[[BatchResult], None]) -> None:
-    """Draw tasks from ``todo`` in one pool, keeping a few per worker in flight.
+class Workers(Protocol):
+    """Where a batch's studies are drawn: this machine's worker processes, or a cluster's.
 
-    Returns when ``todo`` is empty, or early when the pool broke: its studies in flight are
-    recorded as failed with an unknown outcome (a worker may have written a study's files just
-    before another died), and the caller starts a new pool for the rest. A stop signal is
-    noted and acted on between steps, so every study handed to the pool is accounted for.
+    Both hand each study to :func:`draw_one` and give back ``concurrent.futures`` futures, so
+    one loop (:func:`_feed`) keeps the studies in flight, counts every result and stops them.
+    """
+
+    @property
+    def slots(self) -> int:
+        """Return how many studies may be in the workers' hands at once."""
+        ...
+
+    def submit(self, task: BatchTask) -> Future[BatchResult]:
+        """Hand one study to a worker."""
+        ...
+
+    def lost(self, task: BatchTask, exc: BaseException) -> str | None:
+        """Return the error line when ``exc`` means the study's worker was lost, else None."""
+        ...
+
+    def halt(self, late: set[Future[BatchResult]]) -> set[Future[BatchResult]]:
+        """Stop the studies still running after an interrupt; return those that finished."""
+        ...
+
+
+class Cluster(Workers, Protocol):
+    """Workers on other machines, which must see the output folder at the same path."""
+
+    def check_folder(self, out_dir: Path) -> None:
+        """Refuse the batch (``ExportError``) when a worker cannot write into ``out_dir``."""
+        ...
+
+
+def _pool_round(todo: deque[BatchTask], jobs: int, record: Callable[[BatchResult], None]) -> None:
+    """Draw tasks from ``todo`` in one pool of ``jobs`` processes, until done or the pool broke.
+
+    A broken pool's studies in flight are recorded as failed with an unknown outcome (a worker
+    may have written a study's files just before another died), and the caller starts a new
+    pool for the rest.
+    """
+    with ProcessPoolExecutor(max_workers=jobs, initializer=_worker_init) as pool:
+        _feed(_LocalPool(pool, jobs), todo, record)
+
+
+class _LocalPool:
+    """This machine's worker processes (:class:`Workers`)."""
+
+    def __init__(self, pool: ProcessPoolExecutor, jobs: int) -> None:
+        self.pool = pool
+        self.slots = jobs * 2
+
+    def submit(self, task: BatchTask) -> Future[BatchResult]:
+        return self.pool.submit(_work, task)
+
+    def lost(self, task: BatchTask, exc: BaseException) -> str | None:
+        return f"{task.study}: {_BROKEN}" if isinstance(exc, BrokenProcessPool) else None
+
+    def halt(self, late: set[Future[BatchResult]]) -> set[Future[BatchResult]]:
+        """SIGTERM to the workers (each finishes or drops its study whole), then SIGKILL.
+
+        The studies are not cancelled: on Python 3.11 a cancel can race the pool's own
+        clean-up when its workers were signalled too, which then fails in the pool's thread.
+        """
+        # Python 3.11 has no public way to stop a pool's workers; these are its processes.
+        workers = list((self.pool._processes or {}).values())
+        done: set[Future[BatchResult]] = set()
+        for hard in (False, True):
+            if not late:
+                break
+            for process in workers:
+                with contextlib.suppress(OSError):
+                    process.kill() if hard else process.terminate()
+            finished, late = wait(late, timeout=DRAIN_SECONDS)
+            done |= finished
+        return done
+
+
+def _feed(workers: Workers, todo: deque[BatchTask], record: Callable[[BatchResult], None]) -> None:
+    """Draw tasks from ``todo`` with ``workers``, keeping at most ``workers.slots`` in flight.
+
+    Returns when ``todo`` is empty, or early when a local pool broke. A stop signal is noted
+    and acted on between steps, so every study handed to the workers is accounted for.
     """
     pending: dict[Future[BatchResult], BatchTask] = {}
-    with (
-        ProcessPoolExecutor(max_workers=jobs, initializer=_worker_init) as pool,
-        _StopFlag() as stop,
-    ):
+    with _StopFlag() as stop:
         try:
             broken = False
             while ((todo and not broken) or pending) and stop.signum is None:
-                while todo and not broken and len(pending) < jobs * 2:
+                while todo and not broken and len(pending) < workers.slots:
                     try:
-                        pending[pool.submit(_work, todo[0])] = todo[0]
+                        pending[workers.submit(todo[0])] = todo[0]
                         todo.popleft()
                     except BrokenProcessPool:
                         broken = True
                 finished, _ = wait(pending, timeout=_POLL_SECONDS, return_when=FIRST_COMPLETED)
                 for future in finished:
                     task = pending.pop(future)
-                    if isinstance(future.exception(), BrokenProcessPool):
-                        broken = True
-                        record(BatchResult(task.n, str(task.study), errors=(_broken(task),)))
+                    exc = _CANCELLED if future.cancelled() else future.exception()
+                    line = workers.lost(task, exc) if exc is not None else None
+                    if line is not None:
+                        broken = broken or isinstance(exc, BrokenProcessPool)
+                        record(BatchResult(task.n, str(task.study), errors=(line,)))
                     else:
                         record(future.result())
             if stop.signum is not None:
                 raise stop.interrupt()
         except KeyboardInterrupt:
-            _drain(pool, pending, record)
+            _drain(workers, pending, record)
             raise
 
 
-def _broken(task: BatchTask) -> str:
-    return f"{task.study}: {_BROKEN}"
+_CANCELLED = CancelledError()  # what a cancelled study is reported to ``Workers.lost`` as
 
 
 def _drain(
-    pool: ProcessPoolExecutor,
+    workers: Workers,
     pending: dict[Future[BatchResult], BatchTask],
     record: Callable[[BatchResult], None],
 ) -> None:
-    """After an interrupt: submit nothing more and let the pool finish what it holds, in time.
+    """After an interrupt: hand out nothing more and let the workers finish what they hold.
 
-    The pool holds at most two studies per worker. They are not cancelled: on Python 3.11 a
-    cancel can race the pool's own clean-up when its workers were signalled too, which then
-    fails in the pool's thread. Studies still running after ``DRAIN_SECONDS`` get SIGTERM (each
-    worker finishes or drops its study whole, then exits without reporting); a worker still
-    alive after as long again is killed. Every study the pool held is recorded: drawn or failed
-    from its result, or failed with an unknown outcome when its worker did not report, so
-    that the summary never counts as not drawn a study whose files are there.
+    They hold at most ``workers.slots`` studies. Those still running after ``DRAIN_SECONDS``
+    are stopped (``workers.halt``). Every study handed out is recorded: drawn or failed from
+    its result, or failed with an unknown outcome when its worker did not report, so that the
+    summary never counts as not drawn a study whose files are there.
     """
     done, late = wait(pending, timeout=DRAIN_SECONDS)
-    # Python 3.11 has no public way to stop a pool's workers; these are its worker processes.
-    workers = list((pool._processes or {}).values()) if late else []
-    for hard in (False, True):  # SIGTERM first, then SIGKILL
-        if not late:
-            break
-        for process in workers:
-            with contextlib.suppress(OSError):
-                process.kill() if hard else process.terminate()
-        finished, late = wait(late, timeout=DRAIN_SECONDS)
-        done |= finished
+    if late:
+        done |= workers.halt(late)
     for future, task in pending.items():
-        if future in done and future.exception() is None:
+        if future in done and not future.cancelled() and future.exception() is None:
             record(future.result())  # a study that failed normally is reported too
         else:  # its worker was stopped, or died with the signal, before it reported
-            record(BatchResult(task.n, str(task.study), errors=(f"{task.study}: {_STOPPED}",)))
+            line = workers.lost(task, _CANCELLED) or f"{task.study}: {_STOPPED}"
+            record(BatchResult(task.n, str(task.study), errors=(line,)))
 
 
 def default_jobs() -> int:

@@ -6,6 +6,7 @@ No domain logic lives here. Heavy libraries are imported by the commands that ne
 
 from __future__ import annotations
 
+import contextlib
 import os
 import signal
 import sys
@@ -31,6 +32,7 @@ from diagram.cli.options import (
     page_option,
     prior_option,
     quiet_option,
+    scheduler_option,
     target_option,
     template_option,
 )
@@ -76,6 +78,7 @@ FORMATS = ("svg", "pdf", "png", "dcm", "json", "fhir")
 @target_option
 @prior_option
 @jobs_option
+@scheduler_option
 @quiet_option
 @overwrite_option
 @click.option(
@@ -107,6 +110,7 @@ def draw(
     target: str | None,
     prior: Path | None,
     jobs: int | None,
+    scheduler: str | None,
     quiet: bool,
     overwrite: bool,
     name_pattern: str,
@@ -130,6 +134,13 @@ def draw(
         )
     if prior is not None and not single:
         raise click.UsageError("--prior goes with one study; in a batch each study names its own.")
+    if scheduler is not None and (single or jobs is not None):
+        raise click.UsageError(
+            "--scheduler draws a batch (-o a folder) on a Dask cluster, whose workers replace "
+            "--jobs; give one of the two."
+            if not single
+            else "--scheduler draws a batch; for one study give -o a folder, ending in /."
+        )
     if single and len(formats) > 1:
         raise click.UsageError("one output file takes one --format; give a folder for more.")
     chosen = (
@@ -182,7 +193,7 @@ def draw(
         overwrite=overwrite,
         renderer=renderer,
     )
-    _draw_batch(studies, settings, jobs, quiet)
+    _draw_batch(studies, settings, jobs, quiet, scheduler)
 
 
 def _warn_style(profile: LabProfile, path: Path) -> None:
@@ -233,7 +244,11 @@ def _is_folder(name: str) -> bool:
 
 
 def _draw_batch(
-    studies: tuple[Path, ...], settings: BatchSettings, jobs: int | None, quiet: bool
+    studies: tuple[Path, ...],
+    settings: BatchSettings,
+    jobs: int | None,
+    quiet: bool,
+    scheduler: str | None = None,
 ) -> None:
     from diagram.batch.run import (
         BatchResult,
@@ -254,16 +269,24 @@ def _draw_batch(
             click.echo(f"{result.study} -> {', '.join(result.written)}", err=True)
 
     workers = jobs or default_jobs()
-    if bar_wanted:
-        with click.progressbar(length=len(paths), label="drawing", file=sys.stderr) as bar:
+    with contextlib.ExitStack() as stack:
+        cluster = None
+        if scheduler is not None:
+            from diagram.batch.cluster import connect
+
+            cluster = stack.enter_context(connect(scheduler))
+        if bar_wanted:
+            bar = stack.enter_context(
+                click.progressbar(length=len(paths), label="drawing", file=sys.stderr)
+            )
 
             def tick(result: BatchResult) -> None:
                 report(result)
                 bar.update(1)
 
-            summary = draw_batch(paths, settings, jobs=workers, on_result=tick)
-    else:
-        summary = draw_batch(paths, settings, jobs=workers, on_result=report)
+            summary = draw_batch(paths, settings, jobs=workers, on_result=tick, cluster=cluster)
+        else:
+            summary = draw_batch(paths, settings, jobs=workers, on_result=report, cluster=cluster)
     click.echo(summary.line(len(paths)), err=True)
     if summary.exit_status:
         sys.exit(summary.exit_status)

@@ -46,6 +46,13 @@ dpi_option = click.option(
 jobs_option = click.option(
     "--jobs", type=click.IntRange(1, 256), help="Worker processes (default: CPU count)."
 )
+scheduler_option = click.option(
+    "--scheduler",
+    metavar="ADDRESS",
+    help="Draw a batch on an existing Dask cluster whose scheduler is at ADDRESS "
+    "(e.g. tcp://host:8786) instead of --jobs local processes; the workers must see the studies "
+    "and the output folder at the same paths. Needs: pip install 'limbchart[dask]'.",
+)
 quiet_option = click.option("--quiet", is_flag=True, help="No progress bar and no per-study lines.")
 overwrite_option = click.option(
     "--overwrite",

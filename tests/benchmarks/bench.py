@@ -10,7 +10,9 @@ Sections:
   labels  label packing cost for 10, 50, 200, 1000 labels; growth against n log n; 200 < 20 ms.
   cold    `limbchart --help` and `limbchart check` against `python -c "import click"`.
   batch   200 generated studies to PDF with --jobs 1 and --jobs 2: studies/s and speed-up
-          (target >= 1.7x on two cores); parent peak memory for 50 vs 500 studies.
+          (target >= 1.7x on two cores); parent peak memory for 50 vs 500 studies; the same
+          200 on a Dask cluster of two worker processes started here, beside --jobs 2 (needs
+          the dask extra).
   cairo   the Scene painted by cairo against the SVG converted by CairoSVG, side by side:
           cold `limbchart draw BUSIEST -o x.pdf` against a cold `python -m cairosvg` of the
           same SVG (target <= 0.6x); warm PDF per page (target <= 25 ms); a batch of 200 to
@@ -178,14 +180,17 @@ def cold() -> None:
         print(f"  {name:27s} {t * 1e3:7.1f}  {t / base:.2f}x")
 
 
-def _batch_once(folder: Path, jobs: int, renderer: str = "cairo") -> tuple[float, float]:
+def _batch_once(
+    folder: Path, jobs: int, renderer: str = "cairo", scheduler: str | None = None
+) -> tuple[float, float]:
     out = Path(tempfile.mkdtemp())
+    where = ["--scheduler", scheduler] if scheduler else ["--jobs", str(jobs)]
     code = (
         "import resource, sys\n"
         "from diagram.cli.main import main\n"
         "try:\n"
         f"    main(['draw', {str(folder)!r}, '-o', {str(out) + '/'!r}, '--format', 'pdf',"
-        f" '--jobs', '{jobs}', '--quiet', '--renderer', {renderer!r}])\n"
+        f" *{where!r}, '--quiet', '--renderer', {renderer!r}])\n"
         "except SystemExit:\n"
         "    pass\n"
         "print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss)\n"
@@ -194,6 +199,39 @@ def _batch_once(folder: Path, jobs: int, renderer: str = "cairo") -> tuple[float
     done = subprocess.run([sys.executable, "-c", code], check=True, capture_output=True, text=True)
     elapsed = time.perf_counter() - t0
     return elapsed, float(done.stdout.strip().splitlines()[-1]) / 1024
+
+
+def _batch_on_cluster(folder: Path, rounds: int = 2) -> None:
+    """The same studies with --jobs 2 and on a Dask cluster of two single-threaded worker
+    processes, taking turns round by round so both see the same load; medians."""
+    try:
+        from distributed import LocalCluster
+    except ImportError:
+        print("  dask cluster: skipped (pip install 'limbchart[dask]')")
+        return
+    t0 = time.perf_counter()
+    with LocalCluster(
+        n_workers=2, processes=True, threads_per_worker=1, dashboard_address=":0"
+    ) as cluster:
+        started = time.perf_counter() - t0
+        address = cluster.scheduler_address
+        fresh, _ = _batch_once(folder, 2, scheduler=address)  # the workers import limbchart
+        local, dask = [], []
+        for _ in range(rounds):
+            local.append(_batch_once(folder, 2)[0])
+            dask.append(_batch_once(folder, 2, scheduler=address)[0])
+    n = len(list(folder.iterdir()))
+    t_local, t_dask = statistics.median(local), statistics.median(dask)
+    print(f"  the same {n} studies, --jobs 2 against a Dask cluster (median of {rounds} turns)")
+    print(f"    --jobs 2                  {t_local:6.1f} s  {n / t_local:6.1f} studies/s  1.00x")
+    print(
+        f"    dask, 2 worker processes  {t_dask:6.1f} s  {n / t_dask:6.1f} studies/s  "
+        f"{t_local / t_dask:.2f}x"
+    )
+    print(
+        f"    (first batch on fresh workers {n / fresh:.1f} studies/s; cluster start "
+        f"{started:.1f} s, not counted)"
+    )
 
 
 def batch() -> None:
@@ -205,6 +243,7 @@ def batch() -> None:
     print(f"  --jobs 1  {t1:6.1f} s  {200 / t1:6.1f} studies/s  parent peak {m1:6.1f} MB")
     print(f"  --jobs 2  {t2:6.1f} s  {200 / t2:6.1f} studies/s  parent peak {m2:6.1f} MB")
     print(f"  speed-up  {t1 / t2:.2f}x")
+    _batch_on_cluster(tmp / "s200")
     write_studies(tmp / "s50", 50)
     write_studies(tmp / "s500", 500)
     _, m50 = _batch_once(tmp / "s50", 2)
