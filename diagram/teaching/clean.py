@@ -150,26 +150,11 @@ _TRAILER = re.compile(rb"trailer\s*<<(?P<body>.*?)>>\s*startxref\s*\d+\s*%%EOF\s
 _INFO_REF = re.compile(rb"/Info\s+(\d+)\s+(\d+)\s+R")
 
 
-# The one thing a teaching PDF says about itself: what it is, never whom or which case.
-TEACHING_PDF_TITLE = "Lower-limb arterial duplex · teaching case"
-
-
-def _title_dictionary(title: str) -> bytes:
-    """Return an Info dictionary of ``title`` alone, a literal string in PDFDocEncoding.
-
-    PDFDocEncoding (PDF 1.7, Annex D) agrees with Latin-1 on printable ASCII and on the middle
-    dot (0xB7) this title uses; parentheses and backslashes are escaped.
-    """
-    text = title.replace("\\", "\\\\").replace("(", "\\(").replace(")", "\\)")
-    return b"<</Title (" + text.encode("latin-1") + b")>>"
-
-
 def strip_pdf_info(pdf: bytes) -> bytes:
-    """Return the PDF with its Info dictionary (cairo's /Producer and dates) replaced.
+    """Return the PDF with its Info dictionary (cairo's /Producer and /CreationDate) emptied.
 
-    The dictionary's bytes are overwritten in place by one holding only the fixed
-    ``TEACHING_PDF_TITLE``, padded with spaces (or, should it not fit, by an empty dictionary,
-    the trailer's /Info entry then blanked), so that every offset in the cross-reference table
+    The dictionary's bytes are overwritten in place by an empty dictionary padded with spaces,
+    and the trailer's /Info entry by spaces, so that every offset in the cross-reference table
     still holds: nothing else in the file is rewritten. A PDF with an XMP packet, a
     cross-reference stream or an incremental update is refused, not guessed at.
     """
@@ -199,13 +184,11 @@ def strip_pdf_info(pdf: bytes) -> bytes:
     if first < 0 or last < first or body[:first].strip() or b"stream" in body:
         raise CleanError("pdf", "the PDF's Info object is not a plain dictionary")
     span = last + 2 - first
-    titled = _title_dictionary(TEACHING_PDF_TITLE)
-    blank = titled if len(titled) <= span else b"<<>>"
+    blank = b"<<>>" + b" " * (span - 4)
     out = bytearray(pdf)
-    out[start + first : start + first + span] = blank + b" " * (span - len(blank))
-    if blank == b"<<>>":
-        a = trailer.start("body") + ref.start()
-        out[a : a + len(ref.group(0))] = b" " * len(ref.group(0))
+    out[start + first : start + first + span] = blank
+    a = trailer.start("body") + ref.start()
+    out[a : a + len(ref.group(0))] = b" " * len(ref.group(0))
     return bytes(out)
 
 
