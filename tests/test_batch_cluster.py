@@ -92,6 +92,11 @@ def test_the_cluster_draws_a_batch_as_the_local_pool_does(
     assert err_l.splitlines()[-1] == err_c.splitlines()[-1] == "3 of 4 studies drawn, 1 failed."
     broken = f"{inputs / 'zz-broken.yaml'}:2: limbs.left.segments.SFA-X: is not a segment id"
     assert broken in err_l and broken in err_c and "Traceback" not in err_c
+    # progress: one line per study drawn, naming its files (the workers' absolute paths)
+    for n, name in enumerate(("claudicant-sfa", "multilevel-occlusion", "normal"), start=1):
+        files = ", ".join(f"{cluster / f'map-{n:04d}'}.{fmt}" for fmt in ("pdf", "svg", "json"))
+        assert f"{inputs / name}.yaml -> {files}" in err_c.splitlines()
+    assert err_l.count(" -> ") == err_c.count(" -> ") == 3
     # the same manifest: inputs, names, statuses, errors and counts
     assert manifest(local) == manifest(cluster)
     assert manifest(cluster)["batch"] == {
@@ -356,3 +361,27 @@ def test_a_malformed_scheduler_address_is_refused_at_once(
         "tcp://host:8786.\n",
     )
     assert not (tmp_path / "out").exists()
+
+
+@needs_dask
+def test_a_worker_drawing_in_several_threads_draws_the_same_files(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    """A cluster's worker may run several studies at once in threads of one process."""
+    distributed = pytest.importorskip("distributed")
+    write_studies(tmp_path / "in", 6)
+    formats = ["--format", "png", "--format", "json", "--dpi", "50", "--quiet"]
+    local, threads = tmp_path / "local", tmp_path / "threads"
+    assert (
+        run(["draw", str(tmp_path / "in"), "-o", f"{local}/", *formats, "--jobs", "1"], capsys)[0]
+        == 0
+    )
+    with distributed.LocalCluster(
+        n_workers=1, processes=True, threads_per_worker=3, dashboard_address=":0"
+    ) as cluster:
+        args = ["draw", str(tmp_path / "in"), "-o", f"{threads}/", *formats]
+        code, err = run([*args, "--scheduler", cluster.scheduler_address], capsys)
+    assert (code, err) == (0, "6 of 6 studies drawn, 0 failed.\n")
+    names = sorted(os.listdir(local))
+    assert names == sorted(os.listdir(threads)) and len(names) == 6 * 2 + 1
+    assert [n for n in names if (local / n).read_bytes() != (threads / n).read_bytes()] == []
