@@ -1,6 +1,6 @@
 """The cairo route (Scene painted directly) against the reference route (SVG through CairoSVG).
 
-Every example is rendered both ways. Pixels at 72 dpi (the coarsest screen resolution, where
+Every example and the style gallery (its specimen sheet a scaled inset) are rendered both ways. Pixels at 72 dpi (the coarsest screen resolution, where
 any misplaced shape or texture shows most): outside the text boxes the two images may differ
 only where anti-aliasing of an edge rounds differently, i.e. no pixel by more than half the grey
 range and at most 0.05% of the pixels by more than 40 of 255 levels; inside the text boxes (padded
@@ -15,6 +15,7 @@ from __future__ import annotations
 import io
 import shutil
 import subprocess
+from collections.abc import Iterator
 from functools import cache
 from pathlib import Path
 
@@ -28,6 +29,7 @@ from diagram.reading.load import load_study
 
 ROOT = Path(__file__).resolve().parent.parent
 EXAMPLES = sorted(p.stem for p in (ROOT / "examples").glob("*.yaml"))
+SHEETS = [*EXAMPLES, "gallery"]
 DPI = 72.0
 EDGE_LEVEL = 40  # a grey difference above this is more than an edge's anti-aliasing
 MAX_LEVEL = 128
@@ -39,7 +41,21 @@ CAIRO = ExportOptions(png_dpi=DPI, renderer="cairo")
 
 @cache
 def drawing(stem: str) -> Drawing:
+    if stem == "gallery":
+        from diagram.design.gallery import gallery_scene
+
+        return Drawing(results={}, scene=gallery_scene())
     return draw(load_study(ROOT / "examples" / f"{stem}.yaml"))
+
+
+def _texts(scene: Scene) -> Iterator[tuple[Text, float, float, float]]:
+    """Yield every text of the page with the scale and offset it is drawn at (insets too)."""
+    for item in scene.walk():
+        if isinstance(item, Text):
+            yield item, 1.0, 0.0, 0.0
+    for inset in scene.insets:
+        for text, scale, dx, dy in _texts(inset.scene):
+            yield text, scale * inset.scale, inset.x + dx * inset.scale, inset.y + dy * inset.scale
 
 
 def _pages(png: bytes, scenes: tuple[Scene, ...]) -> list[Image.Image]:
@@ -57,13 +73,16 @@ def _text_boxes(scene: Scene) -> list[tuple[float, float, float, float]]:
     """Return the pixel box of every line of text (texts on one baseline that touch merged)."""
     k, pad = DPI / 72, 3.0
     rows: dict[float, list[list[float]]] = {}
-    for item in sorted((i for i in scene.walk() if isinstance(i, Text)), key=lambda t: t.x):
+    for item, scale, dx, dy in sorted(_texts(scene), key=lambda t: t[0].x * t[1] + t[2]):
         b = bounds(item)
         if b is None or not item.text.strip():
             continue
-        grow = b.w * 0.06 * k
-        box = [b.x * k - pad - grow, b.y * k - pad, b.right * k + pad + grow, b.bottom * k + pad]
-        line = rows.setdefault(round(item.y, 1), [])
+        x, y, right, bottom = (
+            b.x * scale + dx, b.y * scale + dy, b.right * scale + dx, b.bottom * scale + dy
+        )  # fmt: skip
+        grow = (right - x) * 0.06 * k
+        box = [x * k - pad - grow, y * k - pad, right * k + pad + grow, bottom * k + pad]
+        line = rows.setdefault(round(item.y * scale + dy, 1), [])
         if line and box[0] <= line[-1][2]:
             last = line[-1]
             line[-1] = [last[0], min(last[1], box[1]), max(last[2], box[2]), max(last[3], box[3])]
@@ -77,7 +96,7 @@ def _ink(image: Image.Image, box: tuple[float, float, float, float]) -> int:
     return sum(count * (255 - level) for level, count in enumerate(crop.histogram()))
 
 
-@pytest.mark.parametrize("stem", EXAMPLES)
+@pytest.mark.parametrize("stem", SHEETS)
 def test_pixels_differ_only_by_text_antialiasing(stem: str) -> None:
     d = drawing(stem)
     assert d.scene is not None
@@ -109,7 +128,7 @@ def _pdftotext(pdf: bytes, tmp: Path, name: str) -> list[str]:
 
 
 @pytest.mark.skipif(shutil.which("pdftotext") is None, reason="needs poppler's pdftotext")
-@pytest.mark.parametrize("stem", EXAMPLES)
+@pytest.mark.parametrize("stem", SHEETS)
 def test_pdf_gives_the_same_words_pages_and_fonts(stem: str, tmp_path: Path) -> None:
     from pypdf import PdfReader
 

@@ -450,6 +450,36 @@ def test_metadata_left_in_a_pdf_is_caught(monkeypatch: pytest.MonkeyPatch) -> No
     assert {(str(h.category), h.output) for h in out.hits} >= {("document-metadata", "pdf")}
 
 
+@needs_poppler
+def test_the_case_pdf_is_painted_from_its_scene_with_the_svg_words(tmp_path: Path) -> None:
+    """The PDF comes from the case's de-identified Scene (cairo), not from its SVG text, and
+    says the same words as the allow-listed SVG converted by CairoSVG (poppler's pdftotext)."""
+    from diagram.output.export import ExportOptions, render_bytes
+    from diagram.teaching.case import _case_drawing, deidentify
+    from diagram.teaching.clean import strip_pdf_info
+
+    case = deidentify(load_study(EXAMPLE), "tc-aaaaa-bbbbb", keep_year=True, keep_text=False)
+    drawing = _case_drawing(case)
+    assert drawing.scene is not None and drawing.svg_pages
+    out = render_case(load_study(EXAMPLE), "tc-aaaaa-bbbbb", CaseSettings(formats=("pdf",)))
+    (pdf,) = out.files.values()
+    painted = render_bytes(drawing, "pdf")
+    converted = render_bytes(drawing, "pdf", ExportOptions(renderer="cairosvg"))
+    assert pdf == strip_pdf_info(painted) != strip_pdf_info(converted)
+    words = []
+    for name, data in (("case", pdf), ("painted", painted), ("converted", converted)):
+        (tmp_path / f"{name}.pdf").write_bytes(data)
+        text = subprocess.run(
+            ["pdftotext", str(tmp_path / f"{name}.pdf"), "-"],
+            capture_output=True,
+            text=True,
+            check=True,
+        ).stdout
+        words.append(sorted(text.split()))
+    assert "tc-aaaaa-bbbbb" in " ".join(words[0]) and len(words[0]) > 100
+    assert words[0] == words[1] == words[2]
+
+
 # --- 200 fictional studies ---------------------------------------------------------------------
 
 

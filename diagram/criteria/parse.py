@@ -85,11 +85,12 @@ def parse_criteria(text: str, file: str, origin: str) -> Criteria:
     def refuse(at: Any, rule: str) -> CriteriaError:
         return CriteriaError([Problem(file, at.line + 1 if at else None, "", None, rule)])
 
+    loader = getattr(yaml, "CSafeLoader", yaml.SafeLoader)  # libyaml when present, as for studies
     try:
         # Screen the event stream before anything is built: anchors and aliases (how a YAML
         # bomb expands), explicit tags (object construction) and deep nesting are refused.
         depth = 0
-        for event in yaml.parse(text, Loader=yaml.SafeLoader):
+        for event in yaml.parse(text, Loader=loader):
             if isinstance(event, yaml.AliasEvent) or getattr(event, "anchor", None):
                 raise refuse(event.start_mark, "must not use YAML anchors or aliases.")
             implicit = getattr(event, "implicit", True)
@@ -102,10 +103,10 @@ def parse_criteria(text: str, file: str, origin: str) -> Criteria:
                     raise refuse(event.start_mark, f"is nested deeper than {_MAX_DEPTH} levels.")
             elif isinstance(event, yaml.CollectionEndEvent):
                 depth -= 1
-        node = yaml.compose(text, Loader=yaml.SafeLoader)
+        node = yaml.compose(text, Loader=loader)
         if node is not None:
             _refuse_complex_keys(node, refuse)
-        raw = yaml.safe_load(text)
+        raw = yaml.load(text, Loader=loader)  # a safe loader
     except yaml.YAMLError as exc:
         mark: Any = getattr(exc, "problem_mark", None)
         line = mark.line + 1 if mark is not None else None

@@ -22,7 +22,7 @@ from diagram.errors import ExportError
 
 if TYPE_CHECKING:
     from diagram.drawing.labprofile import LabProfile
-    from diagram.drawing.scene import Item
+    from diagram.drawing.scene import Item, Scene
     from diagram.drawing.template.mapfile import Template
 
 MARGIN_PT = 28.0
@@ -171,12 +171,24 @@ def gallery_svg(
     page: str | None = None,
 ) -> str:
     """Return the gallery page as SVG text (A4 unless ``page`` is ``letter``)."""
+    from diagram.output.svg import render_svg
+
+    return render_svg(gallery_scene(style, template, lab_name=lab_name, page=page))
+
+
+def gallery_scene(
+    style: Style | None = None,
+    template: Template | None = None,
+    *,
+    lab_name: str | None = None,
+    page: str | None = None,
+) -> Scene:
+    """Return the gallery page: the band panel, and the specimen's sheet as a scaled inset."""
     from diagram._version import __version__
     from diagram.assess import assess
     from diagram.drawing.layout import layout
-    from diagram.drawing.scene import Box, Rect, Scene
+    from diagram.drawing.scene import Box, Inset, Rect, Scene
     from diagram.drawing.template.mapfile import load_template
-    from diagram.output.svg import render_svg
     from diagram.reading.load import load_study_text
 
     style = style or default_style()
@@ -197,7 +209,11 @@ def gallery_svg(
     items, bands = _panel(style, title, width)
     page_rect = Rect("gallery-page", 0, 0, width, height, fill="#FFFFFF")
     whole = Box(0, 0, width, height)
-    panel = Scene(
+    # The specimen's own sheet, scaled to the room under the panel.
+    room_w, room_h = width - 2 * MARGIN_PT, height - PANEL_PT - MARGIN_PT
+    scale = min(1.0, room_w / map_scene.width_pt, room_h / map_scene.height_pt)
+    x = (width - map_scene.width_pt * scale) / 2
+    return Scene(
         page="gallery",
         width_pt=width,
         height_pt=height,
@@ -209,19 +225,8 @@ def gallery_svg(
         vessel_box=whole,
         label_boxes=(),
         pressure_regions=(),
+        insets=(Inset("gallery-specimen", x, PANEL_PT, scale, map_scene),),
     )
-    outer = render_svg(panel).replace('id="sheet"', 'id="gallery-sheet"', 1)
-    outer = outer.replace('id="font-faces"', 'id="gallery-font-faces"', 1)
-    # The specimen's own sheet, scaled to the room under the panel, as a nested <svg>.
-    room_w, room_h = width - 2 * MARGIN_PT, height - PANEL_PT - MARGIN_PT
-    scale = min(1.0, room_w / map_scene.width_pt, room_h / map_scene.height_pt)
-    w, h = map_scene.width_pt * scale, map_scene.height_pt * scale
-    inner = render_svg(map_scene).split("?>", 1)[1].strip()
-    head, rest = inner.split(">", 1)
-    head = re.sub(r'\s(width|height)="[^"]*"', "", head)
-    x, y = (width - w) / 2, PANEL_PT
-    head += f' x="{x:.2f}" y="{y:.2f}" width="{w:.2f}" height="{h:.2f}"'
-    return outer.replace("</svg>\n", f"{head}>{rest}\n</svg>\n")
 
 
 def write_gallery(
@@ -250,12 +255,12 @@ def write_gallery(
         raise ExportError(f"{path}: the gallery is written as {', '.join(FORMATS)}, not {fmt}.")
     refuse_existing(path, overwrite)
     chosen = template if template is not None else (profile.template if profile else None)
-    svg = gallery_svg(
+    scene = gallery_scene(
         profile.style if profile else None,
         load_template(chosen),
         lab_name=profile.lab_name if profile else None,
         page=profile.page if profile else None,
     )
     options = ExportOptions(png_dpi=150.0)
-    drawing = Drawing(results={}, svg_pages=(svg,))
+    drawing = Drawing(results={}, scene=scene)
     return export(drawing, path, fmt, options, overwrite=overwrite)

@@ -176,6 +176,27 @@ Item = Rect | Polygon | PathItem | Line | Circle | Text | Group
 
 
 @dataclass(frozen=True)
+class Inset:
+    """Another page drawn inside this one, scaled uniformly (the gallery's specimen sheet).
+
+    ``x``, ``y`` are where the inset page's top left corner lies on this page; the inset is
+    clipped to its own page, as a nested SVG viewport is.
+    """
+
+    id: str
+    x: float
+    y: float
+    scale: float
+    scene: Scene
+
+    @property
+    def box(self) -> Box:
+        """Return the area the inset covers on the page."""
+        scene = self.scene
+        return Box(self.x, self.y, scene.width_pt * self.scale, scene.height_pt * self.scale)
+
+
+@dataclass(frozen=True)
 class LabelBox:
     """A placed margin label: its text box and the point on the vessel its leader reaches."""
 
@@ -230,6 +251,7 @@ class Scene:
     page_count: int = 1
     more: tuple[Scene, ...] = ()  # pages 2 .. page_count (on page 1 only)
     title: str = ""  # the document title (PDF metadata): kind of sheet and lab, no identifier
+    insets: tuple[Inset, ...] = ()  # other pages drawn scaled over the items, in order
 
     def pages(self) -> tuple[Scene, ...]:
         """Return every page of the sheet, this one first."""

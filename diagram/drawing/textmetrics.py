@@ -6,6 +6,9 @@ text advances equal these exactly), so labels are placed from the same numbers t
 
 from __future__ import annotations
 
+import struct
+import sys
+from array import array
 from dataclasses import dataclass
 from functools import lru_cache
 from pathlib import Path
@@ -25,23 +28,52 @@ class _Face:
 
 @lru_cache(maxsize=2)
 def _face(bold: bool) -> _Face:
-    """Read the advance table and line extents of one face (once per process)."""
-    from fontTools.ttLib import TTFont
+    """Read the advance table and line extents of one face (once per process).
 
-    font = TTFont(str(FONT_DIR / FONT_FILES[bold]), lazy=True)
-    try:
-        hmtx = font["hmtx"]
-        by_char = {code: hmtx[glyph][0] for code, glyph in font.getBestCmap().items()}
-        hhea = font["hhea"]
-        return _Face(
-            by_char=by_char,
-            missing=hmtx[".notdef"][0],
-            units_per_em=int(font["head"].unitsPerEm),
-            ascent=int(hhea.ascent),
-            descent=-int(hhea.descent),
-        )
-    finally:
-        font.close()
+    Only the four tables needed are read, straight from the file (OpenType specification,
+    "head", "hhea", "hmtx" and the Unicode full-repertoire "cmap" subtable, format 12): a
+    full font library costs more to import than the whole table takes to read.
+    ``tests/test_textmetrics.py`` checks the result against fontTools' reading of the font.
+    """
+    data = (FONT_DIR / FONT_FILES[bold]).read_bytes()
+    tables = _tables(data)
+    head, hhea = tables["head"], tables["hhea"]
+    (units_per_em,) = struct.unpack_from(">H", data, head + 18)
+    ascent, descent = struct.unpack_from(">hh", data, hhea + 4)
+    (metrics,) = struct.unpack_from(">H", data, hhea + 34)
+    advances = array("H", data[tables["hmtx"] : tables["hmtx"] + 4 * metrics])
+    if sys.byteorder == "little":
+        advances.byteswap()
+    # (advance, left side bearing) pairs; the glyphs after them take the last advance
+    widths = advances[::2].tolist() + [advances[-2]] * 65536
+    by_char: dict[int, int] = {}
+    for first, last, glyph in _cmap12(data, tables["cmap"]):
+        codes = range(first, last + 1)
+        by_char.update(zip(codes, widths[glyph : glyph + len(codes)], strict=True))
+    return _Face(by_char, widths[0], units_per_em, ascent, -descent)
+
+
+def _tables(data: bytes) -> dict[str, int]:
+    """Return the offset of each table of a TrueType file, by tag."""
+    (count,) = struct.unpack_from(">H", data, 4)
+    out = {}
+    for i in range(count):
+        tag, _checksum, offset, _length = struct.unpack_from(">4sIII", data, 12 + 16 * i)
+        out[tag.decode("latin-1")] = offset
+    return out
+
+
+def _cmap12(data: bytes, cmap: int) -> list[tuple[int, int, int]]:
+    """Return the (first code, last code, first glyph) groups of the Windows full-repertoire
+    subtable (platform 3, encoding 10, format 12)."""
+    (count,) = struct.unpack_from(">H", data, cmap + 2)
+    for i in range(count):
+        platform, encoding, offset = struct.unpack_from(">HHI", data, cmap + 4 + 8 * i)
+        sub = cmap + offset
+        if (platform, encoding) == (3, 10) and struct.unpack_from(">H", data, sub)[0] == 12:
+            (groups,) = struct.unpack_from(">I", data, sub + 12)
+            return [struct.unpack_from(">III", data, sub + 16 + 12 * g) for g in range(groups)]
+    raise ValueError("the shipped font has no Unicode full-repertoire cmap subtable")
 
 
 def text_width(text: str, size_pt: float, bold: bool = False) -> float:

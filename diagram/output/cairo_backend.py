@@ -135,9 +135,18 @@ class CairoRenderer:
         ctx.set_font_options(font_options())
 
     def draw_page(self, scene: Scene) -> None:
-        """Draw every item of one page, in paint order."""
+        """Draw every item of one page, in paint order, then its insets."""
         for item in scene.items:
             self.draw_item(item)
+        ctx = self.ctx
+        for inset in scene.insets:
+            ctx.save()
+            ctx.translate(inset.x, inset.y)
+            ctx.scale(inset.scale, inset.scale)
+            ctx.rectangle(0, 0, inset.scene.width_pt, inset.scene.height_pt)
+            ctx.clip()  # as a nested SVG viewport clips its content
+            CairoRenderer(ctx, inset.scene.bands).draw_page(inset.scene)
+            ctx.restore()
 
     def draw_item(self, item: Item) -> None:
         """Draw one item (a group's members in order)."""

@@ -39,8 +39,10 @@ class Drawing:
     """What the pipeline produced for one study: the Scene and the results document.
 
     ``scene`` is the laid-out sheet (its further pages in ``scene.more``); each format's writer
-    renders it as it needs. A drawing may instead be given as SVG text (``svg_pages``, page 1
-    first), which is then what the SVG writer writes and what CairoSVG converts.
+    renders it as it needs. A drawing may also or instead be given as SVG text (``svg_pages``,
+    page 1 first), which is then what the SVG writer writes and what CairoSVG converts; the cairo
+    renderer paints the Scene whenever there is one (the teaching export gives both: its SVG
+    allow-listed, its Scene already de-identified).
     ``study`` gives the DICOM header its patient and exam attributes; ``dicom`` overrides them
     (the teaching export passes de-identified ones).
     """
@@ -119,7 +121,7 @@ def _svg(drawing: Drawing, options: ExportOptions) -> bytes:
 
 def _scene(drawing: Drawing, options: ExportOptions) -> Scene | None:
     """Return the Scene to paint with cairo, or None for the CairoSVG route."""
-    return drawing.scene if options.renderer == "cairo" and not drawing.svg_pages else None
+    return drawing.scene if options.renderer == "cairo" else None
 
 
 def _title(drawing: Drawing) -> str:

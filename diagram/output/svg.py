@@ -203,6 +203,30 @@ def _text_chars(scene: Scene) -> tuple[set[str], set[str]]:
 def render_svg(scene: Scene, annotate: Annotate | None = None) -> str:
     """Return the SVG text of ``scene``, carrying the subset of the shipped font it uses;
     ``annotate`` may add attributes to items' elements."""
+    text = _render_page(scene, annotate)
+    return _with_insets(text, scene) if scene.insets else text
+
+
+def _with_insets(outer: str, scene: Scene) -> str:
+    """Nest each inset's own SVG after the page's items, as a scaled viewport.
+
+    The page's sheet group and font faces are renamed after the page, so the ids of the nested
+    sheet stay unique in the document.
+    """
+    outer = outer.replace('id="sheet"', f'id="{scene.page}-sheet"', 1)
+    outer = outer.replace('id="font-faces"', f'id="{scene.page}-font-faces"', 1)
+    nested = []
+    for inset in scene.insets:
+        inner = render_svg(inset.scene).split("?>", 1)[1].strip()
+        head, rest = inner.split(">", 1)
+        head = re.sub(r'\s(width|height)="[^"]*"', "", head)
+        box = inset.box
+        head += f' x="{box.x:.2f}" y="{box.y:.2f}" width="{box.w:.2f}" height="{box.h:.2f}"'
+        nested.append(f"{head}>{rest}\n")
+    return outer.replace("</svg>\n", f"{''.join(nested)}</svg>\n")
+
+
+def _render_page(scene: Scene, annotate: Annotate | None) -> str:
     import svgwrite
 
     from diagram.output.webfont import family_list, font_face_css

@@ -23,6 +23,7 @@ from typing import TYPE_CHECKING, Any
 
 from diagram import anatomy
 from diagram.errors import Problem
+from diagram.reading.schemacheck import conforms
 from diagram.reading.study import Patient
 
 if TYPE_CHECKING:
@@ -58,6 +59,12 @@ def study_schema() -> dict[str, Any]:
     """Return the JSON Schema (Draft 2020-12) of the study file, a fresh copy on every call."""
     schema: dict[str, Any] = json.loads(_schema_text())
     return schema
+
+
+@functools.cache
+def _schema_tree() -> dict[str, Any]:
+    """The schema parsed once, read but never changed (study_schema() gives a copy to change)."""
+    return study_schema()
 
 
 @functools.cache
@@ -281,11 +288,12 @@ class Checker:
         self.report((*loc, key), rule, item[key], hint=hint)
 
     def check(self) -> None:
-        import jsonschema
-
         tree = self.parsed.tree
-        for error in jsonschema.Draft202012Validator(study_schema()).iter_errors(tree):
-            self.schema_error(error)
+        if not conforms(tree, _schema_tree()):  # jsonschema (a costly import) words the problems
+            import jsonschema
+
+            for error in jsonschema.Draft202012Validator(study_schema()).iter_errors(tree):
+                self.schema_error(error)
         self.literals(tree, ())
         if not isinstance(tree, dict):
             return

@@ -216,24 +216,27 @@ def case_pages(
     case: TeachCase, *, page: str = "a4", template: str | Path | None = None
 ) -> tuple[str, ...]:
     """Draw the teaching case (header: the case only); return each page's SVG, allow-listed."""
+    return _case_drawing(case, page=page, template=template).pages
+
+
+def _case_drawing(
+    case: TeachCase, *, page: str = "a4", template: str | Path | None = None
+) -> Drawing:
+    """Return the case's sheet for the export writers: its Scene (laid out from the cleaned
+    study with the case header, so nothing identifying is in it) and its allow-listed SVG pages.
+    No study is attached: the DICOM identity comes from the case."""
     from diagram.assess import assess
     from diagram.drawing.layout import layout
     from diagram.drawing.template.mapfile import load_template
+    from diagram.output.export import Drawing
     from diagram.output.svg import render_pages
     from diagram.teaching.clean import clean_svg
 
     assessment = assess(case.study)  # a teaching case names shipped criteria sets only
     tpl = load_template(template)
     scene = layout(assessment, tpl, page=page, version=__version__, case=case.header)
-    svgs = render_pages(scene)
-    return tuple(clean_svg(svg) for svg in svgs)
-
-
-def _drawing(pages: tuple[str, ...]) -> Drawing:
-    """Return the pages as a Drawing for the export writers (no study: nothing to identify)."""
-    from diagram.output.export import Drawing
-
-    return Drawing(results={}, svg_pages=pages)
+    pages = tuple(clean_svg(svg) for svg in render_pages(scene))
+    return Drawing(results={}, scene=scene, svg_pages=pages)
 
 
 def _yaml_text(case: TeachCase) -> str:
@@ -315,13 +318,15 @@ def _encode(
     data: dict[str, bytes] = {}
     pages: tuple[str, ...] = ()
     drawn = [f for f in cfg.formats if f != "yaml"]
+    drawing = None
     if drawn:
-        pages = case_pages(case, page=cfg.page, template=cfg.template)
+        drawing = _case_drawing(case, page=cfg.page, template=cfg.template)
+        pages = drawing.pages
     if same_as is not None and same_as[0] == pages:
         data.update((f, same_as[1][f]) for f in drawn if f != "svg")
     todo = [f for f in drawn if f not in data]
     if todo:
-        drawing = _drawing(pages)
+        assert drawing is not None  # todo lists drawn formats only
         pdf = b""
         if {"pdf", "dcm"} & set(todo):
             pdf = strip_pdf_info(render_bytes(drawing, "pdf"))

@@ -19,7 +19,7 @@ from diagram.drawing.template.pathdata import Affine, transform_path_d
 from diagram.drawing.template.svgread import SVG_NS, Element, SvgReader, clip
 
 if TYPE_CHECKING:
-    from xml.sax.xmlreader import AttributesNSImpl
+    from diagram.drawing.template.svgread import Attributes
 
 INKSCAPE_NS = "http://www.inkscape.org/namespaces/inkscape"
 NameResult = tuple[str | None, str | None, list[tuple[str, str | None, str | None]]]
@@ -81,7 +81,7 @@ class MapReader(SvgReader):
         tag: str,
         where: str,
         plain: dict[str, str],
-        attrs: AttributesNSImpl,
+        attrs: Attributes,
         transform: Affine,
         group: str,
         hidden: bool,
@@ -141,9 +141,7 @@ class MapReader(SvgReader):
         (self.silhouette if group == "silhouette" else self.landmarks).append(absolute)
 
 
-def _name(
-    plain: dict[str, str], attrs: AttributesNSImpl, inherited: str | None
-) -> NameResult | None:
+def _name(plain: dict[str, str], attrs: Attributes, inherited: str | None) -> NameResult | None:
     """Return (segment, side, problems) for a vessel, or None when the element names none."""
     problems: list[tuple[str, str | None, str | None]] = []
     if "data-segment" in plain:

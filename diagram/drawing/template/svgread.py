@@ -1,4 +1,4 @@
-"""Read an SVG file as data, safely: a SAX walk with line numbers that refuses hostile content.
+"""Read an SVG file as data, safely: an expat walk with line numbers that refuses hostile content.
 
 Nothing is rendered, executed or fetched. The reader refuses, each as one problem with its line:
 DTDs and entity declarations (defusedxml), ``href``/``xlink:href`` not starting with ``#``,
@@ -11,22 +11,25 @@ and a ``viewBox`` that is not four sane numbers. Reading stops at ``MAX_ELEMENTS
 
 :class:`SvgReader` applies every ``transform`` attribute down the tree and hands each element to
 :meth:`SvgReader.element`, which a subclass overrides to collect what it needs (``template.py``
-collects vessels and outlines). defusedxml is imported only when a file is read.
+collects vessels and outlines). defusedxml's policy and exceptions apply to expat (see
+:meth:`SvgReader.feed`); both are imported only when a file is read.
 """
 
 from __future__ import annotations
 
 import math
 import re
+from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 from diagram.drawing.template.pathdata import IDENTITY, Affine, parse_transform
 from diagram.errors import Problem
 
 if TYPE_CHECKING:
-    from xml.sax.handler import ContentHandler
-    from xml.sax.xmlreader import AttributesNSImpl, Locator
+    from xml.parsers import expat
+
+Attributes = Mapping[tuple[str | None, str], str]  # every attribute, by (namespace, name)
 
 SVG_NS = "http://www.w3.org/2000/svg"
 MAX_ELEMENTS = 100_000  # far above any hand-drawn map; a file past it is refused unread to its end
@@ -52,7 +55,7 @@ class Element:
     tag: str  # name in lower case
     where: str  # how messages name it: ``path[id=right-CFA]``
     plain: dict[str, str]  # attributes without a namespace
-    attrs: AttributesNSImpl  # every attribute, by (namespace, name)
+    attrs: Attributes  # every attribute, by (namespace, name)
     transform: Affine  # of the element and its ancestors, into the root's user units
     hidden: bool  # inside defs/symbol/clipPath/...: never drawn
 
@@ -84,7 +87,7 @@ class SvgReader:
     title: list[str] = field(default_factory=list)  # text of the root's <title>
     elements: int = 0
     _stack: list[_Frame] = field(default_factory=list)
-    _locator: Locator | None = None
+    _expat: expat.XMLParserType | None = None
     _style_text: list[str] = field(default_factory=list)
 
     def element(self, el: Element) -> None:
@@ -94,23 +97,21 @@ class SvgReader:
         """Close the element last passed to :meth:`element`."""
 
     def feed(self, data: bytes) -> None:
-        """Read the whole document; bad or hostile input becomes problems, never an exception."""
-        from xml.sax import SAXException, SAXParseException
+        """Read the whole document; bad or hostile input becomes problems, never an exception.
 
-        from defusedxml import DefusedXmlException
-        from defusedxml.expatreader import DefusedExpatParser
+        The expat parser is driven directly, with defusedxml's policy and its exceptions: a
+        DTD, an entity declaration or an external entity reference stops the read (as
+        defusedxml's expat reader does with ``forbid_dtd``, ``forbid_entities`` and
+        ``forbid_external``). Going through ``xml.sax`` would import ``urllib.request`` and the
+        e-mail package, a good part of a cold start.
+        """
+        from xml.parsers import expat
 
-        parser = DefusedExpatParser(
-            namespaceHandling=1, forbid_dtd=True, forbid_entities=True, forbid_external=True
-        )
-        parser.setContentHandler(self._handler())
-        from io import BytesIO
-        from xml.sax.xmlreader import InputSource
+        from defusedxml.common import DefusedXmlException
 
-        source = InputSource()
-        source.setByteStream(BytesIO(data))
+        parser = self._parser()
         try:
-            parser.parse(source)
+            parser.Parse(data, True)
         except _TooLarge as exc:
             self.fatal = True
             self.problem(exc.where, exc.value, exc.rule, "simplify the artwork")
@@ -122,56 +123,70 @@ class SvgReader:
                 "DTDs, entity declarations and external entities are refused",
                 "remove the <!DOCTYPE ...> declaration and any entities",
             )
-        except SAXParseException as exc:
+        except expat.ExpatError as exc:
             self.fatal = True
-            rule = f"is not well-formed XML: {exc.getMessage()}"
-            self.problems.append(Problem(self.file, exc.getLineNumber(), "xml", None, rule))
-        except SAXException as exc:
-            self.fatal = True
-            self.problem("xml", None, f"cannot be read as XML: {exc.getMessage()}")
+            rule = f"is not well-formed XML: {expat.ErrorString(exc.code)}"
+            self.problems.append(Problem(self.file, exc.lineno, "xml", None, rule))
 
-    def _handler(self) -> ContentHandler:
-        """Return the SAX handler that passes the parser's events to this reader."""
-        from xml.sax.handler import ContentHandler
+    def _parser(self) -> expat.XMLParserType:
+        """Return an expat parser passing its events to this reader, namespaces resolved."""
+        from xml.parsers import expat
 
-        reader = self
+        from defusedxml.common import DTDForbidden, EntitiesForbidden, ExternalReferenceForbidden
 
-        class Handler(ContentHandler):
-            def setDocumentLocator(self, locator: Locator) -> None:
-                reader._locator = locator
+        parser = expat.ParserCreate(namespace_separator=" ")
+        self._expat = parser
 
-            def startElementNS(
-                self, name: tuple[str | None, str], qname: str | None, attrs: AttributesNSImpl
-            ) -> None:
-                reader.start(name, attrs)
+        def doctype(name: str, sysid: str | None, pubid: str | None, _internal: bool) -> None:
+            raise DTDForbidden(name, sysid, pubid)
 
-            def endElementNS(self, name: tuple[str | None, str], qname: str | None) -> None:
-                if reader._stack.pop().tag == "style":
-                    # Checked whole: the parser may split text anywhere, even inside "url(".
-                    reader.check_css("".join(reader._style_text), "style")
-                    reader._style_text.clear()
-                reader.end_element()
+        def entity(name: str, _param: bool, value: str | None, base: str | None, *ids: Any) -> None:
+            raise EntitiesForbidden(name, value, base, ids[0], ids[1], None)
 
-            def characters(self, content: str) -> None:
-                if reader._stack and reader._stack[-1].tag == "style":
-                    reader._style_text.append(content)
-                elif len(reader._stack) == 2 and reader._stack[-1].tag == "title":
-                    reader.title.append(content)
+        def unparsed(name: str, base: str | None, sysid: str, pubid: str | None, note: str) -> None:
+            raise EntitiesForbidden(name, None, base, sysid, pubid, note)
 
-            def processingInstruction(self, target: str, data: str) -> None:
-                if target.lower() == "xml-stylesheet":
-                    reader.problem(
-                        "<?xml-stylesheet?>",
-                        data,
-                        "external stylesheets are refused",
-                        "remove the processing instruction",
-                    )
+        def external(context: str, base: str | None, sysid: str | None, pubid: str | None) -> int:
+            raise ExternalReferenceForbidden(context, base, sysid, pubid)
 
-        return Handler()
+        def start(name: str, attributes: dict[str, str]) -> None:
+            self.start(_split(name), {_split(k): v for k, v in attributes.items()})
+
+        parser.StartDoctypeDeclHandler = doctype
+        parser.EntityDeclHandler = entity
+        parser.UnparsedEntityDeclHandler = unparsed
+        parser.ExternalEntityRefHandler = external
+        parser.StartElementHandler = start
+        parser.EndElementHandler = lambda _name: self._end()
+        parser.CharacterDataHandler = self._characters
+        parser.ProcessingInstructionHandler = self._instruction
+        return parser
+
+    def _end(self) -> None:
+        if self._stack.pop().tag == "style":
+            # Checked whole: the parser may split text anywhere, even inside "url(".
+            self.check_css("".join(self._style_text), "style")
+            self._style_text.clear()
+        self.end_element()
+
+    def _characters(self, content: str) -> None:
+        if self._stack and self._stack[-1].tag == "style":
+            self._style_text.append(content)
+        elif len(self._stack) == 2 and self._stack[-1].tag == "title":
+            self.title.append(content)
+
+    def _instruction(self, target: str, data: str) -> None:
+        if target.lower() == "xml-stylesheet":
+            self.problem(
+                "<?xml-stylesheet?>",
+                data,
+                "external stylesheets are refused",
+                "remove the processing instruction",
+            )
 
     def line(self) -> int | None:
         """Return the line the parser is on (None before the document starts)."""
-        return self._locator.getLineNumber() if self._locator is not None else None
+        return self._expat.CurrentLineNumber if self._expat is not None else None
 
     def problem(
         self,
@@ -185,7 +200,7 @@ class SvgReader:
         at = line if line is not None else self.line()
         self.problems.append(Problem(self.file, at, where, _quote(value), rule, hint))
 
-    def start(self, name: tuple[str | None, str], attrs: AttributesNSImpl) -> None:
+    def start(self, name: tuple[str | None, str], attrs: Attributes) -> None:
         """Check one opening tag, resolve its transform and pass it to :meth:`element`."""
         uri, local = name
         tag = local.lower()
@@ -266,7 +281,7 @@ class SvgReader:
             return
         self.viewbox = (box[0], box[1], box[2], box[3])
 
-    def check_attributes(self, where: str, attrs: AttributesNSImpl) -> None:
+    def check_attributes(self, where: str, attrs: Attributes) -> None:
         """Refuse event attributes, external references and CSS that moves or fetches."""
         for (_ns, local), value in attrs.items():
             if local.lower().startswith("on"):
@@ -387,3 +402,9 @@ def _shape_to_d(tag: str, a: dict[str, str]) -> str:
         rx, ry = num("rx"), num("ry")
     cx, cy = num("cx", 0), num("cy", 0)
     return f"M {cx - rx} {cy} A {rx} {ry} 0 1 0 {cx + rx} {cy} A {rx} {ry} 0 1 0 {cx - rx} {cy} Z"
+
+
+def _split(name: str) -> tuple[str | None, str]:
+    """Return (namespace, local name) of an expat name written ``"namespace local"``."""
+    uri, _, local = name.rpartition(" ")
+    return (uri or None), local
