@@ -69,7 +69,10 @@ def png_text(path: Path) -> str:
     with Image.open(path) as im:
         assert not getattr(im, "text", {}), "PNG text chunks"
         assert set(im.info) <= {"dpi", "gamma", "srgb", "aspect"}, im.info
-        return json.dumps({k: str(v) for k, v in im.info.items()})
+        # pHYs holds whole pixels per metre; Pillow's dpi float (150.01239999999999) is no number
+        # planted in the study: shown to two decimals
+        info = {k: (tuple(round(x, 2) for x in v) if k == "dpi" else v) for k, v in im.info.items()}
+        return json.dumps({k: str(v) for k, v in info.items()})
 
 
 def output_text(path: Path, tmp: Path) -> tuple[str, str]:

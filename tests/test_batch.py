@@ -464,3 +464,49 @@ def test_dpi_without_a_png_output_is_refused(
         assert os.listdir(tmp_path) == []
     else:
         assert code == 0, err
+
+
+def test_a_folder_takes_structured_reports_and_names_a_dicom_that_is_not_one(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    folder = tmp_path / "in"
+    folder.mkdir()
+    shutil.copy(EXAMPLES / "sr" / "bilateral.dcm", folder / "exam.dcm")
+    shutil.copy(EXAMPLES / "normal.yaml", folder / "normal.yaml")
+    code, _ = run(["draw", str(EXAMPLES / "normal.yaml"), "-o", str(folder / "map.dcm")], capsys)
+    assert code == 0  # the map's own DICOM (an Encapsulated PDF) is no study
+    out = tmp_path / "out"
+    code, err = run(["draw", str(folder), "-o", f"{out}/", "--format", "json"], capsys)
+    assert code == 2 and "Traceback" not in err
+    lines = [line for line in err.splitlines() if "map.dcm" in line]
+    assert lines == [
+        f"{folder / 'map.dcm'}: (file): is a DICOM file but not a structured report (SR); "
+        "give a vascular ultrasound report or a study file."
+    ]
+    assert err.strip().splitlines()[-1] == "2 of 3 studies drawn, 1 failed."
+    drawn = {s["input"]: s["outputs"] for s in read_manifest(out)["studies"] if s["outputs"]}
+    report = json.loads((out / drawn[str(folder / "exam.dcm")][0]).read_text("utf-8"))
+    # the report's values (tests/sr_build.py builds it from the same table as its YAML twin)
+    twin = json.loads(
+        _drawn_json(EXAMPLES / "sr" / "bilateral.yaml", tmp_path / "twin.json", capsys)
+    )
+    assert report["limbs"] == twin["limbs"]
+
+
+def _drawn_json(study: Path, out: Path, capsys: pytest.CaptureFixture[str]) -> str:
+    code, _ = run(["draw", str(study), "-o", str(out)], capsys)
+    assert code == 0
+    return out.read_text("utf-8")
+
+
+def test_check_takes_a_structured_report_in_a_folder(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    folder = tmp_path / "in"
+    folder.mkdir()
+    shutil.copy(EXAMPLES / "sr" / "bilateral.dcm", folder / "exam.dcm")
+    with pytest.raises(SystemExit) as done:
+        main(["check", str(folder)])
+    out = capsys.readouterr().out
+    assert not done.value.code
+    assert f"== {folder / 'exam.dcm'}" in out and "SFA-M" in out

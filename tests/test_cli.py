@@ -175,3 +175,23 @@ def test_the_script_lists_every_command() -> None:
     ).stdout
     block = out.split("Commands:\n")[1].split("\n\n")[0]
     assert [line.split()[0] for line in block.splitlines()] == sorted(cli.commands)
+
+
+@pytest.mark.parametrize(
+    "example",
+    [*EXAMPLES, *sorted((ROOT / "examples" / "sr").glob("*.dcm"))],
+    ids=lambda p: p.name,
+)
+def test_check_json_prints_the_bytes_draw_writes(
+    example: Path, tmp_path: Path, capsysbinary: pytest.CaptureFixture[bytes]
+) -> None:
+    with pytest.raises(SystemExit) as done:
+        main(["check", "--json", str(example)])
+    assert not done.value.code
+    printed = capsysbinary.readouterr().out
+    out = tmp_path / "results.json"
+    with pytest.raises(SystemExit) as done:
+        main(["draw", str(example), "-o", str(out)])
+    assert not done.value.code
+    assert printed == out.read_bytes()
+    assert printed.endswith(b"}\n") and b"\\u2014" not in printed  # UTF-8, not escapes

@@ -53,8 +53,8 @@ def test_the_text_formats_are_chosen_by_suffix(data: bytes, suffix: str, name: s
 
 
 def test_the_registry_gives_the_suffixes_everywhere(with_marked: None) -> None:
-    assert formats.study_suffixes() == (".yaml", ".yml", ".json", ".lcht")
-    assert formats.suffix_list() == ".yaml, .yml, .json or .lcht"
+    assert formats.study_suffixes() == (".yaml", ".yml", ".json", ".dcm", ".lcht")
+    assert formats.suffix_list() == ".yaml, .yml, .json, .dcm or .lcht"
     assert formats.is_study_name("A.LCHT") and not formats.is_study_name("a.txt")
 
 
@@ -86,7 +86,7 @@ def test_an_unknown_suffix_names_every_registered_one(with_marked: None, tmp_pat
         load_study(path)
     assert err.value.lines() == [
         f"{path}: (file): has an unknown suffix '.txt': a study file ends in "
-        ".yaml, .yml, .json or .lcht."
+        ".yaml, .yml, .json, .dcm or .lcht."
     ]
 
 

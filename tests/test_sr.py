@@ -226,7 +226,7 @@ def test_a_two_gigabyte_file_is_refused_by_its_size(tmp_path: Path) -> None:
     with open(path, "wb") as handle:
         handle.write(b"\0" * 128 + b"DICM")
         handle.truncate(2 * 1024**3)  # sparse: no disk used, and never read
-    assert "is over the 16 MB size limit for a report." in _refusal(path)
+    assert "is over the 16 MB size limit for a study file" in _refusal(path)
     os.unlink(path)
 
 

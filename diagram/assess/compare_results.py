@@ -36,8 +36,8 @@ class SegmentChange:
 
     side: Side
     segment: str
-    before_band: str
-    after_band: str
+    band_before: str
+    band_after: str
     change: Change
     psv_before: float | None
     psv_after: float | None

@@ -319,15 +319,16 @@ def check(
 
     from diagram.batch.run import expand_inputs
     from diagram.errors import DiagramError
-    from diagram.output.results import results_document, results_table
+    from diagram.output.results import results_document, results_json, results_table
 
     single = len(studies) == 1 and _is_study_file(studies[0])
     if prior is not None and not single:
         raise click.UsageError("--prior goes with one study; in a list each study names its own.")
     if single:
         assessment = _assess_path(studies[0], criteria, target, prior)
-        if as_json:
-            click.echo(json.dumps(results_document(assessment, version=__version__), indent=2))
+        if as_json:  # the bytes draw -o x.json writes
+            doc = results_document(assessment, version=__version__)
+            click.get_binary_stream("stdout").write(results_json(doc))
         else:
             click.echo(results_table(assessment))
             click.echo(f"\n{CAUTION}")

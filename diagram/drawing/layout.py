@@ -22,7 +22,7 @@ from diagram.drawing.paper import MARGIN_PT, PAGES, PageSpec
 from diagram.drawing.scene import Block, Box, CaseHeader, Group, Item, Rect, Region, Scene
 from diagram.drawing.sheet.blocks import BLOCK_GAP_PT, placed
 from diagram.drawing.sheet.cells import Table
-from diagram.drawing.sheet.header import Header
+from diagram.drawing.sheet.header import Header, sheet_title
 from diagram.drawing.sheet.legend import VELOCITY_NOTE, Legend, symbols_used
 from diagram.drawing.sheet.notes import Caution, Footer, NextPage, Notes
 from diagram.drawing.sheet.pressure import PressureStrip
@@ -321,6 +321,7 @@ def _scene(
         page_number=page[0],
         page_count=page[1],
         more=more,
+        title=sheet_title(sheet.assessment, sheet.style, sheet.case),
     )
 
 

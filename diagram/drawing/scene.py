@@ -250,6 +250,7 @@ class Scene:
     page_number: int = 1
     page_count: int = 1
     more: tuple[Scene, ...] = ()  # pages 2 .. page_count (on page 1 only)
+    title: str = ""  # the document title (PDF metadata): kind of sheet and lab, no identifier
     insets: tuple[Inset, ...] = ()  # other pages drawn scaled over the items, in order
 
     def pages(self) -> tuple[Scene, ...]:

@@ -238,18 +238,31 @@ class CairoRenderer:
         ctx.new_path()
 
 
-def pdf_bytes(scene: Scene) -> bytes:
-    """Return a PDF of every page of the sheet, each page sized from its Scene."""
+def pdf_bytes(scene: Scene, *, title: str = "", date: str | None = None) -> bytes:
+    """Return a PDF of every page of the sheet, each page sized from its Scene.
+
+    ``title`` (the scene's own when empty) goes into the document's Title; ``date`` (ISO 8601)
+    replaces the clock in its creation and modification dates, for byte-identical output.
+    """
     out = io.BytesIO()
     first = scene.pages()[0]
     surface = cairo.PDFSurface(out, first.width_pt, first.height_pt)
+    if title or scene.title:
+        surface.set_metadata(cairo.PDFMetadata.TITLE, title or scene.title)
+    if date is not None:
+        surface.set_metadata(cairo.PDFMetadata.CREATE_DATE, date)
+        surface.set_metadata(cairo.PDFMetadata.MOD_DATE, date)
     for page in scene.pages():
         surface.set_size(page.width_pt, page.height_pt)
         ctx = cairo.Context(surface)
         CairoRenderer(ctx, page.bands).draw_page(page)
         ctx.show_page()
     surface.finish()
-    return out.getvalue()
+    if date is None:
+        return out.getvalue()
+    from diagram.output.docmeta import pdf_dates_prefixed
+
+    return pdf_dates_prefixed(out.getvalue(), date)
 
 
 def png_page(scene: Scene, dpi: float) -> bytes:

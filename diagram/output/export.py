@@ -15,7 +15,6 @@ from __future__ import annotations
 
 import contextlib
 import errno
-import json
 import os
 import secrets
 import signal
@@ -125,23 +124,32 @@ def _scene(drawing: Drawing, options: ExportOptions) -> Scene | None:
     return drawing.scene if options.renderer == "cairo" else None
 
 
+def _title(drawing: Drawing) -> str:
+    """Return the document title: the Scene's, or the kind of sheet for SVG text alone."""
+    if drawing.scene is not None and drawing.scene.title:
+        return drawing.scene.title
+    from diagram.drawing.sheet.header import KIND
+
+    return KIND
+
+
 def _pdf(drawing: Drawing, options: ExportOptions) -> bytes:
+    from diagram.output.docmeta import fixed_date
+
+    date, title = fixed_date(), _title(drawing)
     scene = _scene(drawing, options)
     if scene is not None:
         from diagram.output.cairo_backend import pdf_bytes
 
-        return pdf_bytes(scene)
-    cairosvg = _cairosvg()
-    pages = drawing.pages
-    if len(pages) == 1:
-        data: bytes = cairosvg.svg2pdf(bytestring=pages[0].encode("utf-8"), unsafe=False)
-        return data
+        return pdf_bytes(scene, title=title, date=date)
+    _cairosvg()  # fontconfig pointed at the shipped fonts; a missing cairo said in one line
     from diagram.output.svg import pdf_from_svgs
 
-    return pdf_from_svgs(pages)
+    return pdf_from_svgs(drawing.pages, title=title, date=date)
 
 
 def _png(drawing: Drawing, options: ExportOptions) -> bytes:
+    from diagram.output.docmeta import png_with_dpi
     from diagram.output.pages import GAP_PT, stack_pngs
 
     gap = round(GAP_PT * options.png_dpi / 72)
@@ -149,7 +157,7 @@ def _png(drawing: Drawing, options: ExportOptions) -> bytes:
     if scene is not None:
         from diagram.output.cairo_backend import png_pages
 
-        return stack_pngs(png_pages(scene, options.png_dpi), gap)
+        return png_with_dpi(stack_pngs(png_pages(scene, options.png_dpi), gap), options.png_dpi)
     cairosvg = _cairosvg()
     images = [
         cairosvg.svg2png(
@@ -160,7 +168,7 @@ def _png(drawing: Drawing, options: ExportOptions) -> bytes:
         )
         for page in drawing.pages
     ]
-    return stack_pngs(images, gap)
+    return png_with_dpi(stack_pngs(images, gap), options.png_dpi)
 
 
 def _dcm(drawing: Drawing, options: ExportOptions) -> bytes:
@@ -177,13 +185,9 @@ def _dcm(drawing: Drawing, options: ExportOptions) -> bytes:
 
 
 def _json(drawing: Drawing, options: ExportOptions) -> bytes:
-    try:
-        text = json.dumps(drawing.results, indent=2, sort_keys=False, ensure_ascii=False)
-        return (text + "\n").encode("utf-8")
-    except UnicodeEncodeError:
-        # A lone surrogate (from a JSON study's "\ud800" escape) is no UTF-8 character: write
-        # every non-ASCII character as a JSON escape instead, the value exactly as it came in.
-        return (json.dumps(drawing.results, indent=2, sort_keys=False) + "\n").encode("ascii")
+    from diagram.output.results import results_json
+
+    return results_json(drawing.results)
 
 
 def _fhir(drawing: Drawing, options: ExportOptions) -> bytes:

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import dataclasses
+import json
 from enum import Enum
 from typing import TYPE_CHECKING, Any
 
@@ -201,14 +202,24 @@ def results_document(
     return doc
 
 
-def results_schema() -> dict[str, Any]:
-    """Return the JSON Schema of the results document (shipped in the package)."""
-    import json
-    from importlib import resources
+def results_json(doc: dict[str, Any]) -> bytes:
+    """Return the bytes of a results file: ``check --json`` prints what ``-o x.json`` writes.
 
-    text = (resources.files("diagram") / "schema" / "results.schema.json").read_text("utf-8")
-    schema: dict[str, Any] = json.loads(text)
-    return schema
+    UTF-8, two-space indent, one final newline. A lone surrogate (from a JSON study's
+    ``"\\ud800"`` escape) is no UTF-8 character: then every non-ASCII character is written as a
+    JSON escape instead, the value exactly as it came in.
+    """
+    try:
+        return (json.dumps(doc, indent=2, ensure_ascii=False) + "\n").encode("utf-8")
+    except UnicodeEncodeError:
+        return (json.dumps(doc, indent=2) + "\n").encode("ascii")
+
+
+def results_schema() -> dict[str, Any]:
+    """Return the JSON Schema of the results document (closed objects, every field described)."""
+    from diagram.output.results_schema import build_results_schema
+
+    return build_results_schema(RESULTS_FORMAT)
 
 
 def _fmt(value: float | None) -> str:
@@ -328,7 +339,7 @@ def comparison_lines(comparison: Comparison) -> list[str]:
         if c.change in BAND_CHANGES:
             psv = _psv_moved(c.psv_before, c.psv_after, c.psv_change_pct)
             out.append(
-                f"  {c.side.value} {c.segment}: {c.before_band} -> {c.after_band} "
+                f"  {c.side.value} {c.segment}: {c.band_before} -> {c.band_after} "
                 f"({c.change.value}){'; ' + psv if psv else ''}"
             )
     for side in Side:

@@ -256,14 +256,15 @@ def render_pages(scene: Scene) -> tuple[str, ...]:
     return tuple(render_svg(page) for page in scene.pages())
 
 
-def pdf_from_svgs(svgs: Sequence[str]) -> bytes:
+def pdf_from_svgs(svgs: Sequence[str], *, title: str = "", date: str | None = None) -> bytes:
     """Return one PDF with a page per SVG text, each page sized from its SVG.
 
     CairoSVG converts one SVG to one PDF; here every page is drawn by CairoSVG's own surface
     code onto one shared cairo PDF surface (resized per page), so a sheet of several pages
     becomes a single document. CairoSVG runs in its safe mode: entities and every resource
     that is not a ``data:`` URL are refused. The caller points fontconfig at the shipped
-    fonts first (``diagram.output.export`` does), as for a one-page PDF.
+    fonts first (``diagram.output.export`` does). ``title`` goes into the document's Title;
+    ``date`` (ISO 8601) replaces the clock in its creation and modification dates.
     """
     import io
 
@@ -275,6 +276,11 @@ def pdf_from_svgs(svgs: Sequence[str]) -> bytes:
         raise ValueError("a PDF needs at least one page")
     out = io.BytesIO()
     shared = cairocffi.PDFSurface(out, 1, 1)
+    if title:
+        shared.set_metadata(cairocffi.PDF_METADATA_TITLE, title)
+    if date is not None:
+        shared.set_metadata(cairocffi.PDF_METADATA_CREATE_DATE, date)
+        shared.set_metadata(cairocffi.PDF_METADATA_MOD_DATE, date)
 
     class _Page(PDFSurface):  # type: ignore[misc]
         def _create_surface(self, width: float, height: float) -> tuple[Any, float, float]:
@@ -285,4 +291,8 @@ def pdf_from_svgs(svgs: Sequence[str]) -> bytes:
         page = _Page(Tree(bytestring=svg.encode("utf-8"), unsafe=False), None, 96)
         page.context.show_page()
     shared.finish()
-    return out.getvalue()
+    if date is None:
+        return out.getvalue()
+    from diagram.output.docmeta import pdf_dates_prefixed
+
+    return pdf_dates_prefixed(out.getvalue(), date)

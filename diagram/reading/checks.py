@@ -44,6 +44,7 @@ class Parsed:
     raw: dict[Loc, str] = field(default_factory=dict)  # source text of non-string scalars
     problems: list[Problem] = field(default_factory=list)
     unreadable: set[Loc] = field(default_factory=set)  # values already refused
+    notes: list[str] = field(default_factory=list)  # what an imported report could not place
 
     def note(
         self, loc: Loc, line: int | None, rule: str, value: str | None = None, at: str | None = None

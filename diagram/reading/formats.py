@@ -54,9 +54,29 @@ def _json(data: bytes) -> Parsed:
     return parse_json_bytes(data)
 
 
+def _dicom_sr(data: bytes) -> Parsed:
+    from diagram.reading.checks import Parsed
+    from diagram.reading.sr import report_from_bytes
+
+    def refuse(rule: str) -> Refused:
+        return Refused(None, rule)
+
+    report = report_from_bytes(data, refuse)
+    return Parsed(kind="dicom", tree=report.tree, problems=report.problems, notes=report.notes)
+
+
+def _dicom_preamble(data: bytes) -> bool:
+    """Return True for the DICOM file preamble: 128 bytes, then ``DICM`` (PS3.10 7.1)."""
+    return data[128:132] == b"DICM"
+
+
+DICOM_MAX_BYTES = 16 * 1024 * 1024  # an SR of a whole exam is tens of kilobytes
+
 READERS: tuple[StudyReader, ...] = (
     StudyReader("YAML", (".yaml", ".yml"), _yaml),
     StudyReader("JSON", (".json",), _json),
+    # a vascular ultrasound structured report (DICOM SR, PS3.16 TID 5100); see reading/sr.py
+    StudyReader("DICOM SR", (".dcm",), _dicom_sr, DICOM_MAX_BYTES, _dicom_preamble),
 )
 
 

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import dataclasses
 import datetime as dt
+import os
 from pathlib import Path
 from typing import Any
 
@@ -48,10 +49,13 @@ def load_study(path: str | Path) -> Study:
     name = str(path)
     try:
         with open(path, "rb") as handle:
-            head = handle.read(132)
-            if sr.looks_like_dicom(head) or Path(path).suffix.lower() == ".dcm":
-                return load_report(path)[0]
-            data = head + handle.read(read_limit() + 1 - len(head))
+            size = os.fstat(handle.fileno()).st_size
+            limit = read_limit()
+            if size > limit:  # refused unread, whatever the format
+                mb = f"{limit / (1024 * 1024):g} MB"
+                rule = f"is over the {mb} size limit for a study file ({limit} bytes)."
+                raise StudyError([Problem(name, None, "", None, rule)])
+            data = handle.read(limit + 1)
     except OSError as err:
         problem = Problem(name, None, "", None, f"cannot be read: {err.strerror}.")
         raise StudyError([problem]) from None
@@ -126,7 +130,11 @@ def _checked(parsed: Parsed, name: str, found: list[Problem] | None = None) -> S
     problems = [*(found or ()), *checker.problems]
     if problems:
         raise StudyError(sorted(problems, key=lambda p: p.line or 0))
-    return _build(parsed, name)
+    study = _build(parsed, name)
+    if parsed.notes:
+        notes = tuple(f"{name}: {note}" for note in parsed.notes)
+        return dataclasses.replace(study, import_notes=notes)
+    return study
 
 
 # --- building the study -----------------------------------------------------------------------

@@ -46,8 +46,10 @@ Hostile files are refused before they are parsed in full: a size limit checked o
 
 from __future__ import annotations
 
+import dataclasses
 import os
 import warnings
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from decimal import Decimal, InvalidOperation
 from io import BytesIO
@@ -55,11 +57,12 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from diagram.errors import Problem, StudyError
+from diagram.reading.formats import DICOM_MAX_BYTES
 
 if TYPE_CHECKING:
     from pydicom.dataset import Dataset
 
-MAX_BYTES = 16 * 1024 * 1024  # an SR of a whole exam is tens of kilobytes
+MAX_BYTES = DICOM_MAX_BYTES  # the registry's limit for a report
 MAX_DEPTH = 12  # TID 5100 nests four levels; a modifier under a finding site one more
 MAX_ITEMS = 20_000
 
@@ -155,6 +158,17 @@ def read_report(path: str | Path) -> Report:
         raise refuse(f"cannot be read: {err.strerror}.") from None
     if len(data) > MAX_BYTES:  # grew while being read
         raise refuse(f"is over the {MAX_BYTES // (1024 * 1024)} MB size limit for a report.")
+    report = report_from_bytes(data, refuse)
+    report.notes[:] = [f"{name}: {note}" for note in report.notes]
+    report.problems[:] = [dataclasses.replace(p, file=name) for p in report.problems]
+    return report
+
+
+def report_from_bytes(data: bytes, refuse: Callable[[str], Exception]) -> Report:
+    """Read a vascular ultrasound SR held in memory; ``refuse(rule)`` makes the one-line error.
+
+    The notes and problems name no file (the caller knows it).
+    """
     if not looks_like_dicom(data[:132]):
         raise refuse("is not a DICOM file (no DICM marker after the 128-byte preamble).")
     ds = _parse(data, refuse)
@@ -172,11 +186,9 @@ def read_report(path: str | Path) -> Report:
             "its title must be DCM 125100 or one of CID 12100."
         )
     try:
-        reader = _Reader(name)
-        report = reader.read(ds)
+        return _Reader("").read(ds)
     except (ValueError, TypeError, AttributeError, RecursionError) as err:
         raise refuse(f"is a broken DICOM file ({type(err).__name__}).") from None
-    return report
 
 
 def _parse(data: bytes, refuse: Any) -> Dataset:
@@ -304,7 +316,7 @@ class _Reader:
         self.summary: list[str] = []
 
     def note(self, where: str, what: str) -> None:
-        self.notes.append(f"{self.name}: warning: {where}: {what}")
+        self.notes.append(f"warning: {where}: {what}")
 
     def read(self, ds: Dataset) -> Report:
         for item in ds.get("ContentSequence") or ():

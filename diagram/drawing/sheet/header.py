@@ -18,6 +18,18 @@ from diagram.drawing.textmetrics import ellipsize, line_extents, text_width
 KIND = "Lower-limb arterial duplex"
 
 
+def sheet_title(assessment: Assessment, style: Style, case: CaseHeader | None) -> str:
+    """Return the sheet's title for a document's metadata: the kind of sheet and the lab.
+
+    Never an identifier: no patient, no accession, no case id (a teaching sheet says only
+    that it is one).
+    """
+    if case is not None:
+        return f"{KIND} · teaching case"
+    lab = style.lab_name or assessment.study.exam.site
+    return f"{KIND} · {lab}" if lab else KIND
+
+
 def _title_line(
     title: str | None, right: str, style: Style, x0: float, x1: float, y: float
 ) -> tuple[list[Item], float]:

@@ -320,7 +320,7 @@ def _segment_changes(comparison: Comparison, bands: Mapping[str, BandStyle], sid
         out.append(
             _entry(
                 _strong(c.segment),
-                f" {_band_label(bands, c.before_band)} → {_band_label(bands, c.after_band)}",
+                f" {_band_label(bands, c.band_before)} → {_band_label(bands, c.band_after)}",
                 _basis(f" · {psv}" if psv else ""),
                 mark=c.change.value,
             )
