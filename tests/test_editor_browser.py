@@ -206,6 +206,15 @@ def test_type_a_velocity_see_the_map_change_add_a_lesion_and_save(
     )
     assert prevented is True
 
+    # the map shows the lesion's PSV once the last keystroke's preview is back
+    wait(
+        browser,
+        lambda d: (
+            "PSV 320"
+            in d.execute_script("return arguments[0].textContent", d.find_element(By.ID, "map"))
+        ),
+    )
+
     browser.find_element(By.CSS_SELECTOR, '[data-action="save"]').click()
     wait(browser, lambda d: d.find_element(By.ID, "status").text == "saved claudicant.yaml")
     shot = tmp_path / "editor.png"

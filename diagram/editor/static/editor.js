@@ -415,7 +415,8 @@
 
   function setStatus(text) {
     const problems = state.problems && state.problems.length;
-    $("#status").textContent = text || (problems ? "" : state.dirty ? "unsaved changes" : "saved");
+    const clean = state.savedName ? `saved ${state.savedName}` : "saved";
+    $("#status").textContent = text || (problems ? "" : state.dirty ? "unsaved changes" : clean);
   }
 
   async function save(name, confirmed) {
@@ -430,6 +431,7 @@
     }
     if (!response.ok) { showProblems(data.problems || []); return; }
     state.name = data.saved;
+    state.savedName = data.saved; // a preview answered after the save keeps saying which file
     state.isNew = false;
     $("#file-name").textContent = state.name;
     setDirty(false);
