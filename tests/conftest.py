@@ -12,9 +12,11 @@ from __future__ import annotations
 
 import contextlib
 import os
+import shutil
 import warnings
 from collections.abc import Iterator
 from datetime import timedelta
+from pathlib import Path
 
 import pytest
 from hypothesis import HealthCheck, settings
@@ -47,3 +49,17 @@ def pytest_runtest_makereport(item: pytest.Item, call: pytest.CallInfo[None]) ->
             warnings.simplefilter("ignore", DeprecationWarning)
             import hypothesis.extra._patching  # noqa: F401
     yield
+
+
+@pytest.fixture()
+def inputs(tmp_path: Path) -> Path:
+    """A batch folder: three examples that draw and one study that fails (an unknown segment)."""
+    folder = tmp_path / "in"
+    folder.mkdir()
+    examples = Path(__file__).resolve().parents[1] / "examples"
+    for name in ("claudicant-sfa.yaml", "multilevel-occlusion.yaml", "normal.yaml"):
+        shutil.copy(examples / name, folder / name)
+    (folder / "zz-broken.yaml").write_text(
+        "format: 1\nlimbs: {left: {segments: {SFA-X: {psv: 9}}}}\n"
+    )
+    return folder

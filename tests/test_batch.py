@@ -26,18 +26,6 @@ def run(args: list[str], capsys: pytest.CaptureFixture[str]) -> tuple[int, str]:
     return int(done.value.code or 0), capsys.readouterr().err
 
 
-@pytest.fixture()
-def inputs(tmp_path: Path) -> Path:
-    folder = tmp_path / "in"
-    folder.mkdir()
-    for name in ("claudicant-sfa.yaml", "multilevel-occlusion.yaml", "normal.yaml"):
-        shutil.copy(EXAMPLES / name, folder / name)
-    (folder / "zz-broken.yaml").write_text(
-        "format: 1\nlimbs: {left: {segments: {SFA-X: {psv: 9}}}}\n"
-    )
-    return folder
-
-
 @pytest.mark.parametrize("jobs", ["1", "2"])
 def test_bad_study_is_reported_and_the_rest_are_drawn(
     inputs: Path, tmp_path: Path, jobs: str, capsys: pytest.CaptureFixture[str]

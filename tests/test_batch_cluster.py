@@ -53,18 +53,6 @@ def scheduler() -> Iterator[str]:
         yield cluster.scheduler_address
 
 
-@pytest.fixture()
-def inputs(tmp_path: Path) -> Path:
-    folder = tmp_path / "in"
-    folder.mkdir()
-    for name in ("claudicant-sfa.yaml", "multilevel-occlusion.yaml", "normal.yaml"):
-        shutil.copy(EXAMPLES / name, folder / name)
-    (folder / "zz-broken.yaml").write_text(
-        "format: 1\nlimbs: {left: {segments: {SFA-X: {psv: 9}}}}\n"
-    )
-    return folder
-
-
 def manifest(out: Path) -> dict[str, Any]:
     doc = json.loads((out / "manifest.json").read_text("utf-8"))
     assert isinstance(doc, dict)
