@@ -607,8 +607,9 @@ def test_a_study_with_problems_is_reported_as_check_does(tmp_path: Path) -> None
     assert "SFA-Q" in done.stderr and "Traceback" not in done.stderr
 
 
+@pytest.mark.parametrize("module", ["uvicorn", "ruamel.yaml"])
 def test_the_command_says_how_to_install_what_it_misses(
-    monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]
+    monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str], module: str
 ) -> None:
     import importlib.util
 
@@ -616,12 +617,12 @@ def test_the_command_says_how_to_install_what_it_misses(
 
     real = importlib.util.find_spec
     monkeypatch.setattr(
-        importlib.util, "find_spec", lambda name, *a: None if name == "uvicorn" else real(name, *a)
+        importlib.util, "find_spec", lambda name, *a: None if name == module else real(name, *a)
     )
     with pytest.raises(SystemExit) as stop:
         main(["edit", "--no-browser"])
     assert stop.value.code == 1
-    assert "pip install 'limbchart[edit]' (uvicorn missing)" in capsys.readouterr().err
+    assert f"pip install 'limbchart[edit]' ({module} missing)" in capsys.readouterr().err
 
 
 def test_a_structured_report_opens_and_is_saved_as_a_new_study_file(tmp_path: Path) -> None:
