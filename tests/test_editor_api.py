@@ -21,6 +21,7 @@ import pytest
 
 pytest.importorskip("starlette")
 pytest.importorskip("uvicorn")
+pytest.importorskip("ruamel.yaml")  # the edit extra: Save keeps the file's own text
 
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -323,6 +324,14 @@ def test_the_opened_study_and_the_scan_order(client: TestClient, study_file: Pat
     assert right == [s for s in anatomy.SEGMENT_IDS if s != "AO"]
     assert order.index(("right", "PLA")) < order.index(("left", "CIA"))
     assert len(order) == len(load_template(None).vessels)
+    # the page's graft site fields are the loader's sites, inflow to outflow
+    assert data["graft_sites"] == [
+        "proximal_anastomosis",
+        "proximal",
+        "mid",
+        "distal",
+        "distal_anastomosis",
+    ]
 
 
 def test_preview_marks_every_drawn_segment(client: TestClient) -> None:

@@ -22,6 +22,7 @@ from typing import Any
 import pytest
 
 pytest.importorskip("starlette")
+pytest.importorskip("ruamel.yaml")  # the edit extra: Save keeps the file's own text
 webdriver = pytest.importorskip("selenium.webdriver")
 
 from selenium.webdriver.chrome.service import Service  # noqa: E402
