@@ -158,6 +158,8 @@ def test_type_a_velocity_see_the_map_change_add_a_lesion_and_save(
     wait(browser, lambda d: d.find_element(By.ID, "segment-title").text == "Right SFA-M")
     psv = browser.find_element(By.CSS_SELECTOR, 'input[name="psv"]')
     assert psv.get_attribute("value") == "90"
+    devices = browser.find_element(By.ID, "device-list").text
+    assert devices == "No stent or graft recorded in the right leg."
 
     # 200 cm/s over SFA-P's 96: Vr 2.08, in 50-74% (Vr 2.0 to < 4; Jager 1985, Polak 2004, the
     # native criteria set)

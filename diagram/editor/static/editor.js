@@ -283,6 +283,12 @@
     const limb = limbOf(side, false) || {};
     (limb.stents || []).forEach((stent, i) => box.append(deviceNode("stents", side, i)));
     (limb.grafts || []).forEach((graft, i) => box.append(deviceNode("grafts", side, i)));
+    if (!box.children.length) {
+      const none = document.createElement("p");
+      none.className = "hint";
+      none.textContent = `No stent or graft recorded in the ${side} leg.`;
+      box.append(none);
+    }
     showDeviceResults();
   }
 
