@@ -370,6 +370,10 @@ def test_edit_a_graft_and_a_stent_the_map_redraws_and_save_keeps_the_comments(
         assert heading == "Stents and grafts, left leg"
         graft = browser.find_element(By.CSS_SELECTOR, '#device-list [data-device="grafts"]')
         assert graft.find_element(By.TAG_NAME, "legend").text == "Graft 1 (left leg)"
+        # keyboard: Alt+D from the sample's PSV goes to the first field of the leg's devices
+        browser.find_element(By.CSS_SELECTOR, 'input[name="psv"]').send_keys(Keys.ALT, "d")
+        focused = browser.switch_to.active_element
+        assert focused.get_attribute("data-path") == "limbs.left.grafts.0.conduit"
         psv = browser.find_element(
             By.CSS_SELECTOR, GRAFT_SITE.format(site="distal_anastomosis", field="psv")
         )

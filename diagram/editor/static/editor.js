@@ -609,6 +609,12 @@
       if (state.isNew) saveAs(); else save();
       return;
     }
+    if (event.altKey && event.key.toLowerCase() === "d") {
+      event.preventDefault();  // to the stents and grafts of this leg: their first field
+      const first = $("#device-list select, #device-list input") || $('[data-action="add-stent"]');
+      first.focus();
+      return;
+    }
     if (event.altKey && event.key.toLowerCase() === "l") {
       event.preventDefault();
       const { side, segment } = current();
