@@ -191,7 +191,7 @@ def _profile(image: Image.Image, run: Text, k: int) -> list[int]:
         count = 0
         for py in range(y0, y1):
             r, g, b = pixels[px, py][:3]
-            near = min(PALETTE, key=lambda c: sum((a - q) ** 2 for a, q in zip(c, (r, g, b))))
+            near = min(PALETTE, key=lambda c: (c[0] - r) ** 2 + (c[1] - g) ** 2 + (c[2] - b) ** 2)
             count += near == target and max(r, g, b) - min(r, g, b) > 90
         counts.append(count)
     return counts

@@ -176,7 +176,7 @@ def _item_elements(
         _paint(el, item.fill, item.stroke, item.stroke_width, ())
         return [el]
     if isinstance(item, Text):
-        return [_text_line(dwg, (item,), annotate)]
+        return [_text_line(dwg, (item,), (), annotate)]
     raise TypeError(f"not a scene item: {item!r}")  # a bug in layout, not a user error
 
 
@@ -199,19 +199,21 @@ def _children(
     """Return the elements of ``items`` in order, runs of one line joined into one ``<text>``."""
     out: list[Any] = []
     line: list[Text] = []
+    spaces: list[tuple[int, int]] = []  # (trailing, leading) between each run and the next
     for item in items:
-        if isinstance(item, Text) and line and _join(line[-1], item) is not None:
+        if isinstance(item, Text) and line and (joined := _join(line[-1], item)) is not None:
             line.append(item)
+            spaces.append(joined)
             continue
         if line:
-            out.append(_text_line(dwg, tuple(line), annotate))
-            line = []
+            out.append(_text_line(dwg, line, spaces, annotate))
+            line, spaces = [], []
         if isinstance(item, Text) and item.anchor.value == "start":
             line = [item]
         else:
             out += _elements(dwg, item, bands, annotate)
     if line:
-        out.append(_text_line(dwg, tuple(line), annotate))
+        out.append(_text_line(dwg, line, spaces, annotate))
     return out
 
 
@@ -238,8 +240,14 @@ def _join(before: Text, after: Text) -> tuple[int, int] | None:
     return None
 
 
-def _text_line(dwg: svgwrite.Drawing, runs: tuple[Text, ...], annotate: Annotate | None) -> Any:
-    """Return one ``<text>`` for a line: a lone run carries its own font, several are tspans."""
+def _text_line(
+    dwg: svgwrite.Drawing,
+    runs: Sequence[Text],
+    spaces: Sequence[tuple[int, int]],
+    annotate: Annotate | None,
+) -> Any:
+    """Return one ``<text>`` for a line: a lone run carries its own font, several are tspans
+    (``spaces`` says how many spaces end each run and begin the next)."""
     first = runs[0]
     if len(runs) == 1:
         el = dwg.text(clean_text(first.text), id=first.id)
@@ -251,14 +259,13 @@ def _text_line(dwg: svgwrite.Drawing, runs: tuple[Text, ...], annotate: Annotate
         return el
     el = dwg.text("", id=make_id(first.id, "line"))
     el.update({"x": fmt(first.x), "y": fmt(first.y), "xml:space": "preserve"})
-    lead = 0
     for i, run in enumerate(runs):
-        trailing, following = _join(run, runs[i + 1]) if i + 1 < len(runs) else (0, 0)
+        lead = spaces[i - 1][1] if i else 0
+        trailing = spaces[i][0] if i < len(spaces) else 0
         span = dwg.tspan(" " * lead + clean_text(run.text) + " " * trailing, id=run.id)
         _font_attrs(span, run)
         _annotate(span, run, annotate)
         el.add(span)
-        lead = following
     return el
 
 
