@@ -115,8 +115,16 @@ def test_a_lab_criteria_file_is_read_at_the_edge_not_by_the_assessment(tmp_path:
 
 
 LIGHT = ("cairo", "cairosvg", "cairocffi", "svgwrite", "fontTools", "jsonschema", "pydicom", "yaml")
+EDITOR = ("starlette", "uvicorn", "ruamel.yaml")  # the optional edit extra, imported by edit alone
 CLUSTER = ("dask", "distributed")  # the optional dask extra, imported by --scheduler alone
-NEVER_ON_HELP = (*LIGHT, *CLUSTER, "diagram.assess", "diagram.criteria", "diagram.reading.checks")
+NEVER_ON_HELP = (
+    *LIGHT,
+    *CLUSTER,
+    *EDITOR,
+    "diagram.assess",
+    "diagram.criteria",
+    "diagram.reading.checks",
+)
 
 
 def _imported_by(args: list[str]) -> list[str]:

@@ -21,6 +21,7 @@ import pytest
 
 pytest.importorskip("starlette")
 pytest.importorskip("uvicorn")
+pytest.importorskip("ruamel.yaml")  # the edit extra: Save keeps the file's own text
 
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -323,6 +324,14 @@ def test_the_opened_study_and_the_scan_order(client: TestClient, study_file: Pat
     assert right == [s for s in anatomy.SEGMENT_IDS if s != "AO"]
     assert order.index(("right", "PLA")) < order.index(("left", "CIA"))
     assert len(order) == len(load_template(None).vessels)
+    # the page's graft site fields are the loader's sites, inflow to outflow
+    assert data["graft_sites"] == [
+        "proximal_anastomosis",
+        "proximal",
+        "mid",
+        "distal",
+        "distal_anastomosis",
+    ]
 
 
 def test_preview_marks_every_drawn_segment(client: TestClient) -> None:
@@ -607,8 +616,9 @@ def test_a_study_with_problems_is_reported_as_check_does(tmp_path: Path) -> None
     assert "SFA-Q" in done.stderr and "Traceback" not in done.stderr
 
 
+@pytest.mark.parametrize("module", ["uvicorn", "ruamel.yaml"])
 def test_the_command_says_how_to_install_what_it_misses(
-    monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]
+    monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str], module: str
 ) -> None:
     import importlib.util
 
@@ -616,12 +626,12 @@ def test_the_command_says_how_to_install_what_it_misses(
 
     real = importlib.util.find_spec
     monkeypatch.setattr(
-        importlib.util, "find_spec", lambda name, *a: None if name == "uvicorn" else real(name, *a)
+        importlib.util, "find_spec", lambda name, *a: None if name == module else real(name, *a)
     )
     with pytest.raises(SystemExit) as stop:
         main(["edit", "--no-browser"])
     assert stop.value.code == 1
-    assert "pip install 'limbchart[edit]' (uvicorn missing)" in capsys.readouterr().err
+    assert f"pip install 'limbchart[edit]' ({module} missing)" in capsys.readouterr().err
 
 
 def test_a_structured_report_opens_and_is_saved_as_a_new_study_file(tmp_path: Path) -> None:

@@ -22,6 +22,7 @@ from typing import Any
 import pytest
 
 pytest.importorskip("starlette")
+pytest.importorskip("ruamel.yaml")  # the edit extra: Save keeps the file's own text
 webdriver = pytest.importorskip("selenium.webdriver")
 
 from selenium.webdriver.chrome.service import Service  # noqa: E402
@@ -319,3 +320,139 @@ def test_a_new_study_typed_from_empty_is_saved_and_exported_as_pdf(
     data = pdf.read_bytes()
     assert data[:5] == b"%PDF-"
     assert "CFA 110" in PdfReader(io.BytesIO(data)).pages[0].extract_text()
+
+
+GRAFT_SITE = '#device-list [data-path="limbs.left.grafts.0.samples.{site}.{field}"]'
+GRAFT_ON_MAP = '#map polygon[id$="graft-left-0-{site}"]'
+
+
+def graft_fill(driver: Any, site: str) -> str:
+    script = (
+        "const el = document.querySelector(arguments[0]); return el && el.getAttribute('fill');"
+    )
+    return str(driver.execute_script(script, GRAFT_ON_MAP.format(site=site)))
+
+
+def stent_pieces(driver: Any) -> int:
+    return int(driver.execute_script("return document.querySelectorAll('#map g.stent').length"))
+
+
+def test_edit_a_graft_and_a_stent_the_map_redraws_and_save_keeps_the_comments(
+    tmp_path: Path, browser: Any
+) -> None:
+    from diagram.inputs import assess_file
+
+    text = (ROOT / "examples" / "stent-and-graft.yaml").read_text("utf-8")
+    text = text.replace("pressures:\n", "pressures:   # supine, after 10 min rest\n", 1)
+    text = text.replace(
+        "    grafts:\n", "    # graft scanned with the linear probe\n    grafts:\n", 1
+    )
+    study_file = tmp_path / "stent-and-graft.yaml"
+    study_file.write_text(text, "utf-8")
+    process = subprocess.Popen(
+        [sys.executable, "-m", "diagram", "edit", str(study_file), "--no-browser"],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+    )
+    assert process.stdout is not None
+    try:
+        browser.get(process.stdout.readline().strip())
+        wait(browser, lambda d: d.find_elements(By.CSS_SELECTOR, "#map svg"))
+        assert graft_fill(browser, "distal_anastomosis").endswith("band-graft-highest)")
+
+        # the left leg's graft: its fields are on the page, filled from the file
+        click_on_vessel(browser, "left", "CFA", 0.5)
+        wait(browser, lambda d: title(d) == "Left CFA")
+        heading = browser.find_element(By.ID, "device-title").text
+        assert heading == "Stents and grafts, left leg"
+        graft = browser.find_element(By.CSS_SELECTOR, '#device-list [data-device="grafts"]')
+        assert graft.find_element(By.TAG_NAME, "legend").text == "Graft 1 (left leg)"
+        psv = browser.find_element(
+            By.CSS_SELECTOR, GRAFT_SITE.format(site="distal_anastomosis", field="psv")
+        )
+        assert psv.get_attribute("value") == "325"
+        shown = graft.find_element(By.CSS_SELECTOR, ".device-result .band")
+        assert shown.get_attribute("data-band") == "graft-highest"
+
+        # type a lower PSV at the distal anastomosis: the graft is graded and redrawn at once
+        psv.send_keys(Keys.CONTROL, "a")
+        psv.send_keys("150")
+        wait(browser, lambda d: not graft_fill(d, "distal_anastomosis").endswith("highest)"))
+        band = wait(
+            browser,
+            lambda d: d.find_element(
+                By.CSS_SELECTOR, '#device-list [data-device="grafts"] .device-result .band'
+            ).get_attribute("data-band"),
+        )
+        assert band != "graft-highest"
+
+        # the right leg's stent: carry it on to the above-knee popliteal, one piece more drawn
+        click_on_vessel(browser, "right", "SFA-M", 0.5)
+        wait(browser, lambda d: title(d) == "Right SFA-M")
+        pieces = stent_pieces(browser)
+        to = browser.find_element(By.CSS_SELECTOR, '[data-path="limbs.right.stents.0.to"]')
+        assert to.get_attribute("value") == "SFA-D"
+        to.send_keys("POP-AK")  # keyboard choice in the list
+        length = browser.find_element(
+            By.CSS_SELECTOR, '[data-path="limbs.right.stents.0.length_cm"]'
+        )
+        length.send_keys(Keys.CONTROL, "a")
+        length.send_keys("25")
+        wait(browser, lambda d: stent_pieces(d) > pieces)
+
+        # keyboard: Add stent, its From list has the focus; a stent from CFA to SFA-M is refused
+        # beside its field ("to" must be downstream), then Remove takes it away again
+        browser.find_element(By.CSS_SELECTOR, '[data-action="add-stent"]').send_keys(Keys.ENTER)
+        wait(
+            browser, lambda d: len(d.find_elements(By.CSS_SELECTOR, '[data-device="stents"]')) == 2
+        )
+        focused = browser.switch_to.active_element
+        assert focused.get_attribute("data-path") == "limbs.right.stents.1.from"
+        focused.send_keys("POP-BK")
+        note = wait(browser, lambda d: d.find_elements(By.CSS_SELECTOR, ".problem-note"))
+        assert note[0].text == (
+            "stent-and-graft.yaml: limbs.right.stents[1].to: 'SFA-M' is not POP-BK or "
+            "downstream of it: a stent runs down one path."
+        )
+        to_field = browser.find_element(By.CSS_SELECTOR, '[data-path="limbs.right.stents.1.to"]')
+        assert "has-problem" in to_field.get_attribute("class")  # beside the field it concerns
+        remove = browser.find_elements(By.CSS_SELECTOR, '[data-action="remove-device"]')[1]
+        remove.send_keys(Keys.ENTER)
+        wait(browser, lambda d: not d.find_elements(By.CSS_SELECTOR, ".problem-note"))
+        wait(browser, lambda d: stent_pieces(d) > pieces)  # the preview of the study as saved
+
+        browser.find_element(By.CSS_SELECTOR, '[data-action="save"]').click()
+        wait(
+            browser, lambda d: d.find_element(By.ID, "status").text == "saved stent-and-graft.yaml"
+        )
+        shot = tmp_path / "editor-devices.png"
+        browser.save_screenshot(str(shot))
+        assert shot.stat().st_size > 10_000
+        errors = [e for e in browser.get_log("browser") if e["level"] == "SEVERE"]
+        assert errors == []
+    finally:
+        process.send_signal(signal.SIGINT)
+        process.communicate(timeout=30)
+
+    saved_text = study_file.read_text("utf-8")
+    assert "pressures:   # supine, after 10 min rest\n" in saved_text
+    assert "    # graft scanned with the linear probe\n    grafts:\n" in saved_text
+    assert saved_text.startswith("# Fictional demo: surveillance after revascularisation")
+    changed = [
+        (a, b) for a, b in zip(text.splitlines(), saved_text.splitlines(), strict=True) if a != b
+    ]
+    assert changed == [
+        (
+            "      - {from: SFA-M, to: SFA-D, from_cm: 4, length_cm: 12}",
+            "      - {from: SFA-M, to: POP-AK, from_cm: 4, length_cm: 25}",
+        ),
+        (
+            "          distal_anastomosis: {psv: 325, edv: 60}",
+            "          distal_anastomosis: {psv: 150, edv: 60}",
+        ),
+    ]
+    saved = load_study(study_file)
+    assert saved.limbs[Side.RIGHT].stents[0].to == "POP-AK"
+    assert saved.limbs[Side.LEFT].grafts[0].samples["distal_anastomosis"].psv == 150
+    assert assess_file(study_file).limbs[Side.LEFT].grafts[0].band == band

@@ -12,6 +12,13 @@ from diagram.errors import ExportError
 INSTALL_HINT = "the editor needs its optional packages: pip install 'limbchart[edit]'"
 
 
+def _missing(module: str) -> bool:
+    try:
+        return importlib.util.find_spec(module) is None
+    except ModuleNotFoundError:  # a dotted name whose parent package is not there
+        return True
+
+
 @click.command()
 @click.argument("study", required=False, type=click.Path(dir_okay=False, path_type=Path))
 @click.option(
@@ -34,7 +41,7 @@ def edit(study: Path | None, port: int, host: str, no_browser: bool) -> None:
     Prints the editor's address (with its access token) as the first line, opens it in the
     default browser, and serves until Ctrl-C. Only this study file is read and written.
     """
-    missing = [m for m in ("starlette", "uvicorn") if importlib.util.find_spec(m) is None]
+    missing = [m for m in ("starlette", "uvicorn", "ruamel.yaml") if _missing(m)]
     if missing:
         raise click.ClickException(f"{INSTALL_HINT} ({' and '.join(missing)} missing).")
     from diagram.editor.serve import LOOPBACK, Address, bind, serve

@@ -11,7 +11,8 @@ Routes (all but the page and its two files answer JSON or a file)::
 
     GET  /                     the page
     GET  /static/editor.js     its script       GET /static/editor.css  its style
-    GET  /api/study            the opened study as file data, the scan order, the file name
+    GET  /api/study            the opened study as file data, the scan order, the graft sites,
+                               the file name
     POST /api/assess           study in: the results document, or the problems
     POST /api/preview          study in: page 1 of the sheet as SVG with hooks, and the results;
                                or the problems, also with status 200 (the page's live round trip)
@@ -276,6 +277,7 @@ def _threaded(handler: Callable[[Request], Response]) -> Callable[[Request], Awa
 
 def _opened(edited: EditedStudy) -> dict[str, Any]:
     from diagram.drawing.template.mapfile import load_template
+    from diagram.reading.study import GRAFT_SITES
 
     return {
         "name": edited.name,
@@ -283,6 +285,7 @@ def _opened(edited: EditedStudy) -> dict[str, Any]:
         "new": edited.path is None or not edited.path.exists(),
         "study": edited.data,
         "segments": study_edit.scan_order(load_template(edited.template)),
+        "graft_sites": list(GRAFT_SITES),  # a graft's sampling sites, inflow to outflow
     }
 
 

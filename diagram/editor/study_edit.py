@@ -47,7 +47,8 @@ class EditedStudy:
     """The study file being edited: where it lives, and the earlier exam it named when opened.
 
     ``path`` is None for a new study until it is first saved. ``prior`` is read once, when the
-    study is opened; a ``prior`` typed on the page is kept in the file but never read.
+    study is opened; a ``prior`` typed on the page is kept in the file but never read. ``text``
+    is what Save changes: only the values edited on the page are rewritten in it.
     """
 
     path: Path | None
@@ -57,6 +58,7 @@ class EditedStudy:
     page: str = "a4"
     suggested: str = "new-study.yaml"  # the name a first save proposes when ``path`` is None
     data: dict[str, Any] = field(default_factory=dict)  # as file data, as opened or last saved
+    text: str | None = None  # the file's own text, as opened or last saved (None: no file yet)
     lock: threading.Lock = field(default_factory=threading.Lock, repr=False)
 
     @property
@@ -80,10 +82,12 @@ def open_study(path: Path | None) -> EditedStudy:
             rule = "names no file; a new study file ends in .yaml, .yml or .json."
             raise StudyError([Problem(str(path), None, "", None, rule)])
         return EditedStudy(path, path.parent, data=dict(NEW_STUDY))
+    raw = path.read_bytes()
     study = load_study(path)  # a study file, or the scanner's structured report
     data = study_data(study)
     if path.suffix.lower() in STUDY_SUFFIXES and not _is_dicom(path):
-        return EditedStudy(path, path.parent, prior=load_prior(study), data=data)
+        text = raw.decode("utf-8")  # the loader has read it as UTF-8 text
+        return EditedStudy(path, path.parent, prior=load_prior(study), data=data, text=text)
     # a structured report is never written over: its study is saved as a study file beside it
     return EditedStudy(None, path.parent, suggested=f"{path.stem}.yaml", data=data)
 
@@ -227,12 +231,15 @@ def _dist2(p: tuple[float, float], q: tuple[float, float]) -> float:
 def save_target(edited: EditedStudy, name: str | None, confirm: bool) -> Path:
     """Return where a save goes: the opened file, or ``name`` (a bare file name) beside it.
 
-    Raise SaveConflict when ``name`` is an existing file other than the one opened and the user
-    has not confirmed; an ExportError for a name with a folder in it or a wrong suffix.
+    Raise SaveConflict, unless the user confirmed, when ``name`` is an existing file other than
+    the one opened, or when the opened file was changed on disk since it was read (by a text
+    editor: its changes would be lost); an ExportError for a name with a folder or a wrong suffix.
     """
     if name is None or name == "":
         if edited.path is None:
             raise ExportError("a new study needs a file name: use Save as.")
+        if not confirm:
+            _unchanged_on_disk(edited)
         return edited.path
     if (
         name in (".", "..")
@@ -249,34 +256,85 @@ def save_target(edited: EditedStudy, name: str | None, confirm: bool) -> Path:
         raise ExportError(f"{name!r}: give a file name only; it is saved in {edited.folder}.")
     if target != edited.path and target.exists() and not confirm:
         raise SaveConflict(f"{name}: a file of that name exists; confirm to replace it.")
+    if target == edited.path and not confirm:
+        _unchanged_on_disk(edited)
     return target
+
+
+def _unchanged_on_disk(edited: EditedStudy) -> None:
+    """Raise SaveConflict when the opened file was changed by another program since it was read."""
+    if edited.path is None or edited.text is None:
+        return
+    try:
+        now = edited.path.read_bytes()
+    except FileNotFoundError:
+        return  # removed meanwhile: saving writes it again
+    except OSError as err:
+        raise ExportError(f"{edited.path.name}: cannot be read: {err.strerror}.") from None
+    if now != edited.text.encode("utf-8"):
+        raise SaveConflict(
+            f"{edited.path.name} was changed by another program since it was opened; "
+            "confirm to replace it with the study on the page."
+        )
 
 
 def save(study: Study, edited: EditedStudy, target: Path) -> Path:
     """Write the study to ``target`` atomically (YAML, or JSON for a .json name); return it.
 
-    The text written is read back with the loader before it replaces anything, so a saved file
-    always reloads to the same study.
+    An opened file keeps its own text: only the values changed on the page are rewritten
+    (:mod:`diagram.editor.keep`). The text written is read back with the loader before it
+    replaces anything, so a saved file always reloads to the study the page showed.
     """
-    import json
-
     from diagram.output.export import write_atomic
-    from diagram.reading.plain import study_data, study_yaml
+    from diagram.reading.plain import study_data
 
-    if target.suffix.lower() == ".json":
-        text = json.dumps(study_data(study), indent=2, ensure_ascii=False) + "\n"
-    else:
-        text = study_yaml(study)
+    data = study_data(study)
+    text = file_text(edited, data, target.suffix.lower() == ".json")
     again = load_study_text(text, target.name, target.suffix)
-    if study_data(again) != study_data(study):  # a defect in the writer, never the user's
+    if study_data(again) != data:  # a defect in the writer, never the user's
         raise ExportError(
             f"{target.name}: the saved text would not read back the same; nothing written."
         )
     write_atomic(target, text.encode("utf-8"))
-    edited.data = study_data(study)
+    edited.data = data
+    edited.text = text
     edited.path = target
     edited.folder = target.parent
     return target
+
+
+def file_text(edited: EditedStudy, data: dict[str, Any], json_file: bool) -> str:
+    """Return the text of the study file for ``data``.
+
+    The opened file's own text with the changes made in it when there is one of the same kind
+    (YAML or JSON); otherwise the study written out afresh (a new study, a structured report's,
+    or a YAML study saved as JSON and the other way round).
+    """
+    import json
+
+    from diagram.editor import keep
+    from diagram.reading.plain import dump_study, study_data
+
+    def reads_back(text: str) -> bool:
+        try:
+            again = load_study_text(text, opened.name if opened else "study", suffix)
+        except StudyError:
+            return False
+        return study_data(again) == data
+
+    suffix = ".json" if json_file else ".yaml"
+    opened = edited.path
+    same_kind = opened is not None and (opened.suffix.lower() == ".json") == json_file
+    if edited.text is not None and opened is not None and same_kind:
+        try:
+            return keep.kept_text(edited.text, json_file, edited.data, data, reads_back)
+        except ValueError as err:  # the file no longer matches the study opened
+            raise ExportError(
+                f"{opened.name}: its own text could not be kept ({err}); nothing written."
+            ) from None
+    if json_file:
+        return json.dumps(data, indent=2, ensure_ascii=False) + "\n"
+    return dump_study(data)
 
 
 def export_bytes(study: Study, edited: EditedStudy, fmt: str) -> bytes:

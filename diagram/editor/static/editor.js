@@ -13,6 +13,7 @@
     name: "",           // the study file's name
     isNew: false,       // no file yet: Save asks for a name
     segments: [],       // scan order: {side, segment, name}
+    graftSites: [],     // a graft's sampling sites, inflow to outflow
     index: 0,           // selected segment
     results: null,      // last results document
     mapBox: null,       // where the template sits on the drawn page (page points)
@@ -43,6 +44,7 @@
     state.name = data.name;
     state.isNew = data.new;
     state.segments = data.segments;
+    state.graftSites = data.graft_sites;
     fillPicker();
     fillStatic();
     select(0, false);
@@ -137,6 +139,13 @@
         if (!Object.keys(limb.segments).length) delete limb.segments;
       }
       if (limb.lesions && !limb.lesions.length) delete limb.lesions;
+      for (const graft of limb.grafts || []) {
+        const samples = graft.samples;
+        if (!samples) continue;
+        for (const site of Object.keys(samples)) if (!Object.keys(samples[site]).length) delete samples[site];
+        if (!Object.keys(samples).length) delete graft.samples;
+      }
+      for (const kind of ["stents", "grafts"]) if (limb[kind] && !limb[kind].length) delete limb[kind];
       if (!Object.keys(limb).length) delete doc.limbs[side];
     }
     if (doc.limbs && !Object.keys(doc.limbs).length) delete doc.limbs;
@@ -177,6 +186,7 @@
     const sample = sampleOf(false) || {};
     for (const field of SAMPLE_FIELDS) writeInput($(`#sample-fields [data-field="${field}"]`), sample[field]);
     fillLesions();
+    fillDevices();
     markSelected();
     showResults();
     showProblems(state.problems || []);
@@ -238,6 +248,104 @@
     const button = $('[data-action="add-lesion"]');
     button.setAttribute("aria-pressed", on ? "true" : "false");
     $("#map").classList.toggle("placing", on);
+  }
+
+  // --- stents and grafts of the selected segment's leg --------------------------------------
+
+  function segmentIds() {
+    const ids = [];
+    for (const seg of state.segments) if (!ids.includes(seg.segment)) ids.push(seg.segment);
+    return ids;
+  }
+
+  function fillSegmentChoices(select, value) {
+    const ids = segmentIds();
+    if (value && !ids.includes(value)) ids.push(value);  // a segment this map does not draw
+    if (!value) select.append(new Option("", ""));
+    for (const id of ids) select.append(new Option(id, id));
+  }
+
+  function bindParts(node, path) {
+    // Each field names its place in the study, so input, problems and refill all go by path.
+    for (const el of $$("[data-part]", node)) {
+      el.dataset.path = `${path}.${el.dataset.part}`;
+      const value = pathGet(el.dataset.path);
+      if (el.classList.contains("segment-ids")) fillSegmentChoices(el, value);
+      writeInput(el, value);
+    }
+  }
+
+  function fillDevices() {
+    const box = $("#device-list");
+    box.textContent = "";
+    const { side } = current();
+    $("#device-title").textContent = `Stents and grafts, ${side} leg`;
+    const limb = limbOf(side, false) || {};
+    (limb.stents || []).forEach((stent, i) => box.append(deviceNode("stents", side, i)));
+    (limb.grafts || []).forEach((graft, i) => box.append(deviceNode("grafts", side, i)));
+    showDeviceResults();
+  }
+
+  function deviceNode(kind, side, i) {
+    const template = kind === "stents" ? "#stent-template" : "#graft-template";
+    const node = $(template).content.firstElementChild.cloneNode(true);
+    node.dataset.index = String(i);
+    $("legend", node).textContent = `${kind === "stents" ? "Stent" : "Graft"} ${i + 1} (${side} leg)`;
+    const path = `limbs.${side}.${kind}.${i}`;
+    bindParts(node, path);
+    if (kind === "grafts") {
+      for (const site of state.graftSites) {
+        const row = $("#site-template").content.firstElementChild.cloneNode(true);
+        row.dataset.site = site;
+        $(".site-name", row).textContent = site.replace(/_/g, " ");
+        bindParts(row, `${path}.samples.${site}`);
+        $(".sites", node).append(row);
+      }
+    }
+    return node;
+  }
+
+  function addDevice(kind) {
+    const { side, segment } = current();
+    const limb = limbOf(side, true);
+    if (!limb[kind]) limb[kind] = [];
+    limb[kind].push(kind === "stents" ? { from: segment, to: segment } : { conduit: "vein", from: segment, to: segment });
+    fillDevices();
+    changed();
+    const rows = $$(`#device-list [data-device="${kind}"]`);
+    $('[data-part="from"]', rows[rows.length - 1]).focus();
+  }
+
+  function removeDevice(fieldset) {
+    const kind = fieldset.dataset.device;
+    limbOf(current().side, true)[kind].splice(Number(fieldset.dataset.index), 1);
+    fillDevices();
+    changed();
+    $(`[data-action="add-${kind === "stents" ? "stent" : "graft"}"]`).focus();
+  }
+
+  function showDeviceResults() {
+    const res = state.results;
+    const limb = res && res.limbs[current().side];
+    for (const node of $$('#device-list [data-device="grafts"]')) {
+      const graft = limb && limb.grafts && limb.grafts[Number(node.dataset.index)];
+      const line = $(".device-result", node);
+      line.textContent = "";
+      if (graft) {
+        const band = document.createElement("b");
+        band.className = `band band-${graft.band}`;
+        band.dataset.band = graft.band;
+        band.textContent = bandLabel(graft.band);
+        line.append(band, ` ${graft.basis}`);
+      }
+      for (const row of $$(".site", node)) {
+        const found = graft && (graft.sites || []).find((s) => s.site === row.dataset.site);
+        const tag = $(".site-band", row);
+        tag.hidden = !found;
+        tag.textContent = found ? bandLabel(found.band) : "";
+        tag.className = `band site-band${found ? ` band-${found.band}` : ""}`;
+      }
+    }
   }
 
   // --- the map -----------------------------------------------------------------------------
@@ -309,6 +417,7 @@
     fillList($("#segment-warnings"), mine.map((w) => w.message));
     fillList($("#all-warnings"), res.warnings.map((w) => `${w.side ? w.side + " " : ""}${w.segment ? w.segment + ": " : ""}${w.message}`));
     showLegs(res);
+    showDeviceResults();
     $("#page-caution").textContent = res.caution;
   }
 
@@ -378,10 +487,15 @@
     setStatus(problems.length ? `${problems.length} problem${problems.length > 1 ? "s" : ""}` : null);
   }
 
-  function fieldFor(path) {
-    if (!path) return null;
+  function fieldFor(field) {
+    if (!field) return null;
+    const path = field.replace(/\[(\d+)\]/g, ".$1");  // the loader writes list items as [i]
     for (const el of $$("[data-path]")) if (el.dataset.path === path) return el;
-    for (const field of SAMPLE_FIELDS) if (samplePath(field) === path) return $(`#sample-fields [data-field="${field}"]`);
+    for (const name of SAMPLE_FIELDS) if (samplePath(name) === path) return $(`#sample-fields [data-field="${name}"]`);
+    const lesion = /^limbs\.(right|left)\.lesions\.(\d+)\.(\w+)$/.exec(path);
+    if (lesion && lesion[1] === current().side) {
+      return $(`#lesion-list fieldset[data-lesion="${lesion[2]}"] [data-field="${lesion[3]}"]`);
+    }
     return null;
   }
 
@@ -402,7 +516,7 @@
 
   function fillStatic() {
     $("#file-name").textContent = state.name;
-    for (const el of $$("#form-pane [data-path]")) if (!el.closest("#lesion-list")) writeInput(el, pathGet(el.dataset.path));
+    for (const el of $$("#form-pane [data-path]")) if (!el.closest("#lesion-list, #device-list")) writeInput(el, pathGet(el.dataset.path));
   }
 
   // --- saving and exporting ---------------------------------------------------------------
@@ -524,6 +638,9 @@
     else if (what === "save-as") saveAs();
     else if (what === "export") download();
     else if (what === "add-lesion") setPlacing(!state.placing);
+    else if (what === "add-stent") addDevice("stents");
+    else if (what === "add-graft") addDevice("grafts");
+    else if (what === "remove-device") removeDevice(action.closest("fieldset"));
     else if (what === "remove-lesion") {
       const i = Number(action.closest("fieldset").dataset.lesion);
       limbOf(current().side, true).lesions.splice(i, 1);
