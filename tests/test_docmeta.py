@@ -45,6 +45,14 @@ def test_the_pdf_is_titled_with_the_sheet_and_no_identifier(renderer: str) -> No
 
 
 @pytest.mark.parametrize("renderer", ["cairo", "cairosvg"])
+def test_a_nul_in_the_site_is_left_out_of_the_title(renderer: str, tmp_path: Path) -> None:
+    study = tmp_path / "s.yaml"
+    study.write_text('format: 1\nexam: {site: "Demo\\0Lab"}\n', encoding="utf-8")
+    pdf = render_bytes(draw_file(study), "pdf", ExportOptions(renderer=renderer))  # type: ignore[arg-type]
+    assert _info(pdf)["/Title"] == "Lower-limb arterial duplex · DemoLab"
+
+
+@pytest.mark.parametrize("renderer", ["cairo", "cairosvg"])
 def test_source_date_epoch_makes_the_pdf_byte_identical(
     renderer: str, monkeypatch: pytest.MonkeyPatch
 ) -> None:

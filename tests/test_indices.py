@@ -62,15 +62,17 @@ def test_abi_rounds_half_up_to_two_decimals() -> None:
     assert round2(0.855) == 0.86 and round2(0.8549) == 0.85  # common practice: two decimals
 
 
-# TBI = toe / higher brachial; <= 0.70 abnormal (2016 AHA/ACC; cut-off from memory)
+# TBI = toe / higher brachial; <= 0.70 abnormal: 2016 AHA/ACC PAD guideline figure 2, "Normal
+# (>0.70)" / "Abnormal (≤0.70)" (pocket edition, Guideline Central), confirmed.
 @pytest.mark.parametrize(("toe", "category"), [(69, "abnormal"), (70, "abnormal"), (71, "normal")])
 def test_tbi_boundary(toe: float, category: str) -> None:
     ix = limb_indices(pressures((100, 90), (None, None, toe)), Side.LEFT)
     assert ix.tbi == toe / 100 and ix.tbi_category == category
 
 
-# WIfI ischaemia grade (Mills JL et al., J Vasc Surg 2014;59:220): grades 1-3 confirmed,
-# grade 0 from memory. Each measure alone, brachial 100 so that ABI = ankle / 100.
+# WIfI ischaemia grade (Mills JL et al., J Vasc Surg 2014;59:220): grades 1-3 confirmed in the
+# review table of Medicina 2024;60:1179 (table 2: "0.60-0.79", "70-100 mmHg", "40-59 mmHg" for
+# grade 1), grade 0 from memory. Each measure alone, brachial 100 so that ABI = ankle / 100.
 @pytest.mark.parametrize(
     ("left", "grade"),
     [
@@ -191,7 +193,8 @@ def test_abi_040_exactly_is_outside_the_clti_range() -> None:
 
 
 # WIfI TcPO2 grade, same column as the toe pressure (Mills 2014; grades 1-3 confirmed in a review
-# table of the classification, grade 0 from memory): >= 60 grade 0, 40-59 1, 30-39 2, < 30 3.
+# table of the classification, Medicina 2024;60:1179 table 2; grade 0 from memory): >= 60
+# grade 0, 40-59 1, 30-39 2, < 30 3.
 @pytest.mark.parametrize(("tcpo2", "grade"), [(29, 3), (30, 2), (39, 2), (40, 1), (59, 1), (60, 0)])
 def test_wifi_grade_from_tcpo2(tcpo2: float, grade: int) -> None:
     ix = limb_indices(Pressures(100, 100, left=LimbPressures(tcpo2=tcpo2)), Side.LEFT)

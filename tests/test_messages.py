@@ -321,7 +321,7 @@ def test_a_recorded_noncompressible_artery_gives_no_abi_and_the_tbi_is_the_index
     left = json.loads(out)["limbs"]["left"]
     # 2016 AHA/ACC PAD guideline: a noncompressible ankle artery makes the ABI unreliable (as
     # an ABI > 1.40 does): no ABI figure; the TBI is the index. TBI = toe / higher brachial =
-    # 60 / 140 = 0.43, abnormal (<= 0.70, cut-off from memory).
+    # 60 / 140 = 0.43, abnormal (<= 0.70: the guideline's figure 2, "Abnormal (≤0.70)").
     assert (left["abi"], left["abi_category"]) == (None, "noncompressible")
     assert left["abi_basis"] == "PT noncompressible (recorded): no ABI"
     assert (left["tbi"], left["tbi_category"]) == (0.43, "abnormal")

@@ -201,7 +201,11 @@ def test_stage_from_the_grades() -> None:
 # Runoff vessel scale and score: Rutherford RB et al., J Vasc Surg 1997;26:517 (confirmed):
 # 0 normal, 1 for <50% (our band spans 1-49%: scored 1), 2 for 50-99%, 2.5 occluded <= half its
 # length, 3 more than half; score = 1 + the sum over the three tibial arteries (each weighted
-# once: from memory). Path lengths: ATA 33, PTA 3 + 30, PER 3 + 22.5 cm.
+# once: from memory; the 1997 weighting table itself was not read). Corroboration: Baer-Bositis HE,
+# ..., Davies MG, "Outcomes of tibial endovascular intervention in patients with poor pedal
+# runoff", score the three pedal arteries on the same scale, "(dorsalis pedis + medial plantar +
+# lateral plantar + 1)", range "(1-10)": three vessels of weight 1, the maximum exactly 10.
+# Path lengths: ATA 33, PTA 3 + 30, PER 3 + 22.5 cm.
 @pytest.mark.parametrize(
     ("lesions", "count", "score"),
     [
@@ -213,6 +217,8 @@ def test_stage_from_the_grades() -> None:
         ((sten("PER-M", 2.0, band="lt50"),), 3, 2.0),  # <50%: 1
         ((occ("ATA-P", 33.0), occ("PTA-P", 30.0)), 1, 1 + 3 + 3 + 0.0),
         ((occ("ATA-P", 33.0), occ("TPT", 3.0)), 0, 1 + 3 + 2.5 + 2.5),  # TPT cuts PTA and PER
+        # every tibial occluded over its whole length: the published maximum, 10
+        ((occ("ATA-P", 33.0), occ("PTA-P", 30.0), occ("PER-P", 22.5)), 0, 10.0),
     ],
 )
 def test_runoff_count_and_score(lesions: tuple[Lesion, ...], count: int, score: float) -> None:

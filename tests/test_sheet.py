@@ -108,7 +108,7 @@ def test_abi_line_shows_value_category_and_basis(
 @pytest.mark.parametrize(
     ("toe", "tbi"),
     [
-        # TBI <= 0.70 abnormal (2016 AHA/ACC; cut-off from memory)
+        # TBI <= 0.70 abnormal (2016 AHA/ACC PAD guideline figure 2, "Abnormal (≤0.70)"; confirmed)
         (70, "TBI 0.70 abnormal · toe 70 / brachial 100 mmHg"),
         (71, "TBI 0.71 normal · toe 71 / brachial 100 mmHg"),
         (None, "TBI not measured · no toe pressure"),

@@ -24,10 +24,14 @@ ABI_CATEGORIES: tuple[tuple[float, str], ...] = (
 # Severity within abnormal: <= 0.40 severe, 0.41-0.90 mild-moderate (Sukul D et al., JACC
 # Cardiovasc Interv 2017).
 ABI_SEVERE_MAX = 0.40
-# TBI <= 0.70 abnormal (2016 AHA/ACC; cut-off from memory).
+# TBI <= 0.70 abnormal, > 0.70 normal: 2016 AHA/ACC PAD guideline, figure 2 (diagnostic testing
+# for suspected CLI: "Normal (>0.70)", "Abnormal (≤0.70)") and table 6 ("ABI >1.40 and TBI
+# ≤0.70"), read in the guideline's pocket edition (Guideline Central): confirmed.
 TBI_ABNORMAL_MAX = 0.70
-# WIfI ischaemia grade (Mills JL et al., J Vasc Surg 2014;59:220; grades 1-3 confirmed, grade 0
-# from memory): lower bounds for grades 0, 1, 2; below the last bound is grade 3.
+# WIfI ischaemia grade (Mills JL et al., J Vasc Surg 2014;59:220; grades 1-3 confirmed in a review
+# table of the classification, Medicina 2024;60:1179 table 2; grade 0 from memory): lower bounds
+# for grades 0, 1, 2; below the last bound is grade 3. The table writes ankle "70-100" for grade 1
+# and "50-70" for grade 2: 70 itself is given grade 1 here (the milder row), our own reading.
 WIFI_ABI = ((0.80, 0), (0.60, 1), (0.40, 2))  # ABI >= bound
 WIFI_ANKLE = ((100.0, 0), (70.0, 1), (50.0, 2))  # ankle > 100 grade 0; 70-100 grade 1; 50-<70 2
 WIFI_TOE = ((60.0, 0), (40.0, 1), (30.0, 2))  # toe pressure >= bound, mmHg

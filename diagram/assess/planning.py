@@ -172,6 +172,9 @@ def _fp_grade(leg: _Leg) -> tuple[int | None, tuple[str, ...]]:
     if occl:
         found.append(_sfa_occlusions(occl))
     pop = [e for e in ext if e.touches(POPLITEAL)]
+    # The trifurcation is "the termination of the popliteal artery at the confluence of the
+    # anterior tibial (AT) artery and tibioperoneal trunk" (GVG 2019, FP grading figure caption):
+    # the end of POP-BK, or the TPT.
     for e in pop:
         if e.occluded:
             found.append((4, f"popliteal occlusion: {e.label}"))

@@ -125,9 +125,13 @@ def _scene(drawing: Drawing, options: ExportOptions) -> Scene | None:
 
 
 def _title(drawing: Drawing) -> str:
-    """Return the document title: the Scene's, or the kind of sheet for SVG text alone."""
+    """Return the document title: the Scene's, or the kind of sheet for SVG text alone.
+
+    A NUL character (a lab or site name may hold one) is left out: cairo takes the title as a C
+    string, which ends at the first NUL.
+    """
     if drawing.scene is not None and drawing.scene.title:
-        return drawing.scene.title
+        return drawing.scene.title.replace("\x00", "")
     from diagram.drawing.sheet.header import KIND
 
     return KIND
