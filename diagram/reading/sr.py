@@ -8,34 +8,11 @@ vessel (Finding Site, CID 12109 lower extremity arteries) with a Topographical m
 a file into the plain tree a YAML study file gives (same keys, cm/s), so that the same checks and
 the same builder make the Study; what it cannot place is named in :attr:`Report.notes`.
 
-Segment mapping (finding site + topographical modifier -> segment id; ``-`` = no modifier taken):
-
-=============================  ==========  ================================================
-finding site (SCT, CID 12109)  modifier    segment
-=============================  ==========  ================================================
-73634005 Common iliac artery   -           CIA
-113269004 External iliac       -           EIA
-90024005 Internal iliac        -           IIA
-181347005 Common femoral       -           CFA
-31677005 Profunda femoris      -           PFA
-181349008 Superficial femoral  P / M / D   SFA-P / SFA-M / SFA-D
-43899006 Popliteal             P / D       POP-AK / POP-BK (a Middle popliteal is not placed)
-68053000 Anterior tibial       P / M / D   ATA-P / ATA-M / ATA-D
-13363002 Posterior tibial      P / M / D   PTA-P / PTA-M / PTA-D
-8821006 Peroneal               P / M / D   PER-P / PER-M / PER-D
-86547008 Dorsalis pedis        -           DPA
-83018002 Plantar arterial arch -           PLA
-=============================  ==========  ================================================
-
-Modifiers (CID 12116): SCT 40415009 Proximal (P), NCIt C25569 Middle (M), SCT 46053002 Distal
-(D). Measurements: LN 11726-7 Peak Systolic Velocity -> ``psv``, LN 11653-3 End Diastolic
-Velocity -> ``edv``, converted to cm/s from the UCUM unit (cm/s, m/s, mm/s; any other unit is
-refused). Side: SCT 24028007 Right, SCT 7771000 Left (Laterality SCT 272741003, on the section or
-on the group). Several groups for one segment are kept in order as its ``samples``; the one with
-the highest PSV gives the segment's values (the highest velocity at a site grades it: common
-practice) and a note says which. Editions differ, and each form is accepted: the section heading
-LN 59776-5 or DCM 121070 "Findings"; the modifier as a child of the Finding Site item or beside
-it; the document title DCM 125100 or a title of CID 12100.
+The codes and the segment each finding site maps to are in :mod:`diagram.reading.srcodes`.
+Several groups for one segment are kept in order as its ``samples``; the one with the highest PSV
+gives the segment's values (the highest velocity at a site grades it: common practice) and a note
+says which. Editions differ, and each form is accepted: the modifier as a child of the Finding
+Site item or beside it.
 
 Header: Patient ID, Patient's Name, Birth Date, Sex, Study Date, Accession Number, Study Instance
 UID (``exam.study_uid``), Referring Physician's Name and Institution Name go into the tree.
@@ -58,6 +35,27 @@ from typing import TYPE_CHECKING, Any
 
 from diagram.errors import Problem, StudyError
 from diagram.reading.formats import DICOM_MAX_BYTES
+from diagram.reading.srcodes import (
+    FINDING_SITE,
+    FINDINGS,
+    LATERALITY,
+    MEASUREMENTS,
+    PATIENT_SEX,
+    SIDES,
+    SR_CLASSES,
+    SUMMARY_TEXT,
+    TITLES,
+    TO_CM_S,
+    TOPOGRAPHICAL_MODIFIER,
+    VESSELS,
+    Code,
+    code_of,
+    concept_of,
+    item_name,
+    meaning_of,
+    segment_of,
+    value_code_of,
+)
 
 if TYPE_CHECKING:
     from pydicom.dataset import Dataset
@@ -65,66 +63,6 @@ if TYPE_CHECKING:
 MAX_BYTES = DICOM_MAX_BYTES  # the registry's limit for a report
 MAX_DEPTH = 12  # TID 5100 nests four levels; a modifier under a finding site one more
 MAX_ITEMS = 20_000
-
-Code = tuple[str, str]  # (coding scheme designator, code value)
-
-# DICOM PS3.16 CID 12100 (Vascular Ultrasound Report Document Title) and DCM 125100.
-TITLES: frozenset[Code] = frozenset(
-    {
-        ("DCM", "125100"),  # Vascular Ultrasound Procedure Report
-        ("LN", "24616-5"),  # US Carotid Arteries Report
-        ("LN", "46375-2"),  # US Artery Report
-        ("LN", "39036-9"),  # US Vein Report
-        ("LN", "39445-2"),  # US Doppler Vessels Report
-        ("LN", "24534-0"),  # US Doppler Abdominal Vessels Report
-        ("LN", "43771-5"),  # US Doppler Extremity Vessels Report
-        ("LN", "24733-8"),  # US Doppler Head Vessels Report
-        ("LN", "44174-1"),  # US Doppler Lower Extremity Vessels Report
-        ("LN", "39448-6"),  # US Doppler Upper Extremity Vessels Report
-        ("SCT", "48526000"),  # Peripheral Vascular Ultrasound Report
-    }
-)
-FINDINGS: frozenset[Code] = frozenset({("LN", "59776-5"), ("DCM", "121070")})
-FINDING_SITE: Code = ("SCT", "363698007")
-TOPOGRAPHICAL_MODIFIER: Code = ("SCT", "106233006")
-LATERALITY: Code = ("SCT", "272741003")
-SIDES: dict[Code, str] = {("SCT", "24028007"): "right", ("SCT", "7771000"): "left"}
-MODIFIERS: dict[Code, str] = {
-    ("SCT", "40415009"): "P",  # Proximal
-    ("NCIt", "C25569"): "M",  # Middle
-    ("SCT", "46053002"): "D",  # Distal
-}
-# CID 12109 lower extremity arteries: (segment without modifier, or {modifier: segment})
-VESSELS: dict[Code, str | dict[str, str]] = {
-    ("SCT", "73634005"): "CIA",
-    ("SCT", "113269004"): "EIA",
-    ("SCT", "90024005"): "IIA",
-    ("SCT", "181347005"): "CFA",
-    ("SCT", "31677005"): "PFA",
-    ("SCT", "181349008"): {"P": "SFA-P", "M": "SFA-M", "D": "SFA-D"},
-    ("SCT", "43899006"): {"P": "POP-AK", "D": "POP-BK"},
-    ("SCT", "68053000"): {"P": "ATA-P", "M": "ATA-M", "D": "ATA-D"},
-    ("SCT", "13363002"): {"P": "PTA-P", "M": "PTA-M", "D": "PTA-D"},
-    ("SCT", "8821006"): {"P": "PER-P", "M": "PER-M", "D": "PER-D"},
-    ("SCT", "86547008"): "DPA",
-    ("SCT", "83018002"): "PLA",
-}
-MEASUREMENTS: dict[Code, str] = {
-    ("LN", "11726-7"): "psv",  # Peak Systolic Velocity
-    ("LN", "11653-3"): "edv",  # End Diastolic Velocity
-}
-TO_CM_S: dict[str, Decimal] = {"cm/s": Decimal(1), "m/s": Decimal(100), "mm/s": Decimal("0.1")}
-SUMMARY_TEXT: frozenset[Code] = frozenset({("DCM", "121106"), ("DCM", "121111"), ("LN", "55112-7")})
-_SR_CLASSES = frozenset(
-    {
-        "1.2.840.10008.5.1.4.1.1.88.11",  # Basic Text SR
-        "1.2.840.10008.5.1.4.1.1.88.22",  # Enhanced SR
-        "1.2.840.10008.5.1.4.1.1.88.33",  # Comprehensive SR
-        "1.2.840.10008.5.1.4.1.1.88.34",  # Comprehensive 3D SR
-        "1.2.840.10008.5.1.4.1.1.88.35",  # Extensible SR
-    }
-)
-_SEX = {"F": "female", "M": "male", "O": "other"}
 
 
 @dataclass
@@ -173,14 +111,14 @@ def report_from_bytes(data: bytes, refuse: Callable[[str], Exception]) -> Report
         raise refuse("is not a DICOM file (no DICM marker after the 128-byte preamble).")
     ds = _parse(data, refuse)
     sop_class = str(ds.get("SOPClassUID", ""))
-    if sop_class not in _SR_CLASSES or ds.get("Modality") != "SR":
+    if sop_class not in SR_CLASSES or ds.get("Modality") != "SR":
         raise refuse(
             "is a DICOM file but not a structured report (SR); give a vascular ultrasound "
             "report or a study file."
         )
-    title = _code(ds.get("ConceptNameCodeSequence"))
+    title = code_of(ds.get("ConceptNameCodeSequence"))
     if ds.get("ValueType") != "CONTAINER" or title not in TITLES:
-        meaning = _meaning(ds.get("ConceptNameCodeSequence")) or "no title"
+        meaning = meaning_of(ds.get("ConceptNameCodeSequence")) or "no title"
         raise refuse(
             f"is a structured report but not a vascular ultrasound report ({meaning!r}); "
             "its title must be DCM 125100 or one of CID 12100."
@@ -248,37 +186,6 @@ def _bounded(ds: Dataset, depth: int, count: list[int]) -> None:
         _bounded(item, depth + 1, count)
 
 
-def _code(seq: Any) -> Code | None:
-    if not seq:
-        return None
-    item = seq[0]
-    return (str(item.get("CodingSchemeDesignator", "")), str(item.get("CodeValue", "")))
-
-
-def _meaning(seq: Any) -> str:
-    return str(seq[0].get("CodeMeaning", "")) if seq else ""
-
-
-def _concept(item: Dataset) -> Code | None:
-    return _code(item.get("ConceptNameCodeSequence"))
-
-
-def _value_code(item: Dataset) -> Code | None:
-    return _code(item.get("ConceptCodeSequence")) if item.get("ValueType") == "CODE" else None
-
-
-def _named(item: Dataset) -> str:
-    """Return how a note names an item: its concept's meaning, and its coded value's."""
-    concept = _meaning(item.get("ConceptNameCodeSequence"))
-    value = _meaning(item.get("ConceptCodeSequence")) if item.get("ValueType") == "CODE" else ""
-    if concept and value:
-        return f"{concept!r} = {value!r}"
-    if concept or value:
-        return repr(concept or value)
-    code = _concept(item)
-    return f"code {code[0]} {code[1]}" if code else "an item without a concept name"
-
-
 def _dicom_date(value: Any) -> str | None:
     text = str(value or "").strip()
     if len(text) != 8 or not text.isdigit():
@@ -323,7 +230,7 @@ class _Reader:
             relation = item.get("RelationshipType")
             if relation in ("HAS CONCEPT MOD", "HAS OBS CONTEXT"):
                 continue  # language, observer and procedure context: not findings
-            concept = _concept(item)
+            concept = concept_of(item)
             if item.get("ValueType") == "CONTAINER" and concept in FINDINGS:
                 self.section(item)
             elif item.get("ValueType") == "CONTAINER":
@@ -332,7 +239,7 @@ class _Reader:
                 self.summary.append(str(item.get("TextValue", "")).strip())
             else:
                 self.note(
-                    "report", f"{_named(item)} is not a finding this map draws; not imported."
+                    "report", f"{item_name(item)} is not a finding this map draws; not imported."
                 )
         tree = self.header(ds)
         limbs = self.limbs()
@@ -351,8 +258,10 @@ class _Reader:
             if child.get("ValueType") == "TEXT":
                 self.summary.append(str(child.get("TextValue", "")).strip())
             else:
-                where = _meaning(item.get("ConceptNameCodeSequence")) or "a section"
-                self.note(where, f"{_named(child)} is not a finding this map draws; not imported.")
+                where = meaning_of(item.get("ConceptNameCodeSequence")) or "a section"
+                self.note(
+                    where, f"{item_name(child)} is not a finding this map draws; not imported."
+                )
 
     def section(self, item: Dataset) -> None:
         side = _side_of(item)
@@ -365,7 +274,7 @@ class _Reader:
             else:
                 self.note(
                     f"{side or 'no side'} findings",
-                    f"{_named(child)} is outside a measurement group, so it has no site; "
+                    f"{item_name(child)} is outside a measurement group, so it has no site; "
                     "not imported.",
                 )
 
@@ -374,7 +283,7 @@ class _Reader:
         vessel, modifier = _site_of(item)
         site_name = _site_name(item, vessel)
         where = f"{side or 'no side'} {site_name}"
-        segment = _segment(vessel, modifier)
+        segment = segment_of(vessel, modifier)
         if vessel is None or segment is None:
             why = (
                 "is not a leg artery this map draws"
@@ -390,12 +299,12 @@ class _Reader:
         for child in item.get("ContentSequence") or ():
             if child.get("RelationshipType") in ("HAS CONCEPT MOD", "HAS OBS CONTEXT"):
                 continue
-            if child.get("ValueType") == "CODE" and _concept(child) == FINDING_SITE:
+            if child.get("ValueType") == "CODE" and concept_of(child) == FINDING_SITE:
                 continue  # the site itself (already read)
-            key = MEASUREMENTS.get(_concept(child) or ("", ""))
+            key = MEASUREMENTS.get(concept_of(child) or ("", ""))
             if child.get("ValueType") != "NUM" or key is None:
                 self.note(
-                    where, f"{_named(child)} is not a measurement this map draws; not imported."
+                    where, f"{item_name(child)} is not a measurement this map draws; not imported."
                 )
                 continue
             field_path = f"limbs.{side}.segments.{segment}.{key}"
@@ -407,11 +316,11 @@ class _Reader:
     def velocity(self, item: Dataset, field_path: str, where: str) -> int | float | None:
         measured = item.get("MeasuredValueSequence")
         if not measured:
-            self.note(where, f"{_named(item)} has no value; not imported.")
+            self.note(where, f"{item_name(item)} has no value; not imported.")
             return None
         number = str(measured[0].get("NumericValue", "")).strip()
         units = measured[0].get("MeasurementUnitsCodeSequence")
-        unit = _code(units)
+        unit = code_of(units)
         factor = TO_CM_S.get(unit[1]) if unit and unit[0] == "UCUM" else None
         if factor is None:
             shown = f"{unit[0]} {unit[1]!r}" if unit else "no unit"
@@ -471,7 +380,7 @@ class _Reader:
         _put(patient, "name", _person(ds.get("PatientName")))
         _put(patient, "id", str(ds.get("PatientID", "") or "").strip() or None)
         _put(patient, "birth_date", self.date(ds, "PatientBirthDate", "patient.birth_date"))
-        _put(patient, "sex", _SEX.get(str(ds.get("PatientSex", "") or "").strip()))
+        _put(patient, "sex", PATIENT_SEX.get(str(ds.get("PatientSex", "") or "").strip()))
         _put(exam, "date", self.date(ds, "StudyDate", "exam.date"))
         _put(exam, "accession", str(ds.get("AccessionNumber", "") or "").strip() or None)
         _put(exam, "site", str(ds.get("InstitutionName", "") or "").strip() or None)
@@ -521,8 +430,8 @@ def _modifiers(item: Dataset) -> list[Dataset]:
 
 def _side_of(item: Dataset) -> str | None:
     for child in _modifiers(item):
-        if _concept(child) == LATERALITY:
-            return SIDES.get(_value_code(child) or ("", ""))
+        if concept_of(child) == LATERALITY:
+            return SIDES.get(value_code_of(child) or ("", ""))
     return None
 
 
@@ -530,36 +439,29 @@ def _site_of(item: Dataset) -> tuple[Code | None, Code | None]:
     """Return the group's vessel and topographical modifier, wherever this edition puts them."""
     vessel = modifier = None
     for child in item.get("ContentSequence") or ():
-        concept = _concept(child)
+        concept = concept_of(child)
         if concept == FINDING_SITE and child.get("ValueType") == "CODE":
-            vessel = _value_code(child)
+            vessel = value_code_of(child)
             for grandchild in _modifiers(child):  # the modifier as a child of the site
-                if _concept(grandchild) == TOPOGRAPHICAL_MODIFIER:
-                    modifier = _value_code(grandchild)
+                if concept_of(grandchild) == TOPOGRAPHICAL_MODIFIER:
+                    modifier = value_code_of(grandchild)
         elif concept == TOPOGRAPHICAL_MODIFIER and child.get("ValueType") == "CODE":
-            modifier = _value_code(child)  # the modifier beside the site
-    if vessel is None and _concept(item) in VESSELS:  # the group named after its vessel
-        vessel = _concept(item)
+            modifier = value_code_of(child)  # the modifier beside the site
+    if vessel is None and concept_of(item) in VESSELS:  # the group named after its vessel
+        vessel = concept_of(item)
     return vessel, modifier
 
 
 def _site_name(item: Dataset, vessel: Code | None) -> str:
     for child in item.get("ContentSequence") or ():
-        if _concept(child) == FINDING_SITE:
-            meaning = _meaning(child.get("ConceptCodeSequence"))
+        if concept_of(child) == FINDING_SITE:
+            meaning = meaning_of(child.get("ConceptCodeSequence"))
             if meaning:
                 return repr(meaning)
-    meaning = _meaning(item.get("ConceptNameCodeSequence"))
+    meaning = meaning_of(item.get("ConceptNameCodeSequence"))
     if vessel is not None and meaning:
         return repr(meaning)
     return "site not given"
-
-
-def _segment(vessel: Code | None, modifier: Code | None) -> str | None:
-    target = VESSELS.get(vessel or ("", ""))
-    if isinstance(target, str) or target is None:
-        return target
-    return target.get(MODIFIERS.get(modifier or ("", ""), ""))
 
 
 _FILE_HEAD = """\
