@@ -69,26 +69,34 @@ def _pages(png: bytes, scenes: tuple[Scene, ...]) -> list[Image.Image]:
     return out
 
 
+# Runs on one baseline this close are one line of the SVG (its <text> of <tspan>s, the header's
+# fields five spaces apart): CairoSVG's hinted widths add up along the whole line.
+LINE_GAP_PT = 13.0
+
+
 def _text_boxes(scene: Scene) -> list[tuple[float, float, float, float]]:
-    """Return the pixel box of every line of text (texts on one baseline that touch merged)."""
+    """Return the pixel box of every line of text: runs on one baseline that follow on merged,
+    then padded by 6% of the line's width (CairoSVG's hinted widths) and 3 pixels."""
     k, pad = DPI / 72, 3.0
     rows: dict[float, list[list[float]]] = {}
     for item, scale, dx, dy in sorted(_texts(scene), key=lambda t: t[0].x * t[1] + t[2]):
         b = bounds(item)
         if b is None or not item.text.strip():
             continue
-        x, y, right, bottom = (
-            b.x * scale + dx, b.y * scale + dy, b.right * scale + dx, b.bottom * scale + dy
-        )  # fmt: skip
-        grow = (right - x) * 0.06 * k
-        box = [x * k - pad - grow, y * k - pad, right * k + pad + grow, bottom * k + pad]
+        box = [b.x * scale + dx, b.y * scale + dy, b.right * scale + dx, b.bottom * scale + dy]
         line = rows.setdefault(round(item.y * scale + dy, 1), [])
-        if line and box[0] <= line[-1][2]:
+        if line and box[0] - line[-1][2] <= LINE_GAP_PT * scale:
             last = line[-1]
             line[-1] = [last[0], min(last[1], box[1]), max(last[2], box[2]), max(last[3], box[3])]
         else:
             line.append(box)
-    return [(b[0], b[1], b[2], b[3]) for line in rows.values() for b in line]
+    boxes = []
+    for x, y, right, bottom in (b for line in rows.values() for b in line):
+        grow = (right - x) * 0.06
+        boxes.append(
+            ((x - grow) * k - pad, y * k - pad, (right + grow) * k + pad, bottom * k + pad)
+        )
+    return boxes
 
 
 def _ink(image: Image.Image, box: tuple[float, float, float, float]) -> int:

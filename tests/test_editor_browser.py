@@ -158,6 +158,8 @@ def test_type_a_velocity_see_the_map_change_add_a_lesion_and_save(
     wait(browser, lambda d: d.find_element(By.ID, "segment-title").text == "Right SFA-M")
     psv = browser.find_element(By.CSS_SELECTOR, 'input[name="psv"]')
     assert psv.get_attribute("value") == "90"
+    devices = browser.find_element(By.ID, "device-list").text
+    assert devices == "No stent or graft recorded in the right leg."
 
     # 200 cm/s over SFA-P's 96: Vr 2.08, in 50-74% (Vr 2.0 to < 4; Jager 1985, Polak 2004, the
     # native criteria set)
@@ -368,6 +370,10 @@ def test_edit_a_graft_and_a_stent_the_map_redraws_and_save_keeps_the_comments(
         assert heading == "Stents and grafts, left leg"
         graft = browser.find_element(By.CSS_SELECTOR, '#device-list [data-device="grafts"]')
         assert graft.find_element(By.TAG_NAME, "legend").text == "Graft 1 (left leg)"
+        # keyboard: Alt+D from the sample's PSV goes to the first field of the leg's devices
+        browser.find_element(By.CSS_SELECTOR, 'input[name="psv"]').send_keys(Keys.ALT, "d")
+        focused = browser.switch_to.active_element
+        assert focused.get_attribute("data-path") == "limbs.left.grafts.0.conduit"
         psv = browser.find_element(
             By.CSS_SELECTOR, GRAFT_SITE.format(site="distal_anastomosis", field="psv")
         )

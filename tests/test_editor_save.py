@@ -357,3 +357,39 @@ def test_save_refuses_to_replace_a_file_changed_since_it_was_opened(tmp_path: Pa
         change_name(study)  # the next save starts from the text just written
         assert client.post("/api/save", json={"study": study}, headers=AUTH).status_code == 200
     assert "Renamed, Demo" in path.read_text("utf-8")
+
+
+def test_the_writer_s_layout_is_taken_when_the_kept_lines_would_not_read_back() -> None:
+    from diagram.editor.keep import kept_text
+
+    text = (
+        "format: 1\nnotes: x   # keep me\nlimbs:\n  right:\n    segments:\n      CFA: {psv: 90}\n"
+    )
+    before = study_data(load_study_text(text, "s.yaml", ".yaml"))
+    after = json.loads(json.dumps(before))
+    after["limbs"]["right"]["segments"]["CFA"]["psv"] = 95
+    seen: list[str] = []
+
+    def second_only(candidate: str) -> bool:  # refuse the first text offered
+        seen.append(candidate)
+        return len(seen) == 2
+
+    out = kept_text(text, False, before, after, second_only)
+    assert out == seen[1] and "# keep me" in out and "psv: 95" in out
+    with pytest.raises(ValueError, match="does not read back"):
+        kept_text(text, False, before, after, lambda candidate: False)
+
+
+def test_save_writes_nothing_when_the_file_s_text_cannot_be_kept(tmp_path: Path) -> None:
+    path = tmp_path / "claudicant.yaml"
+    original = (ROOT / "examples" / "claudicant-sfa.yaml").read_text("utf-8")
+    path.write_text(original, "utf-8")
+    edited = open_study(path)
+    edited.data["limbs"]["left"]["lesions"].append({"at": "POP-AK", "psv": 90})  # not in the text
+    with TestClient(make_app(edited, TOKEN, frozenset({HOST})), base_url=f"http://{HOST}") as c:
+        study = c.get("/api/study", headers=AUTH).json()["study"]
+        del study["limbs"]["left"]["lesions"][-1]
+        answer = c.post("/api/save", json={"study": study}, headers=AUTH)
+    assert answer.status_code == 422
+    assert "its own text could not be kept" in answer.json()["problems"][0]["message"]
+    assert path.read_text("utf-8") == original

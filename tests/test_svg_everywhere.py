@@ -8,6 +8,7 @@ the width the layout measured with the shipped font.
 from __future__ import annotations
 
 import base64
+import html
 import io
 import json
 import os
@@ -84,7 +85,12 @@ CHROMIUM = shutil.which("chromium")
 PAGE = """<!doctype html><html><body>{svg}<pre id="out"></pre><script>
 document.fonts.ready.then(() => {{
   const rows = [];
-  for (const t of document.querySelectorAll("svg text")) rows.push([t.id, t.getComputedTextLength()]);
+  for (const t of document.querySelectorAll("svg text, svg tspan")) {{
+    if (t.querySelector("tspan")) continue;  // a line of runs: each run is measured
+    const lead = t.textContent.length - t.textContent.trimStart().length;
+    const x = t.getNumberOfChars() > lead ? t.getStartPositionOfChar(lead).x : 0;
+    rows.push([t.id, t.getComputedTextLength(), x, t.textContent]);
+  }}
   document.getElementById("out").textContent = JSON.stringify(rows);
 }});
 </script></body></html>"""
@@ -94,8 +100,10 @@ NO_DEJAVU = """<?xml version="1.0"?>
 """
 
 
-def _chromium_widths(svg: str, tmp: Path) -> dict[str, float]:
-    """Return each <text>'s width as headless Chromium sets it, with no DejaVu installed."""
+def _chromium_widths(svg: str, tmp: Path) -> dict[str, tuple[float, float, str]]:
+    """Return each run's width, where its first glyph starts and its text with the spaces
+    written around it, as headless Chromium sets them with no DejaVu installed (a run is a
+    <text> of its own or a <tspan> of a line)."""
     fonts = tmp / "fonts"
     fonts.mkdir()
     for other in Path("/usr/share/fonts").rglob("LiberationSerif-Regular.ttf"):
@@ -115,17 +123,28 @@ def _chromium_widths(svg: str, tmp: Path) -> dict[str, float]:
     )  # fmt: skip
     found = re.search(r'<pre id="out">(.*?)</pre>', done.stdout, re.S)
     assert found and found.group(1), done.stderr[-2000:]
-    return {name: float(width) for name, width in json.loads(found.group(1))}
+    rows = json.loads(html.unescape(found.group(1)))  # the DOM is dumped as HTML
+    return {name: (float(width), float(x), str(text)) for name, width, x, text in rows}
 
 
 @pytest.mark.skipif(CHROMIUM is None, reason="needs Debian's chromium")
 def test_chromium_without_dejavu_sets_labels_at_the_design_width(tmp_path: Path) -> None:
     scene = page_one("clti-multilevel")
-    widths = _chromium_widths(render_svg(scene), tmp_path)
+    runs = _chromium_widths(render_svg(scene), tmp_path)
     texts = [i for i in scene.walk() if isinstance(i, Text) and i.text.strip()]
-    assert len(texts) > 80 and {t.id for t in texts} <= set(widths)
+    assert len(texts) > 80 and {t.id for t in texts} <= set(runs)
+    following = 0
     for item in texts:
-        design = text_width(item.text, item.size, item.weight is Weight.BOLD)
-        assert abs(widths[item.id] - design) <= WIDTH_TOLERANCE * design + 0.05, (
-            item.text, widths[item.id], design,
+        width, x, written = runs[item.id]
+        assert written.strip(" ") == item.text
+        # a run of a line also holds the spaces written around it, in its own font
+        design = text_width(written, item.size, item.weight is Weight.BOLD)
+        assert abs(width - design) <= WIDTH_TOLERANCE * design + 0.05, (
+            item.text, width, design,
         )  # fmt: skip
+        if item.anchor.value == "start":  # its first glyph where the layout put it
+            assert abs(x - item.x) <= 0.05 + WIDTH_TOLERANCE * max(0.0, item.x - 28), (
+                item.id, item.text, x, item.x,
+            )  # fmt: skip
+            following += written.startswith(" ")
+    assert following >= 10  # the header's fields and the tables' mixed lines were measured

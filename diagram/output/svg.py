@@ -130,9 +130,8 @@ def _elements(
 ) -> list[Any]:
     """Return the SVG elements of one item (a banded shape gives two)."""
     out = _item_elements(dwg, item, bands, annotate)
-    extra = annotate(item) if annotate is not None else None
-    if extra:
-        out[-1].update(dict(sorted(extra.items())))
+    if not isinstance(item, Text):  # a text is annotated in _text_line, run by run
+        _annotate(out[-1], item, annotate)
     return out
 
 
@@ -146,9 +145,8 @@ def _item_elements(
         el = dwg.g(id=item.id)
         if item.role:
             el["class"] = item.role
-        for child in item.items:
-            for sub in _elements(dwg, child, bands, annotate):
-                el.add(sub)
+        for sub in _children(dwg, item.items, bands, annotate):
+            el.add(sub)
         return [el]
     if isinstance(item, Rect | Polygon):
         out = []
@@ -178,16 +176,109 @@ def _item_elements(
         _paint(el, item.fill, item.stroke, item.stroke_width, ())
         return [el]
     if isinstance(item, Text):
-        el = dwg.text(clean_text(item.text), id=item.id)
-        el.update(
-            {"x": fmt(item.x), "y": fmt(item.y), "font-size": fmt(item.size), "fill": item.fill}
-        )
-        if item.weight is Weight.BOLD:
-            el["font-weight"] = "bold"
-        if item.anchor.value != "start":
-            el["text-anchor"] = item.anchor.value
-        return [el]
+        return [_text_line(dwg, (item,), (), annotate)]
     raise TypeError(f"not a scene item: {item!r}")  # a bug in layout, not a user error
+
+
+# --- lines of text ------------------------------------------------------------------------------
+# A line whose weight or size changes is laid out as several Texts, each placed where the one
+# before it ends (plus the spaces between words). Written as one <text> of <tspan>s with no x of
+# their own, each run follows on from the one before in whatever font the viewer uses, so a
+# substituted font changes the line's length but never opens a gap inside it. xml:space keeps a
+# run's leading spaces (librsvg drops them otherwise).
+_FOLLOW_TOLERANCE_PT = 0.01
+_MOST_SPACES = 5  # the header's fields are five spaces apart
+
+
+def _children(
+    dwg: svgwrite.Drawing,
+    items: Sequence[Item],
+    bands: Mapping[str, BandStyle],
+    annotate: Annotate | None,
+) -> list[Any]:
+    """Return the elements of ``items`` in order, runs of one line joined into one ``<text>``."""
+    out: list[Any] = []
+    line: list[Text] = []
+    spaces: list[tuple[int, int]] = []  # (trailing, leading) between each run and the next
+    for item in items:
+        if isinstance(item, Text) and line and (joined := _join(line[-1], item)) is not None:
+            line.append(item)
+            spaces.append(joined)
+            continue
+        if line:
+            out.append(_text_line(dwg, line, spaces, annotate))
+            line, spaces = [], []
+        if isinstance(item, Text) and item.anchor.value == "start":
+            line = [item]
+        else:
+            out += _elements(dwg, item, bands, annotate)
+    if line:
+        out.append(_text_line(dwg, line, spaces, annotate))
+    return out
+
+
+def _space(run: Text) -> float:
+    from diagram.drawing.textmetrics import text_width
+
+    return text_width(" ", run.size, run.weight is Weight.BOLD)
+
+
+def _join(before: Text, after: Text) -> tuple[int, int] | None:
+    """Return how many spaces end ``before`` and begin ``after`` when ``after`` follows on from
+    ``before`` on its line (up to five in all, each in its run's own font), else None."""
+    from diagram.drawing.textmetrics import text_width
+
+    if after.anchor.value != "start" or after.y != before.y:
+        return None
+    end = before.x + text_width(clean_text(before.text), before.size, before.weight is Weight.BOLD)
+    gap = after.x - end
+    for trailing in range(_MOST_SPACES + 1):
+        for leading in range(_MOST_SPACES + 1 - trailing):
+            spaces = trailing * _space(before) + leading * _space(after)
+            if abs(gap - spaces) <= _FOLLOW_TOLERANCE_PT:
+                return trailing, leading
+    return None
+
+
+def _text_line(
+    dwg: svgwrite.Drawing,
+    runs: Sequence[Text],
+    spaces: Sequence[tuple[int, int]],
+    annotate: Annotate | None,
+) -> Any:
+    """Return one ``<text>`` for a line: a lone run carries its own font, several are tspans
+    (``spaces`` says how many spaces end each run and begin the next)."""
+    first = runs[0]
+    if len(runs) == 1:
+        el = dwg.text(clean_text(first.text), id=first.id)
+        el.update({"x": fmt(first.x), "y": fmt(first.y)})
+        _font_attrs(el, first)
+        if first.anchor.value != "start":
+            el["text-anchor"] = first.anchor.value
+        _annotate(el, first, annotate)
+        return el
+    el = dwg.text("", id=make_id(first.id, "line"))
+    el.update({"x": fmt(first.x), "y": fmt(first.y), "xml:space": "preserve"})
+    for i, run in enumerate(runs):
+        lead = spaces[i - 1][1] if i else 0
+        trailing = spaces[i][0] if i < len(spaces) else 0
+        span = dwg.tspan(" " * lead + clean_text(run.text) + " " * trailing, id=run.id)
+        _font_attrs(span, run)
+        _annotate(span, run, annotate)
+        el.add(span)
+    return el
+
+
+def _font_attrs(el: Any, run: Text) -> None:
+    el.update({"font-size": fmt(run.size), "fill": run.fill})
+    if run.weight is Weight.BOLD:
+        el["font-weight"] = "bold"
+
+
+def _annotate(el: Any, item: Item, annotate: Annotate | None) -> None:
+    extra = annotate(item) if annotate is not None else None
+    if extra:
+        el.update(dict(sorted(extra.items())))
 
 
 def _text_chars(scene: Scene) -> tuple[set[str], set[str]]:
@@ -244,9 +335,8 @@ def _render_page(scene: Scene, annotate: Annotate | None) -> str:
     sheet = dwg.g(id="sheet")
     sheet["font-family"] = family_list(scene.font_family)
     bands = {band.id: band for band in scene.bands}
-    for item in scene.items:
-        for el in _elements(dwg, item, bands, annotate):
-            sheet.add(el)
+    for el in _children(dwg, scene.items, bands, annotate):
+        sheet.add(el)
     dwg.add(sheet)
     return '<?xml version="1.0" encoding="utf-8"?>\n' + str(dwg.tostring()) + "\n"
 

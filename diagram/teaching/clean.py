@@ -19,6 +19,7 @@ from xml.sax.saxutils import escape, quoteattr
 from diagram.teaching.categories import Category
 
 _SVG_NS = "{http://www.w3.org/2000/svg}"
+_XML_SPACE = "{http://www.w3.org/XML/1998/namespace}space"
 _NUM = r"-?(?:\d+(?:\.\d*)?|\.\d+)(?:e-?\d+)?"
 _LENGTH = rf"{_NUM}(?:mm|cm|in|pt|px|%)?"
 _COLOUR = r"none|currentColor|#[0-9a-fA-F]{3,8}|[a-z]{3,20}"
@@ -50,6 +51,7 @@ _ATTRS: Mapping[str, str] = {
     "patternContentUnits": "userSpaceOnUse|objectBoundingBox",
     "viewBox": rf"{_NUM}(?:[\s,]+{_NUM}){{3}}",
     "version": r"1\.1",
+    "xml:space": "preserve|default",  # a line of text keeps the spaces between its runs
 }
 _FORMS = {name: re.compile(form) for name, form in _ATTRS.items()}
 # drawing elements kept; anything else (title, desc, metadata, foreign content) is dropped
@@ -121,6 +123,8 @@ def _write(el: Element, ids: Mapping[str, str], out: list[str]) -> None:
     if tag == "pattern" and el.get("id") in ids:
         attrs["id"] = ids[el.get("id", "")]
     for name, value in el.attrib.items():
+        if name == _XML_SPACE:
+            name = "xml:space"
         form = _FORMS.get(name)
         if form is None:
             continue  # not on the list: ids, classes, data-*, namespaced attributes

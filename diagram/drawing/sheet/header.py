@@ -64,6 +64,9 @@ def _title_line(
     return items, baseline + desc + 2
 
 
+_GAP = " " * 5
+
+
 def _fields(
     rows: Sequence[Sequence[tuple[str, str | None]]], style: Style, x0: float, x1: float, y: float
 ) -> tuple[list[Item], float]:
@@ -103,7 +106,12 @@ def _fields(
                     fill=style.text_ink,
                 )
             )
-            x += name_w + text_width(shown, style.header_pt, True) + 14
+            # five spaces to the next field, so that the row is one line of text in the SVG
+            x += (
+                name_w
+                + text_width(shown, style.header_pt, True)
+                + text_width(_GAP, style.header_pt)
+            )
         y += line_h
     return items, y
 

@@ -283,6 +283,12 @@
     const limb = limbOf(side, false) || {};
     (limb.stents || []).forEach((stent, i) => box.append(deviceNode("stents", side, i)));
     (limb.grafts || []).forEach((graft, i) => box.append(deviceNode("grafts", side, i)));
+    if (!box.children.length) {
+      const none = document.createElement("p");
+      none.className = "hint";
+      none.textContent = `No stent or graft recorded in the ${side} leg.`;
+      box.append(none);
+    }
     showDeviceResults();
   }
 
@@ -601,6 +607,12 @@
     if ((event.ctrlKey || event.metaKey) && event.key.toLowerCase() === "s") {
       event.preventDefault();
       if (state.isNew) saveAs(); else save();
+      return;
+    }
+    if (event.altKey && event.key.toLowerCase() === "d") {
+      event.preventDefault();  // to the stents and grafts of this leg: their first field
+      const first = $("#device-list select, #device-list input") || $('[data-action="add-stent"]');
+      first.focus();
       return;
     }
     if (event.altKey && event.key.toLowerCase() === "l") {
