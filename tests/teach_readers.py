@@ -26,13 +26,16 @@ def pdf_text(path: Path) -> str:
     cmd = ["pdftotext", "-layout", str(path), "-"]
     text = subprocess.run(cmd, check=True, capture_output=True, text=True).stdout
     info = subprocess.run(["pdfinfo", str(path)], check=True, capture_output=True, text=True)
-    for key in ("Producer", "Creator", "CreationDate", "ModDate", "Author", "Title"):
+    for key in ("Producer", "Creator", "CreationDate", "ModDate", "Author", "Subject", "Keywords"):
         assert f"\n{key}:" not in "\n" + info.stdout, key
+    # the one entry left: the fixed title, which names no patient, lab, place or date
+    assert re.search(r"^Title:\s+Lower-limb arterial duplex · teaching case$", info.stdout, re.M)
     assert "Metadata Stream: no" in info.stdout
     from pypdf import PdfReader
 
     reader = PdfReader(io.BytesIO(path.read_bytes()))
-    assert not reader.metadata and reader.xmp_metadata is None
+    assert reader.metadata == {"/Title": "Lower-limb arterial duplex · teaching case"}
+    assert reader.xmp_metadata is None
     return text + "\n" + "\n".join(page.extract_text() for page in reader.pages)
 
 

@@ -25,6 +25,7 @@ from typing import Any
 import pytest
 
 from diagram.cli.main import main
+from tests.batch_signals import interrupt_after_first_map
 from tests.benchmarks.generate import write_studies
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -270,18 +271,8 @@ def test_an_interrupted_cluster_batch_cancels_and_still_writes_the_manifest(
         text=True,
         start_new_session=True,
     )
-    try:
-        end = time.monotonic() + WAIT_SECONDS
-        while not (out.is_dir() and any(p.suffix == ".pdf" for p in out.iterdir())):
-            assert proc.poll() is None, f"ended before the first map: {proc.communicate()}"
-            assert time.monotonic() < end, "no map within the time limit"
-            time.sleep(0.02)
-        os.killpg(proc.pid, signal.SIGINT)  # Ctrl-C in a terminal
-        _, err = proc.communicate(timeout=WAIT_SECONDS)
-    finally:
-        if proc.poll() is None:
-            os.killpg(proc.pid, signal.SIGKILL)
-            proc.communicate()
+    # Ctrl-C in a terminal: SIGINT to the whole group
+    err = interrupt_after_first_map(proc, out, signal.SIGINT, whole_group=True, wait=WAIT_SECONDS)
     assert proc.returncode == 130, err
     assert "Traceback" not in err, err
     summary = re.fullmatch(

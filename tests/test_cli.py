@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import shutil
 import subprocess
 import sys
 from pathlib import Path
@@ -195,3 +196,25 @@ def test_check_json_prints_the_bytes_draw_writes(
     assert not done.value.code
     assert printed == out.read_bytes()
     assert printed.endswith(b"}\n") and b"\\u2014" not in printed  # UTF-8, not escapes
+
+
+def test_check_json_of_several_studies_is_utf8_like_one(
+    tmp_path: Path, capsysbinary: pytest.CaptureFixture[bytes]
+) -> None:
+    names = ("claudicant-sfa.yaml", "clti-multilevel.yaml")
+    for name in names:
+        shutil.copy(ROOT / "examples" / name, tmp_path / name)
+    with pytest.raises(SystemExit) as done:
+        main(["check", "--json", str(tmp_path)])
+    assert not done.value.code
+    printed = capsysbinary.readouterr().out
+    assert b"\\u00b7" not in printed and b"\\u2014" not in printed  # no ASCII escapes
+    assert "\u2014".encode() in printed and printed.endswith(b"]\n")  # an em dash, as UTF-8
+    singles = []
+    for name in names:
+        with pytest.raises(SystemExit):
+            main(["check", "--json", str(tmp_path / name)])
+        singles.append(json.loads(capsysbinary.readouterr().out.decode("utf-8")))
+    docs = json.loads(printed.decode("utf-8"))
+    assert [d["input"] for d in docs] == [str(tmp_path / n) for n in names]
+    assert [d["results"] for d in docs] == singles

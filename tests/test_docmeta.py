@@ -136,8 +136,8 @@ def test_png_with_dpi_replaces_an_old_phys_chunk() -> None:
     assert out.count(b"pHYs") == 1
 
 
-def test_a_teaching_pdf_carries_no_document_metadata_at_all(tmp_path: Path) -> None:
-    """No Title either: the teaching leak scan refuses any Info entry, whatever it says."""
+def test_a_teaching_pdf_carries_only_the_fixed_title(tmp_path: Path) -> None:
+    """One Info entry, a title that names no lab: the leak scan refuses any other entry."""
     import io
 
     from pypdf import PdfReader
@@ -147,8 +147,10 @@ def test_a_teaching_pdf_carries_no_document_metadata_at_all(tmp_path: Path) -> N
 
     files = render_case(load_study(EXAMPLE), new_case_id(), CaseSettings(formats=("pdf",))).files
     pdf = next(data for name, data in files.items() if str(name).endswith(".pdf"))
-    assert not PdfReader(io.BytesIO(pdf)).metadata
-    for key in (b"/Title", b"/Producer", b"/CreationDate"):
+    meta = PdfReader(io.BytesIO(pdf)).metadata
+    assert meta == {"/Title": "Lower-limb arterial duplex · teaching case"}
+    assert pdf.count(b"/Title") == 1
+    for key in (b"/Producer", b"/CreationDate", b"/ModDate", b"/Creator"):
         assert key not in pdf
     if shutil.which("qpdf"):
         path = tmp_path / "case.pdf"

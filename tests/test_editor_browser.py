@@ -385,6 +385,8 @@ def test_edit_a_graft_and_a_stent_the_map_redraws_and_save_keeps_the_comments(
         psv.send_keys(Keys.CONTROL, "a")
         psv.send_keys("150")
         wait(browser, lambda d: not graft_fill(d, "distal_anastomosis").endswith("highest)"))
+        note = browser.find_element(By.CSS_SELECTOR, GRAFT_SITE.format(site="mid", field="comment"))
+        note.send_keys("valve site")
         band = wait(
             browser,
             lambda d: d.find_element(
@@ -453,6 +455,7 @@ def test_edit_a_graft_and_a_stent_the_map_redraws_and_save_keeps_the_comments(
             "      - {from: SFA-M, to: SFA-D, from_cm: 4, length_cm: 12}",
             "      - {from: SFA-M, to: POP-AK, from_cm: 4, length_cm: 25}",
         ),
+        ("          mid: {psv: 44}", "          mid: {psv: 44, comment: valve site}"),
         (
             "          distal_anastomosis: {psv: 325, edv: 60}",
             "          distal_anastomosis: {psv: 150, edv: 60}",
@@ -461,4 +464,5 @@ def test_edit_a_graft_and_a_stent_the_map_redraws_and_save_keeps_the_comments(
     saved = load_study(study_file)
     assert saved.limbs[Side.RIGHT].stents[0].to == "POP-AK"
     assert saved.limbs[Side.LEFT].grafts[0].samples["distal_anastomosis"].psv == 150
+    assert saved.limbs[Side.LEFT].grafts[0].samples["mid"].comment == "valve site"
     assert assess_file(study_file).limbs[Side.LEFT].grafts[0].band == band

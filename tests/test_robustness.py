@@ -28,6 +28,7 @@ import pytest
 from diagram.cli.main import main
 from diagram.errors import ExportError
 from diagram.output.export import write_atomic
+from tests.batch_signals import interrupt_after_first_map
 from tests.benchmarks.generate import write_studies
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -107,21 +108,7 @@ def test_an_interrupted_batch_leaves_complete_files_and_a_summary(
     proc = limbchart(
         "draw", str(forty_studies), "-o", f"{out}/", "--jobs", "2", start_new_session=True
     )
-    try:
-        end = time.monotonic() + WAIT_SECONDS
-        while not (out.is_dir() and any(p.suffix == ".pdf" for p in out.iterdir())):
-            assert proc.poll() is None, f"ended before the first map: {proc.communicate()}"
-            assert time.monotonic() < end, "no map within the time limit"
-            time.sleep(0.02)
-        if whole_group:
-            os.killpg(proc.pid, signum)
-        else:
-            os.kill(proc.pid, signum)
-        _, err = proc.communicate(timeout=WAIT_SECONDS)
-    finally:
-        if proc.poll() is None:  # a hang: end it and fail below
-            os.killpg(proc.pid, signal.SIGKILL)
-            proc.communicate()
+    err = interrupt_after_first_map(proc, out, signum, whole_group=whole_group, wait=WAIT_SECONDS)
     assert proc.returncode == status, err
     assert "Traceback" not in err and "Exception ignored" not in err, err
     summary = SUMMARY.match(err.splitlines()[-1])

@@ -234,6 +234,66 @@ def test_pdf_info_is_emptied_in_place(tmp_path: Path) -> None:
         strip_pdf_info(raw.replace(b"/Size", b"/Prev 1 /Size"))
 
 
+def _case_pdf_raw() -> bytes:
+    """Return a teaching case's PDF as cairo writes it (Producer, the fixed Title, a date)."""
+    from diagram.output.export import render_bytes
+    from diagram.teaching.case import _case_drawing, deidentify
+
+    case = deidentify(load_study(EXAMPLE), "tc-aaaaa-bbbbb", keep_year=True, keep_text=False)
+    return render_bytes(_case_drawing(case), "pdf")
+
+
+@needs_poppler
+def test_a_teaching_pdf_keeps_only_its_fixed_title(tmp_path: Path) -> None:
+    from pypdf import PdfReader
+
+    from diagram.drawing.sheet.header import TEACHING_TITLE
+
+    out = render_case(load_study(EXAMPLE), new_case_id(), CaseSettings(formats=("pdf",)))
+    assert out.hits == ()
+    (pdf,) = out.files.values()
+    assert b"/Producer" in _case_pdf_raw() and b"/Producer" not in pdf  # what cairo writes
+    reader = PdfReader(io.BytesIO(pdf))
+    assert reader.metadata == {"/Title": "Lower-limb arterial duplex · teaching case"}
+    assert TEACHING_TITLE == "Lower-limb arterial duplex · teaching case"
+    assert reader.xmp_metadata is None
+    (tmp_path / "c.pdf").write_bytes(pdf)
+    info = subprocess.run(["pdfinfo", str(tmp_path / "c.pdf")], capture_output=True, text=True)
+    keys = {line.split(":")[0] for line in info.stdout.splitlines()}
+    assert "Title:           Lower-limb arterial duplex · teaching case" in info.stdout
+    assert not keys & {"Producer", "Creator", "CreationDate", "ModDate", "Author", "Subject"}
+    if shutil.which("qpdf"):
+        check = subprocess.run(["qpdf", "--check", str(tmp_path / "c.pdf")], capture_output=True)
+        assert check.returncode == 0, check.stdout
+
+
+def test_the_scan_accepts_the_fixed_title_and_no_other_metadata() -> None:
+    from pypdf import PdfReader, PdfWriter
+
+    from diagram.drawing.sheet.header import TEACHING_TITLE
+    from diagram.teaching.categories import Category
+    from diagram.teaching.clean import CleanError, strip_pdf_info
+    from diagram.teaching.scan import read_pdf
+
+    raw = _case_pdf_raw()
+    fixed = strip_pdf_info(raw, title=TEACHING_TITLE)
+    assert read_pdf(fixed, text=False).refused == frozenset()
+    assert read_pdf(strip_pdf_info(raw), text=False).refused == frozenset()  # none at all
+    refused = frozenset({Category.METADATA})
+    assert read_pdf(raw, text=False).refused == refused  # cairo's Producer and date
+    other = strip_pdf_info(raw, title="Lower-limb arterial duplex · Ada Demo")
+    assert read_pdf(other, text=False).refused == refused  # a title, but not the fixed one
+    elsewhere = fixed.replace(b"%%EOF", b"%/Title (Ada Demo)\n%%EOF")  # a second /Title
+    assert read_pdf(elsewhere, text=False).refused == refused
+    writer = PdfWriter(clone_from=PdfReader(io.BytesIO(fixed)))
+    writer.add_metadata({"/Title": TEACHING_TITLE, "/Author": "Ada Demo"})
+    buf = io.BytesIO()
+    writer.write(buf)
+    assert read_pdf(buf.getvalue(), text=False).refused == refused
+    with pytest.raises(CleanError, match="no room for the fixed title"):
+        strip_pdf_info(raw, title="x" * 400)
+
+
 def test_png_keeps_image_chunks_only() -> None:
     from PIL import Image, PngImagePlugin
 
@@ -445,7 +505,7 @@ def test_sources_inside_the_output_folder_are_refused(
 def test_metadata_left_in_a_pdf_is_caught(monkeypatch: pytest.MonkeyPatch) -> None:
     import diagram.teaching.clean
 
-    monkeypatch.setattr(diagram.teaching.clean, "strip_pdf_info", lambda pdf: pdf)
+    monkeypatch.setattr(diagram.teaching.clean, "strip_pdf_info", lambda pdf, **_: pdf)
     out = render_case(load_study(EXAMPLE), new_case_id(), CaseSettings(formats=("pdf",)))
     assert {(str(h.category), h.output) for h in out.hits} >= {("document-metadata", "pdf")}
 
@@ -454,6 +514,7 @@ def test_metadata_left_in_a_pdf_is_caught(monkeypatch: pytest.MonkeyPatch) -> No
 def test_the_case_pdf_is_painted_from_its_scene_with_the_svg_words(tmp_path: Path) -> None:
     """The PDF comes from the case's de-identified Scene (cairo), not from its SVG text, and
     says the same words as the allow-listed SVG converted by CairoSVG (poppler's pdftotext)."""
+    from diagram.drawing.sheet.header import TEACHING_TITLE
     from diagram.output.export import ExportOptions, render_bytes
     from diagram.teaching.case import _case_drawing, deidentify
     from diagram.teaching.clean import strip_pdf_info
@@ -465,7 +526,8 @@ def test_the_case_pdf_is_painted_from_its_scene_with_the_svg_words(tmp_path: Pat
     (pdf,) = out.files.values()
     painted = render_bytes(drawing, "pdf")
     converted = render_bytes(drawing, "pdf", ExportOptions(renderer="cairosvg"))
-    assert pdf == strip_pdf_info(painted) != strip_pdf_info(converted)
+    assert pdf == strip_pdf_info(painted, title=TEACHING_TITLE)
+    assert pdf != strip_pdf_info(converted, title=TEACHING_TITLE)
     words = []
     for name, data in (("case", pdf), ("painted", painted), ("converted", converted)):
         (tmp_path / f"{name}.pdf").write_bytes(data)

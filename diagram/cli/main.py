@@ -57,8 +57,6 @@ def check(
     several studies each is headed by its file; a study with problems is reported and the rest
     are checked (exit status 2). --json prints the results document (a list for several).
     """
-    import json
-
     from diagram.batch.run import expand_inputs
     from diagram.errors import DiagramError
     from diagram.output.results import results_document, results_json, results_table
@@ -92,8 +90,8 @@ def check(
         else:
             click.echo(printable(f"== {path}"))
             click.echo(results_table(assessment) + "\n")
-    if as_json:
-        click.echo(json.dumps(documents, indent=2))
+    if as_json:  # UTF-8 as one study's document is (results_json)
+        click.get_binary_stream("stdout").write(results_json(documents))
     else:
         click.echo(CAUTION)
     if failed:

@@ -202,8 +202,10 @@ def results_document(
     return doc
 
 
-def results_json(doc: dict[str, Any]) -> bytes:
+def results_json(doc: dict[str, Any] | list[dict[str, Any]]) -> bytes:
     """Return the bytes of a results file: ``check --json`` prints what ``-o x.json`` writes.
+
+    The list ``check --json`` prints for several studies is written the same way.
 
     UTF-8, two-space indent, one final newline. A lone surrogate (from a JSON study's
     ``"\\ud800"`` escape) is no UTF-8 character: then every non-ASCII character is written as a

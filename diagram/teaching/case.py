@@ -318,6 +318,7 @@ def _encode(
     text, its PDF, PNG and DICOM are the same bytes (each is made from the pages alone), so
     they are taken from there instead of being rendered again.
     """
+    from diagram.drawing.sheet.header import TEACHING_TITLE
     from diagram.output.export import ExportOptions, render_bytes
     from diagram.teaching.clean import clean_png, clean_svg, strip_pdf_info, teaching_dicom
 
@@ -335,7 +336,7 @@ def _encode(
         assert drawing is not None  # todo lists drawn formats only
         pdf = b""
         if {"pdf", "dcm"} & set(todo):
-            pdf = strip_pdf_info(render_bytes(drawing, "pdf"))
+            pdf = strip_pdf_info(render_bytes(drawing, "pdf"), title=TEACHING_TITLE)
         for fmt in todo:
             if fmt == "svg":  # several pages are stacked into one picture: allow-listed again
                 data[fmt] = clean_svg(render_bytes(drawing, "svg").decode("utf-8")).encode("utf-8")

@@ -1,5 +1,6 @@
-"""Teaching outputs without document metadata: SVG from an allow-list, PDF without its Info
-dictionary, PNG without ancillary text chunks, DICOM per the basic confidentiality profile.
+"""Teaching outputs without document metadata: SVG from an allow-list, PDF with an Info
+dictionary of one fixed title, PNG without ancillary text chunks, DICOM per the basic
+confidentiality profile.
 
 Each cleaner refuses (:class:`CleanError`) rather than guesses when a document is not shaped as
 expected: an unknown attribute value in the SVG, an incremental update or an XMP packet in the
@@ -154,13 +155,21 @@ _TRAILER = re.compile(rb"trailer\s*<<(?P<body>.*?)>>\s*startxref\s*\d+\s*%%EOF\s
 _INFO_REF = re.compile(rb"/Info\s+(\d+)\s+(\d+)\s+R")
 
 
-def strip_pdf_info(pdf: bytes) -> bytes:
-    """Return the PDF with its Info dictionary (cairo's /Producer and /CreationDate) emptied.
+def pdf_title_entry(title: str) -> bytes:
+    """Return ``/Title <…>``: the title as UTF-16BE with its byte-order mark, in hex (PDF 1.7,
+    7.9.2.2), the form cairo writes."""
+    return b"/Title <" + ("\ufeff" + title).encode("utf-16-be").hex().upper().encode() + b">"
+
+
+def strip_pdf_info(pdf: bytes, *, title: str | None = None) -> bytes:
+    """Return the PDF with its Info dictionary (cairo's /Producer, /Title, dates) emptied.
 
     The dictionary's bytes are overwritten in place by an empty dictionary padded with spaces,
     and the trailer's /Info entry by spaces, so that every offset in the cross-reference table
-    still holds: nothing else in the file is rewritten. A PDF with an XMP packet, a
-    cross-reference stream or an incremental update is refused, not guessed at.
+    still holds: nothing else in the file is rewritten. With ``title`` the dictionary keeps that
+    one entry (a fixed title that names nobody) and the trailer its /Info entry; a dictionary
+    too short to hold it is refused. A PDF with an XMP packet, a cross-reference stream or an
+    incremental update is refused, not guessed at.
     """
     for marker, what in (
         (b"/Metadata", "an XMP metadata stream"),
@@ -188,11 +197,14 @@ def strip_pdf_info(pdf: bytes) -> bytes:
     if first < 0 or last < first or body[:first].strip() or b"stream" in body:
         raise CleanError("pdf", "the PDF's Info object is not a plain dictionary")
     span = last + 2 - first
-    blank = b"<<>>" + b" " * (span - 4)
+    kept = b"<< " + pdf_title_entry(title) + b" >>" if title is not None else b"<<>>"
+    if len(kept) > span:
+        raise CleanError("pdf", "the PDF's Info dictionary has no room for the fixed title")
     out = bytearray(pdf)
-    out[start + first : start + first + span] = blank
-    a = trailer.start("body") + ref.start()
-    out[a : a + len(ref.group(0))] = b" " * len(ref.group(0))
+    out[start + first : start + first + span] = kept + b" " * (span - len(kept))
+    if title is None:
+        a = trailer.start("body") + ref.start()
+        out[a : a + len(ref.group(0))] = b" " * len(ref.group(0))
     return bytes(out)
 
 

@@ -6,8 +6,9 @@ including the encapsulated PDF, the YAML's raw text and every string in it, and 
 What is found is counted with :func:`diagram.teaching.evidence.evidence`, which shares no code
 with the scrubber. The same case is drawn a second time with a neutral dummy identity; a finding
 is evidence of a leak only where the real outputs hold it more often than the dummy's (the
-sheet's own words, legend, citations and markup are in both). Document metadata, a date element
-in the DICOM file and the source's Study Instance UID are refused outright. A hit names the
+sheet's own words, legend, citations and markup are in both). Document metadata (a PDF's one
+fixed teaching title aside), a date element in the DICOM file and the source's Study Instance UID
+are refused outright. A hit names the
 category and the output only, never the value.
 """
 
@@ -23,14 +24,14 @@ from diagram.teaching.categories import Category
 from diagram.teaching.clean import PNG_CHUNKS_KEPT, CleanError, png_chunks
 from diagram.teaching.evidence import Needles, evidence
 
-# keys of a PDF Info dictionary or XMP packet: none may be left in a teaching PDF
+# keys of a PDF Info dictionary or XMP packet: none may be left in a teaching PDF, but for one
+# /Title that says exactly the fixed teaching title (anywhere else a /Title could name someone)
 _PDF_METADATA_KEYS = (
     b"/Producer",
     b"/Creator",
     b"/CreationDate",
     b"/ModDate",
     b"/Author",
-    b"/Title",
     b"/Subject",
     b"/Keywords",
     b"/Metadata",
@@ -79,10 +80,15 @@ def read_svg(svg: bytes) -> Reading:
 def _pdf_refusals(pdf: bytes) -> frozenset[Category]:
     from pypdf import PdfReader
 
-    if any(key in pdf for key in _PDF_METADATA_KEYS):
+    from diagram.drawing.sheet.header import TEACHING_TITLE
+
+    if any(key in pdf for key in _PDF_METADATA_KEYS) or pdf.count(b"/Title") > 1:
         return frozenset({Category.METADATA})
     reader = PdfReader(io.BytesIO(pdf))
-    if reader.metadata or reader.xmp_metadata is not None:
+    info = {str(k): str(v) for k, v in (reader.metadata or {}).items()}
+    if info not in ({}, {"/Title": TEACHING_TITLE}) or reader.xmp_metadata is not None:
+        return frozenset({Category.METADATA})
+    if b"/Title" in pdf and not info:  # a /Title that is not the document's
         return frozenset({Category.METADATA})
     return frozenset()
 

@@ -16,6 +16,8 @@ from diagram.drawing.style import Style
 from diagram.drawing.textmetrics import ellipsize, line_extents, text_width
 
 KIND = "Lower-limb arterial duplex"
+# A teaching document's only metadata: fixed, so it names no patient, lab, place or date.
+TEACHING_TITLE = f"{KIND} · teaching case"
 
 
 def sheet_title(assessment: Assessment, style: Style, case: CaseHeader | None) -> str:
@@ -25,7 +27,7 @@ def sheet_title(assessment: Assessment, style: Style, case: CaseHeader | None) -
     that it is one).
     """
     if case is not None:
-        return f"{KIND} · teaching case"
+        return TEACHING_TITLE
     lab = style.lab_name or assessment.study.exam.site
     return f"{KIND} · {lab}" if lab else KIND
 
