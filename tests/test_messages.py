@@ -13,7 +13,8 @@ from pathlib import Path
 import pytest
 
 from diagram import anatomy
-from diagram.cli.main import FORMATS, main
+from diagram.cli.draw import FORMATS
+from diagram.cli.main import main
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLES = ROOT / "examples"

@@ -112,6 +112,57 @@ def _applies(presentation: Presentation | None, low: list[str]) -> tuple[bool, s
     return False, "not marked CLTI and no pressure in the CLTI range: WIfI grades CLTI limbs"
 
 
+def _abi(
+    limb: LimbPressures, ankle: float | None, brachial: float | None, arm_note: str
+) -> tuple[float | None, str | None, str | None, str]:
+    """Return the leg's ABI, its 2016 AHA/ACC category, its severity and its basis."""
+    abi = _index(ankle, brachial)
+    if limb.noncompressible:  # 2016 AHA/ACC: a noncompressible ankle artery gives no ABI; use TBI
+        named = " and ".join(v.upper() for v in limb.noncompressible)
+        return None, "noncompressible", None, f"{named} noncompressible (recorded): no ABI"
+    if abi is not None and ankle is not None and brachial is not None:
+        category = abi_category(abi)
+        severity = None
+        if category == "abnormal":
+            severity = "severe" if abi <= ABI_SEVERE_MAX else "mild-moderate"
+        which = "PT" if limb.pt == ankle else "DP"
+        return abi, category, severity, f"{which} {ankle:g} / brachial {brachial:g} mmHg{arm_note}"
+    return abi, None, None, "no ankle pressure" if ankle is None else "no usable brachial pressure"
+
+
+def _tbi(
+    limb: LimbPressures, brachial: float | None, arm_note: str
+) -> tuple[float | None, str | None, str]:
+    """Return the leg's TBI, its category and its basis."""
+    tbi = _index(limb.toe, brachial)
+    if tbi is not None and limb.toe is not None and brachial is not None:
+        category = "abnormal" if tbi <= TBI_ABNORMAL_MAX else "normal"
+        return tbi, category, f"toe {limb.toe:g} / brachial {brachial:g} mmHg{arm_note}"
+    return tbi, None, "no toe pressure" if limb.toe is None else "no usable brachial pressure"
+
+
+def _ischaemia(
+    limb: LimbPressures, abi: float | None, ankle: float | None, reliable_ankle: bool
+) -> tuple[int | None, str]:
+    """Return the WIfI ischaemia grade (the worst of the measures given) and its basis."""
+    grades: list[tuple[int, str]] = []
+    if abi is not None and reliable_ankle:
+        grades.append((_grade(abi, WIFI_ABI, strict_first=False), f"ABI {abi:.2f}"))
+    if ankle is not None and reliable_ankle:
+        grades.append((_grade(ankle, WIFI_ANKLE, strict_first=True), f"ankle {ankle:g} mmHg"))
+    if limb.toe is not None:
+        grades.append((_grade(limb.toe, WIFI_TOE, strict_first=False), f"toe {limb.toe:g} mmHg"))
+    if limb.tcpo2 is not None:
+        grade_t = _grade(limb.tcpo2, WIFI_TCPO2, strict_first=False)
+        grades.append((grade_t, f"TcPO2 {limb.tcpo2:g} mmHg"))
+    if not grades:
+        return None, "no ankle or toe pressure"
+    basis = "worst of " + ", ".join(f"{b} (grade {g})" for g, b in grades)
+    if not reliable_ankle:
+        basis += "; ankle pressure not used (noncompressible)"
+    return max(g for g, _ in grades), basis
+
+
 def limb_indices(
     pressures: Pressures, side: Side, presentation: Presentation | None = None
 ) -> LimbIndices:
@@ -126,50 +177,9 @@ def limb_indices(
     ankles = [p for p in (limb.pt, limb.dp) if p is not None]
     ankle = max(ankles) if ankles else None
     arm_note = "" if len(arms) == 2 else " (one arm measured)"
-
-    abi = _index(ankle, brachial)
-    category = severity = None
-    if limb.noncompressible:  # 2016 AHA/ACC: a noncompressible ankle artery gives no ABI; use TBI
-        abi, category = None, "noncompressible"
-        named = " and ".join(v.upper() for v in limb.noncompressible)
-        abi_basis = f"{named} noncompressible (recorded): no ABI"
-    elif abi is not None and ankle is not None and brachial is not None:
-        category = abi_category(abi)
-        if category == "abnormal":
-            severity = "severe" if abi <= ABI_SEVERE_MAX else "mild-moderate"
-        which = "PT" if limb.pt == ankle else "DP"
-        abi_basis = f"{which} {ankle:g} / brachial {brachial:g} mmHg{arm_note}"
-    elif ankle is None:
-        abi_basis = "no ankle pressure"
-    else:
-        abi_basis = "no usable brachial pressure"
-
-    tbi = _index(limb.toe, brachial)
-    tbi_category = None
-    if tbi is not None and limb.toe is not None and brachial is not None:
-        tbi_category = "abnormal" if tbi <= TBI_ABNORMAL_MAX else "normal"
-        tbi_basis = f"toe {limb.toe:g} / brachial {brachial:g} mmHg{arm_note}"
-    else:
-        tbi_basis = "no toe pressure" if limb.toe is None else "no usable brachial pressure"
-
-    reliable_ankle = category != "noncompressible"
-    grades: list[tuple[int, str]] = []
-    if abi is not None and reliable_ankle:
-        grades.append((_grade(abi, WIFI_ABI, strict_first=False), f"ABI {abi:.2f}"))
-    if ankle is not None and reliable_ankle:
-        grades.append((_grade(ankle, WIFI_ANKLE, strict_first=True), f"ankle {ankle:g} mmHg"))
-    if limb.toe is not None:
-        grades.append((_grade(limb.toe, WIFI_TOE, strict_first=False), f"toe {limb.toe:g} mmHg"))
-    if limb.tcpo2 is not None:
-        grade_t = _grade(limb.tcpo2, WIFI_TCPO2, strict_first=False)
-        grades.append((grade_t, f"TcPO2 {limb.tcpo2:g} mmHg"))
-    if grades:
-        grade = max(g for g, _ in grades)
-        ischaemia_basis = "worst of " + ", ".join(f"{b} (grade {g})" for g, b in grades)
-        if not reliable_ankle:
-            ischaemia_basis += "; ankle pressure not used (noncompressible)"
-    else:
-        grade, ischaemia_basis = None, "no ankle or toe pressure"
+    abi, category, severity, abi_basis = _abi(limb, ankle, brachial, arm_note)
+    tbi, tbi_category, tbi_basis = _tbi(limb, brachial, arm_note)
+    grade, ischaemia_basis = _ischaemia(limb, abi, ankle, category != "noncompressible")
     applies, context = _applies(presentation, clti_range(abi, category, ankle, limb))
     return LimbIndices(
         side,
@@ -190,32 +200,37 @@ def limb_indices(
     )
 
 
+def _arm_difference(pressures: Pressures) -> list[Finding]:
+    """Return the warning on the two arms' systolic pressures differing, if they do."""
+    r, left = pressures.brachial_right, pressures.brachial_left
+    if r is None or left is None:
+        return []
+    diff = abs(r - left)
+    if diff >= ARM_DIFF_FLAG:
+        return [
+            Finding(
+                "arm-difference",
+                None,
+                None,
+                f"brachial pressures differ by {diff:g} mmHg (>= 15): possible "
+                "subclavian stenosis; the ABI uses the higher arm.",
+            )
+        ]
+    if diff >= ARM_DIFF_NOTE:
+        return [
+            Finding(
+                "arm-difference-minor",
+                None,
+                None,
+                f"brachial pressures differ by {diff:g} mmHg (>= 10); the ABI uses the higher arm.",
+            )
+        ]
+    return []
+
+
 def pressure_findings(pressures: Pressures, indices: dict[Side, LimbIndices]) -> list[Finding]:
     """Return warnings: arm difference, noncompressible vessels, CLTI-range pressures."""
-    out: list[Finding] = []
-    r, left = pressures.brachial_right, pressures.brachial_left
-    if r is not None and left is not None:
-        diff = abs(r - left)
-        if diff >= ARM_DIFF_FLAG:
-            out.append(
-                Finding(
-                    "arm-difference",
-                    None,
-                    None,
-                    f"brachial pressures differ by {diff:g} mmHg (>= 15): possible "
-                    "subclavian stenosis; the ABI uses the higher arm.",
-                )
-            )
-        elif diff >= ARM_DIFF_NOTE:
-            out.append(
-                Finding(
-                    "arm-difference-minor",
-                    None,
-                    None,
-                    f"brachial pressures differ by {diff:g} mmHg (>= 10); the ABI "
-                    "uses the higher arm.",
-                )
-            )
+    out = _arm_difference(pressures)
     for side, ix in indices.items():
         if ix.abi_category == "noncompressible":
             found = (

@@ -184,6 +184,7 @@ class SampleGrader:
                 )
             return Graded(rule.id, self.basis_of(crit, rule, sample.psv, vr), vr, vr_source, ref)
         why = walked.blocked if walked is not None else None
+        ratio = (vr, vr_source, ref)
         if given is not None:
             if why:
                 self.note(
@@ -191,9 +192,27 @@ class SampleGrader:
                     segment,
                     f"{what}: no valid velocity ratio: {why}; the band {given} stands as recorded.",
                 )
-            return Graded(given, "as recorded (no valid velocity ratio)", vr, vr_source, ref)
+            return Graded(given, "as recorded (no valid velocity ratio)", *ratio)
         if sample.psv is not None and (lesion or site) and crit.psv_only:
             return self.psv_only(sample, segment, crit, what, why, lesion=lesion, flow=flow)
+        return self.without_ratio(sample, segment, crit, what, why, ratio, lesion=lesion)
+
+    def without_ratio(
+        self,
+        sample: Sample,
+        segment: str,
+        crit: Criteria,
+        what: str,
+        why: str | None,
+        ratio: tuple[float | None, str, Reference | None],
+        *,
+        lesion: bool,
+    ) -> Graded:
+        """Grade a sample with no band from its velocities, none given and no PSV-only rule.
+
+        ``ratio`` is the (Vr, how obtained, reference) the sample has, shown beside the band; a
+        lesion is left not assessed, a segment with nothing against it is normal.
+        """
         if lesion:
             if sample.psv is not None:
                 reason = f": {why}" if why else ""
@@ -203,7 +222,7 @@ class SampleGrader:
                     f"{what}: no valid upstream PSV to compute Vr{reason}; give proximal_psv "
                     "or a band.",
                 )
-            return Graded(NOT_ASSESSED, "no velocity ratio and no band given", vr, vr_source, ref)
+            return Graded(NOT_ASSESSED, "no velocity ratio and no band given", *ratio)
         if not _has_data(sample):
             return Graded(NOT_ASSESSED, "nothing recorded", None, "none", None)
         if sample.waveform is Waveform.ABSENT or sample.flow is Flow.ABSENT:
@@ -212,10 +231,10 @@ class SampleGrader:
                 segment,
                 f"{what}: flow recorded as absent but not marked occluded; left ungraded.",
             )
-            return Graded(NOT_ASSESSED, "absent flow, occlusion not recorded", vr, vr_source, ref)
-        normal = crit.bands[0]
+            return Graded(NOT_ASSESSED, "absent flow, occlusion not recorded", *ratio)
+        vr = ratio[0]
         basis = "no lesion recorded" if vr is None else f"Vr {vr:.2f}, no lesion recorded"
-        return Graded(normal.id, basis, vr, vr_source, ref)
+        return Graded(crit.bands[0].id, basis, *ratio)
 
     def psv_only(
         self,

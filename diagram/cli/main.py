@@ -6,291 +6,33 @@ No domain logic lives here. Heavy libraries are imported by the commands that ne
 
 from __future__ import annotations
 
-import contextlib
 import os
 import signal
 import sys
 import threading
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
 import click
 
 from diagram._version import __version__
 from diagram.caution import CAUTION
 from diagram.cli.design import COMMANDS as DESIGN_COMMANDS
+from diagram.cli.draw import draw
 from diagram.cli.edit import edit
 from diagram.cli.importing import import_report
 from diagram.cli.options import (
-    DEFAULT_DPI,
     STUDIES_METAVAR,
     HintedParameter,
-    check_dpi,
     criteria_option,
-    dpi_option,
-    jobs_option,
-    overwrite_option,
-    page_option,
+    is_study_file,
+    printable,
     prior_option,
-    quiet_option,
-    scheduler_option,
+    show_import_notes,
     target_option,
-    template_option,
 )
 from diagram.cli.segments import segments
 from diagram.cli.teach import teach
-
-if TYPE_CHECKING:
-    from diagram.batch.run import BatchSettings
-    from diagram.drawing.labprofile import LabProfile
-    from diagram.output.export import Renderer
-
-FORMATS = ("svg", "pdf", "png", "dcm", "json", "fhir")
-
-
-@click.command()
-@click.argument(
-    "studies", nargs=-1, required=True, metavar=STUDIES_METAVAR, type=click.Path(path_type=Path)
-)
-@click.option(
-    "-o",
-    "--output",
-    required=True,
-    type=click.Path(),
-    help="Output file (format from its suffix: .svg .pdf .png .dcm .json .fhir.json), or a folder "
-    "(ending in /) for many studies.",
-)
-@click.option(
-    "--format",
-    "formats",
-    multiple=True,
-    type=click.Choice(FORMATS),
-    help="Output format, whatever the suffix; repeat it for several formats in a batch.",
-)
-@page_option
-@template_option
-@click.option(
-    "--lab",
-    type=click.Path(dir_okay=False, path_type=Path),
-    help="A lab profile (YAML): lab name, template, page and band style.",
-)
-@criteria_option
-@dpi_option
-@target_option
-@prior_option
-@jobs_option
-@scheduler_option
-@quiet_option
-@overwrite_option
-@click.option(
-    "--name",
-    "name_pattern",
-    default="map-{n:04d}",
-    show_default=True,
-    help="Output name pattern in a batch; fields {n} (place in the batch), {stem} (the study "
-    "file's name), {folder} (its folder's name), {accession} {patient_id} {exam_date} (these "
-    "three put identifiers in file names).",
-)
-@click.option(
-    "--renderer",
-    type=click.Choice(["cairo", "cairosvg"]),
-    default="cairo",
-    show_default=True,
-    help="How PDF, PNG and DICOM are drawn: cairo paints the sheet directly; cairosvg "
-    "converts its SVG (the slower reference route).",
-)
-def draw(
-    studies: tuple[Path, ...],
-    output: str,
-    formats: tuple[str, ...],
-    page: str | None,
-    template: Path | None,
-    lab: Path | None,
-    criteria: str | None,
-    dpi: float | None,
-    target: str | None,
-    prior: Path | None,
-    jobs: int | None,
-    scheduler: str | None,
-    quiet: bool,
-    overwrite: bool,
-    name_pattern: str,
-    renderer: Renderer,
-) -> None:
-    """Draw the map of each STUDY (a file, a folder of files, or a .txt list of paths).
-
-    One study and a file name write that file. Otherwise -o names a folder (a path ending in /,
-    or an existing folder): every output name is decided before anything is drawn, and a
-    manifest.json there records which study became which file. An existing file is never
-    replaced without --overwrite.
-    """
-    from diagram.output.export import ExportOptions, export, format_for, refuse_existing
-
-    as_folder = output.endswith(("/", os.sep)) or _is_folder(output)
-    single = len(studies) == 1 and _is_study_file(studies[0]) and not as_folder
-    if not as_folder and not single:
-        raise click.UsageError(
-            f"-o {output} is a file name, but the studies given are many (or a folder or a "
-            f"list of them); for many studies give a folder, ending in /: -o {output}/"
-        )
-    if prior is not None and not single:
-        raise click.UsageError("--prior goes with one study; in a batch each study names its own.")
-    if scheduler is not None and (single or jobs is not None):
-        raise click.UsageError(
-            "--scheduler draws a batch (-o a folder) on a Dask cluster, whose workers replace "
-            "--jobs; give one of the two."
-            if not single
-            else "--scheduler draws a batch; for one study give -o a folder, ending in /."
-        )
-    if single and len(formats) > 1:
-        raise click.UsageError("one output file takes one --format; give a folder for more.")
-    chosen = (
-        (format_for(Path(output), formats[0] if formats else None),)  # refuse before any work
-        if single
-        else tuple(dict.fromkeys(formats or ("pdf",)))
-    )
-    check_dpi(dpi, chosen)
-    png_dpi = dpi or DEFAULT_DPI
-    if single:
-        refuse_existing(Path(output), overwrite)
-    profile = None
-    if lab is not None:
-        from diagram.drawing.labprofile import load_lab_profile
-
-        profile = load_lab_profile(lab)
-        _warn_style(profile, lab)
-    page = page or (profile.page if profile and profile.page else "a4")
-    if single:
-        from diagram.inputs import draw_inputs, load_inputs, load_template_for
-        from diagram.reading.load import load_study
-
-        study = load_study(studies[0])
-        _show_import_notes(study.import_notes)
-        if chosen[0] == "dcm" and study.exam.study_uid is None:
-            from diagram.output.dicom import NO_STUDY_UID
-
-            click.echo(_printable(f"{studies[0]}: warning: {NO_STUDY_UID}"), err=True)
-        inputs = load_inputs(study, criteria=criteria, prior=prior)
-        drawing = draw_inputs(
-            inputs, load_template_for(template, profile), page=page, target=target, lab=profile
-        )
-        options = ExportOptions(png_dpi=png_dpi, renderer=renderer)
-        written = export(drawing, Path(output), chosen[0], options, overwrite=overwrite)
-        if not quiet:
-            click.echo(f"wrote {written}", err=True)
-        return
-    from diagram.batch.run import BatchSettings
-
-    settings = BatchSettings(
-        out_dir=Path(output),
-        formats=chosen,
-        name_pattern=name_pattern,
-        page=page,
-        template=template,
-        criteria=criteria,
-        target=target,
-        lab=profile,
-        png_dpi=png_dpi,
-        overwrite=overwrite,
-        renderer=renderer,
-    )
-    _draw_batch(studies, settings, jobs, quiet, scheduler)
-
-
-def _warn_style(profile: LabProfile, path: Path) -> None:
-    """Warn (and go on) when the profile's bands would be misread in greyscale or by colour."""
-    from diagram.design.stylecheck import check_style
-
-    report = check_style(profile.style, source=profile.source, line_of=profile.line)
-    for problem in report.problems:
-        click.echo(_printable(f"warning: {problem}"), err=True)
-    if report.problems:
-        click.echo(
-            f"warning: the lab profile's band style fails the style check; the maps are drawn "
-            f"with it all the same (see limbchart style check {path})",
-            err=True,
-        )
-
-
-def _is_study_file(path: Path) -> bool:
-    """Return True for a path that names one study file (not a folder, not a list of paths).
-
-    A structured report (DICOM SR) counts, recognised by its suffix or by its content.
-    """
-    if _is_folder(str(path)):
-        return False
-    if path.suffix.lower() in (".yaml", ".yml", ".json", ".dcm"):
-        return True
-    from diagram.reading.sr import looks_like_dicom
-
-    try:
-        with open(path, "rb") as handle:
-            return looks_like_dicom(handle.read(132))
-    except OSError:
-        return False
-
-
-def _show_import_notes(notes: tuple[str, ...]) -> None:
-    """Print what an imported report held that could not be placed, one line per item."""
-    for line in notes:
-        click.echo(_printable(line), err=True)
-
-
-def _is_folder(name: str) -> bool:
-    """Return True for an existing folder; False for anything the file system cannot name."""
-    try:
-        return Path(name).is_dir()
-    except OSError:  # a name too long for the file system: export reports it in one line
-        return False
-
-
-def _draw_batch(
-    studies: tuple[Path, ...],
-    settings: BatchSettings,
-    jobs: int | None,
-    quiet: bool,
-    scheduler: str | None = None,
-) -> None:
-    from diagram.batch.run import (
-        BatchResult,
-        default_jobs,
-        draw_batch,
-        expand_inputs,
-        show_progress,
-    )
-
-    paths = expand_inputs(studies)
-    bar_wanted = show_progress(quiet)
-
-    def report(result: BatchResult) -> None:
-        if not result.ok:
-            for line in result.errors:
-                click.echo(_printable(line), err=True)
-        elif not quiet and not bar_wanted:
-            click.echo(f"{result.study} -> {', '.join(result.written)}", err=True)
-
-    workers = jobs or default_jobs()
-    with contextlib.ExitStack() as stack:
-        cluster = None
-        if scheduler is not None:
-            from diagram.batch.cluster import connect
-
-            cluster = stack.enter_context(connect(scheduler))
-        if bar_wanted:
-            bar = stack.enter_context(
-                click.progressbar(length=len(paths), label="drawing", file=sys.stderr)
-            )
-
-            def tick(result: BatchResult) -> None:
-                report(result)
-                bar.update(1)
-
-            summary = draw_batch(paths, settings, jobs=workers, on_result=tick, cluster=cluster)
-        else:
-            summary = draw_batch(paths, settings, jobs=workers, on_result=report, cluster=cluster)
-    click.echo(summary.line(len(paths)), err=True)
-    if summary.exit_status:
-        sys.exit(summary.exit_status)
 
 
 @click.command()
@@ -319,7 +61,7 @@ def check(
     from diagram.errors import DiagramError
     from diagram.output.results import results_document, results_json, results_table
 
-    single = len(studies) == 1 and _is_study_file(studies[0])
+    single = len(studies) == 1 and is_study_file(studies[0])
     if prior is not None and not single:
         raise click.UsageError("--prior goes with one study; in a list each study names its own.")
     if single:
@@ -339,14 +81,14 @@ def check(
         except DiagramError as exc:
             failed += 1
             for line in exc.lines():
-                click.echo(_printable(line), err=True)
+                click.echo(printable(line), err=True)
             documents.append({"input": str(path), "results": None, "errors": exc.lines()})
             continue
         if as_json:
             doc = results_document(assessment, version=__version__)
             documents.append({"input": str(path), "results": doc, "errors": []})
         else:
-            click.echo(_printable(f"== {path}"))
+            click.echo(printable(f"== {path}"))
             click.echo(results_table(assessment) + "\n")
     if as_json:  # UTF-8 as one study's document is (results_json)
         click.get_binary_stream("stdout").write(results_json(documents))
@@ -362,7 +104,7 @@ def _assess_path(path: Path, criteria: str | None, target: str | None, prior: Pa
     from diagram.reading.load import load_study
 
     current = load_study(path)
-    _show_import_notes(current.import_notes)
+    show_import_notes(current.import_notes)
     return assess_file(current, criteria=criteria, target=target, prior=prior)
 
 
@@ -491,13 +233,6 @@ class _StopSignals:
         return 128 + self.signum if self.signum is not None else code
 
 
-def _printable(line: str) -> str:
-    """Escape control characters, so that a message stays one line and cannot drive a terminal."""
-    if line.isprintable():
-        return line
-    return "".join(ch if ch.isprintable() else ascii(ch)[1:-1] for ch in line)
-
-
 def _usage_line(exc: click.UsageError) -> str:
     """Return a command-line mistake as one line, with where to read the command's options.
 
@@ -518,7 +253,7 @@ def _tool_error(exc: Exception) -> int:
     if not isinstance(exc, DiagramError):
         raise exc
     for line in exc.lines():
-        click.echo(_printable(line), err=True)
+        click.echo(printable(line), err=True)
     return exc.exit_code
 
 
@@ -540,7 +275,7 @@ def main(args: list[str] | None = None, prog_name: str | None = None) -> None:
                 click.echo("interrupted", err=True)
                 code = 130
             except click.UsageError as exc:
-                click.echo(_printable(_usage_line(exc)), err=True)
+                click.echo(printable(_usage_line(exc)), err=True)
                 code = exc.exit_code
             except click.ClickException as exc:
                 exc.show()

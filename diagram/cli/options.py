@@ -1,4 +1,8 @@
-"""Options shared by several commands, defined once so their names and help stay the same."""
+"""Options shared by several commands, defined once so their names and help stay the same.
+
+With them, the few helpers the commands share for what they are given and what they print:
+whether an argument names one study file, and a message made safe for the terminal.
+"""
 
 from __future__ import annotations
 
@@ -106,3 +110,42 @@ def check_dpi(dpi: float | None, formats: tuple[str, ...]) -> None:
             f"--dpi sets the resolution of PNG output, and the output here is "
             f"{', '.join(f.upper() for f in formats)} (vector, drawn at any size); leave --dpi out."
         )
+
+
+def printable(line: str) -> str:
+    """Escape control characters, so that a message stays one line and cannot drive a terminal."""
+    if line.isprintable():
+        return line
+    return "".join(ch if ch.isprintable() else ascii(ch)[1:-1] for ch in line)
+
+
+def is_study_file(path: Path) -> bool:
+    """Return True for a path that names one study file (not a folder, not a list of paths).
+
+    A structured report (DICOM SR) counts, recognised by its suffix or by its content.
+    """
+    if is_folder(str(path)):
+        return False
+    if path.suffix.lower() in (".yaml", ".yml", ".json", ".dcm"):
+        return True
+    from diagram.reading.sr import looks_like_dicom
+
+    try:
+        with open(path, "rb") as handle:
+            return looks_like_dicom(handle.read(132))
+    except OSError:
+        return False
+
+
+def show_import_notes(notes: tuple[str, ...]) -> None:
+    """Print what an imported report held that could not be placed, one line per item."""
+    for line in notes:
+        click.echo(printable(line), err=True)
+
+
+def is_folder(name: str) -> bool:
+    """Return True for an existing folder; False for anything the file system cannot name."""
+    try:
+        return Path(name).is_dir()
+    except OSError:  # a name too long for the file system: export reports it in one line
+        return False

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import sys
 from pathlib import Path
+from typing import TYPE_CHECKING, Any
 
 import click
 
@@ -22,6 +23,9 @@ from diagram.cli.options import (
     quiet_option,
     template_option,
 )
+
+if TYPE_CHECKING:
+    from diagram.teaching.batch import TeachResult, TeachSettings, TeachSummary, TeachTask
 
 # the same as diagram.teaching.case.TEACH_FORMATS (a test keeps them equal)
 FORMAT_CHOICES = ("pdf", "svg", "png", "dcm", "yaml")
@@ -99,25 +103,47 @@ def teach(
     what kinds of identifier were removed per case. A folder that holds a teaching set already
     is refused unless --add is given.
     """
-    from dataclasses import replace
-
-    from diagram.batch.run import default_jobs, expand_inputs, show_progress
-    from diagram.errors import ExportError, InputError
-    from diagram.teaching.batch import TeachResult, TeachSettings, TeachTask, run_teach
-    from diagram.teaching.case import new_case_id
-    from diagram.teaching.records import (
-        check_apart,
-        default_review_list,
-        read_audit,
-        write_audit,
-        write_link,
-        write_review_list,
-    )
+    from diagram.batch.run import default_jobs
+    from diagram.teaching.batch import TeachSettings
+    from diagram.teaching.records import check_apart, default_review_list, read_audit
 
     if review is not None and not keep_text:
         raise click.UsageError("--review names the review list of --keep-text; give both.")
     chosen_formats = tuple(dict.fromkeys(formats or DEFAULT_FORMATS))
     check_dpi(dpi, chosen_formats)
+    paths = _source_studies(inputs, output)
+    earlier = read_audit(output, add=add)
+    if link is not None:
+        check_apart(link, output, "link file")
+    if keep_text:
+        review = review or default_review_list(output)
+        check_apart(review, output, "review list", append=add)
+    settings = TeachSettings(
+        out_dir=output,
+        formats=chosen_formats,
+        keep_year=not no_year,
+        keep_text=keep_text,
+        page=page or "a4",
+        template=template,
+        png_dpi=DEFAULT_DPI if dpi is None else dpi,
+    )
+    tasks = _tasks(paths, settings, earlier)
+    summary = _run(tasks, jobs or default_jobs(), quiet)
+    results = sorted(summary.results, key=lambda r: r.n)
+    audit = _write_records(results, settings, earlier, link, review)
+    click.echo(f"{summary.line(len(tasks))} Audit: {audit}", err=True)
+    if summary.interrupted:
+        sys.exit(130)
+    if summary.failed:
+        sys.exit(2)
+
+
+def _source_studies(inputs: tuple[Path, ...], output: Path) -> list[Path]:
+    """Return the study files given, refusing any inside the output folder; make the folder."""
+    from dataclasses import replace
+
+    from diagram.batch.run import expand_inputs
+    from diagram.errors import ExportError, InputError
 
     try:
         paths = expand_inputs(inputs)
@@ -136,21 +162,15 @@ def teach(
         output.mkdir(parents=True, exist_ok=True)
     except OSError as exc:
         raise ExportError(f"{output}: cannot be made a folder: {exc.strerror}.") from None
-    earlier = read_audit(output, add=add)
-    if link is not None:
-        check_apart(link, output, "link file")
-    if keep_text:
-        review = review or default_review_list(output)
-        check_apart(review, output, "review list", append=add)
-    settings = TeachSettings(
-        out_dir=output,
-        formats=chosen_formats,
-        keep_year=not no_year,
-        keep_text=keep_text,
-        page=page or "a4",
-        template=template,
-        png_dpi=DEFAULT_DPI if dpi is None else dpi,
-    )
+    return paths
+
+
+def _tasks(paths: list[Path], settings: TeachSettings, earlier: dict[str, Any]) -> list[TeachTask]:
+    """Return one task per study, each with a new case id not used in the folder before."""
+    from diagram.teaching.batch import TeachTask
+    from diagram.teaching.case import new_case_id
+
+    output = settings.out_dir
     taken = {str(c.get("case_id")) for c in earlier["cases"]}
     taken.update(p.name.split(".")[0] for p in output.iterdir())
     tasks = []
@@ -160,27 +180,44 @@ def teach(
             case_id = new_case_id()
         taken.add(case_id)
         tasks.append(TeachTask(n, path, case_id, settings))
+    return tasks
+
+
+def _run(tasks: list[TeachTask], workers: int, quiet: bool) -> TeachSummary:
+    """Export the cases, printing each failure as it comes (and a progress bar unless quiet)."""
+    from diagram.batch.run import show_progress
+    from diagram.teaching.batch import run_teach
 
     def report(result: TeachResult) -> None:
         for line in result.errors:
             click.echo(line, err=True)
 
-    workers = jobs or default_jobs()
-    if show_progress(quiet):
-        with click.progressbar(length=len(tasks), label="teaching", file=sys.stderr) as bar:
+    if not show_progress(quiet):
+        return run_teach(tasks, jobs=workers, on_result=report)
+    with click.progressbar(length=len(tasks), label="teaching", file=sys.stderr) as bar:
 
-            def tick(result: TeachResult) -> None:
-                report(result)
-                bar.update(1)
+        def tick(result: TeachResult) -> None:
+            report(result)
+            bar.update(1)
 
-            summary = run_teach(tasks, jobs=workers, on_result=tick)
-    else:
-        summary = run_teach(tasks, jobs=workers, on_result=report)
-    results = sorted(summary.results, key=lambda r: r.n)
+        return run_teach(tasks, jobs=workers, on_result=tick)
+
+
+def _write_records(
+    results: list[TeachResult],
+    settings: TeachSettings,
+    earlier: dict[str, Any],
+    link: Path | None,
+    review: Path | None,
+) -> Path:
+    """Write the audit, and the link file and the review list where asked; return the audit."""
+    from diagram.teaching.records import write_audit, write_link, write_review_list
+
+    output = settings.out_dir
     run = {
         "formats": list(settings.formats),
         "exam_year": settings.keep_year,
-        "free_text": "kept for review" if keep_text else "withheld",
+        "free_text": "kept for review" if settings.keep_text else "withheld",
         "review_list": review.name if review is not None else None,
     }
     audit = write_audit(output, earlier, run, [r.audit_entry() for r in results])
@@ -190,8 +227,4 @@ def teach(
         rows = [(r.case_id, where, text) for r in results if r.ok for where, text in r.texts]
         write_review_list(review, output, len(earlier["runs"]) + 1, rows)
         click.echo(f"Free text kept for review: {len(rows)} texts listed in {review}.", err=True)
-    click.echo(f"{summary.line(len(tasks))} Audit: {audit}", err=True)
-    if summary.interrupted:
-        sys.exit(130)
-    if summary.failed:
-        sys.exit(2)
+    return audit

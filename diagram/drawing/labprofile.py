@@ -24,7 +24,7 @@ from __future__ import annotations
 import difflib
 import math
 import re
-from collections.abc import Mapping
+from collections.abc import Callable, Iterator, Mapping
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from types import MappingProxyType
@@ -155,18 +155,8 @@ def _read_yaml(text: str, file: str) -> tuple[dict[str, Any], dict[str, int]]:
     def fail(line: int | None, rule: str, hint: str | None = None) -> LabProfileError:
         return LabProfileError([Problem(file, line, "", None, rule, hint)])
 
-    depth = 0
     try:
-        for event in yaml.parse(text, Loader=yaml.SafeLoader):
-            mark: Any = event.start_mark
-            if isinstance(event, yaml.AliasEvent) or getattr(event, "anchor", None):
-                raise fail(mark.line + 1, "must not use YAML anchors or aliases")
-            if isinstance(event, yaml.CollectionStartEvent):
-                depth += 1
-                if depth > MAX_DEPTH:
-                    raise fail(mark.line + 1, f"nests deeper than {MAX_DEPTH} levels")
-            elif isinstance(event, yaml.CollectionEndEvent):
-                depth -= 1
+        _screen(yaml.parse(text, Loader=yaml.SafeLoader), fail)
         node = yaml.compose(text, Loader=yaml.SafeLoader)
     except yaml.YAMLError as exc:
         where: Any = getattr(exc, "problem_mark", None)
@@ -178,6 +168,39 @@ def _read_yaml(text: str, file: str) -> tuple[dict[str, Any], dict[str, int]]:
         return {}, {}
     if not isinstance(node, yaml.MappingNode):
         raise fail(node.start_mark.line + 1, "must be a mapping of lab profile fields")
+    lines = _key_lines(node, file)
+    try:
+        data = yaml.safe_load(text)
+    except yaml.YAMLError as exc:  # e.g. a tag that names a Python object
+        mark = getattr(exc, "problem_mark", None)
+        raise fail(
+            mark.line + 1 if mark is not None else None,
+            "is not valid YAML: only plain mappings, lists, texts and numbers are read",
+        ) from None
+    return data, lines
+
+
+def _screen(events: Iterator[Any], fail: Callable[[int | None, str], LabProfileError]) -> None:
+    """Refuse anchors and aliases (how a YAML bomb expands) and deep nesting, before building."""
+    import yaml
+
+    depth = 0
+    for event in events:
+        mark: Any = event.start_mark
+        if isinstance(event, yaml.AliasEvent) or getattr(event, "anchor", None):
+            raise fail(mark.line + 1, "must not use YAML anchors or aliases")
+        if isinstance(event, yaml.CollectionStartEvent):
+            depth += 1
+            if depth > MAX_DEPTH:
+                raise fail(mark.line + 1, f"nests deeper than {MAX_DEPTH} levels")
+        elif isinstance(event, yaml.CollectionEndEvent):
+            depth -= 1
+
+
+def _key_lines(node: Any, file: str) -> dict[str, int]:
+    """Return the line of every key by its dotted path; refuse a key given twice."""
+    import yaml
+
     lines: dict[str, int] = {}
     problems: list[Problem] = []
 
@@ -204,15 +227,7 @@ def _read_yaml(text: str, file: str) -> tuple[dict[str, Any], dict[str, int]]:
     walk(node, "")
     if problems:
         raise LabProfileError(problems)
-    try:
-        data = yaml.safe_load(text)
-    except yaml.YAMLError as exc:  # e.g. a tag that names a Python object
-        mark = getattr(exc, "problem_mark", None)
-        raise fail(
-            mark.line + 1 if mark is not None else None,
-            "is not valid YAML: only plain mappings, lists, texts and numbers are read",
-        ) from None
-    return data, lines
+    return lines
 
 
 # --------------------------------------------------------------------------- fields

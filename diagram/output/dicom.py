@@ -20,8 +20,12 @@ import datetime as dt
 import io
 import uuid
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 from diagram.reading.study import Study
+
+if TYPE_CHECKING:
+    from pydicom.dataset import Dataset
 
 DOCUMENT_TITLE = "Leg arterial duplex map"  # generic: no identifier in the title
 MANUFACTURER = "limbchart"
@@ -98,6 +102,23 @@ def identity_from_study(study: Study) -> DicomIdentity:
     )
 
 
+def _patient_and_study(ds: Dataset, ident: DicomIdentity, moment: dt.datetime) -> None:
+    """Set the Patient and General Study modules of the instance."""
+    # Patient module
+    ds.PatientName = ident.patient_name
+    ds.PatientID = ident.patient_id
+    ds.PatientBirthDate = ident.birth_date
+    ds.PatientSex = ident.sex
+    # General Study module
+    ds.StudyInstanceUID = ident.study_uid or new_uid()
+    ds.StudyDate = ident.study_date
+    # the moment of making the map; a de-identified file holds no time (PS3.15 E: Z)
+    ds.StudyTime = "" if ident.deidentified else moment.strftime("%H%M%S")
+    ds.ReferringPhysicianName = ident.referrer
+    ds.StudyID = study_id(ident.accession)
+    ds.AccessionNumber = ident.accession
+
+
 def encapsulated_pdf(
     pdf: bytes, ident: DicomIdentity, *, now: dt.datetime | None = None, version: str = ""
 ) -> bytes:
@@ -119,19 +140,7 @@ def encapsulated_pdf(
     ds.SpecificCharacterSet = "ISO_IR 192"  # UTF-8
     ds.SOPClassUID = EncapsulatedPDFStorage
     ds.SOPInstanceUID = sop_uid
-    # Patient module
-    ds.PatientName = ident.patient_name
-    ds.PatientID = ident.patient_id
-    ds.PatientBirthDate = ident.birth_date
-    ds.PatientSex = ident.sex
-    # General Study module
-    ds.StudyInstanceUID = ident.study_uid or new_uid()
-    ds.StudyDate = ident.study_date
-    # the moment of making the map; a de-identified file holds no time (PS3.15 E: Z)
-    ds.StudyTime = "" if ident.deidentified else moment.strftime("%H%M%S")
-    ds.ReferringPhysicianName = ident.referrer
-    ds.StudyID = study_id(ident.accession)
-    ds.AccessionNumber = ident.accession
+    _patient_and_study(ds, ident, moment)
     # Encapsulated Document Series module
     ds.Modality = "DOC"
     ds.SeriesInstanceUID = new_uid()

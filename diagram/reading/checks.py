@@ -12,7 +12,6 @@ from __future__ import annotations
 
 import dataclasses
 import datetime as dt
-import difflib
 import functools
 import json
 import math
@@ -23,8 +22,25 @@ from typing import TYPE_CHECKING, Any
 
 from diagram import anatomy
 from diagram.errors import Problem
+from diagram.reading.hints import (
+    BOUNDS,
+    LIMIT_LABELS,
+    NONCOMPRESSIBLE_HINT,
+    NONCOMPRESSIBLE_WORDS,
+    RANGE_LABELS,
+    TYPE_RULES,
+    UNIT_WRITTEN,
+    close_hint,
+    date_hint,
+    dotted,
+    enum_hint,
+    number_text,
+    private,
+    range_field,
+    range_rule,
+    unit_hint,
+)
 from diagram.reading.schemacheck import conforms
-from diagram.reading.study import Patient
 
 if TYPE_CHECKING:
     import jsonschema
@@ -72,47 +88,9 @@ def _schema_text() -> str:
     return resources.files("diagram").joinpath("schema/study.schema.json").read_text("utf-8")
 
 
-# --- helpers ----------------------------------------------------------------------------------
-
 _MEASURED = ("psv", "edv", "vr", "proximal_psv", "shift_hz")  # none of them where no flow
-_TYPE_RULES = {
-    "number": "must be a number",
-    "integer": "must be a whole number",
-    "string": "must be text",
-    "boolean": "must be true or false",
-    "object": "must be a mapping of keys to values",
-    "array": "must be a list",
-}
-_LIMIT_LABELS = {"psv": "PSV", "edv": "EDV", "proximal_psv": "a proximal PSV"}
-# fields whose plausible range (the schema's minimum and maximum, each with its basis in the
-# schema's $comment) is stated in words: what the value is and its unit
-_RANGE_LABELS = {
-    "vr": ("a velocity ratio", ""),
-    "prf_hz": ("a pulse repetition frequency", " Hz"),
-    "f0_mhz": ("a transmit frequency", " MHz"),
-    "shift_hz": ("a Doppler shift", " Hz"),
-    "brachial": ("a brachial pressure", " mmHg"),
-    "from_cm": ("an offset", " cm"),
-    "length_cm": ("a length", " cm"),
-}
-_BOUNDS = ("minimum", "maximum", "exclusiveMinimum", "exclusiveMaximum")
-_PATIENT_KEYS = {f.name for f in dataclasses.fields(Patient)}
 _YAML_BOOLEAN_WORDS = {"yes", "no", "on", "off"}
 _PLAIN_DECIMAL = re.compile(r"[-+]?(0|[1-9][0-9]*)(\.[0-9]*)?([eE][-+]?[0-9]+)?|[-+]?\.[0-9]+")
-
-
-def dotted(loc: Loc) -> str:
-    """Return the field path as messages print it: ``limbs.left.lesions[0].psv``."""
-    if loc[:1] == ("patient",) and len(loc) > 1 and loc[1] not in _PATIENT_KEYS:
-        loc = (loc[0], "(unknown key)", *loc[2:])  # a stray key there may itself identify
-    out = ""
-    for key in loc:
-        out += f"[{key}]" if isinstance(key, int) else (f".{key}" if out else key)
-    return out
-
-
-def _num(value: float) -> str:
-    return str(int(value)) if float(value).is_integer() else repr(value)
 
 
 def _number(value: object) -> float | None:
@@ -126,109 +104,7 @@ def _number(value: object) -> float | None:
     return number if math.isfinite(number) else None
 
 
-def _private(loc: Loc) -> bool:
-    """Return True where a value may identify the patient and must not be echoed."""
-    if loc == ("patient", "sex"):  # not an identifier (HIPAA Safe Harbor keeps it)
-        return False
-    if loc[:1] in (("patient",), ("notes",)) or loc[-1:] == ("comment",):
-        return True
-    if loc[:1] == ("exam",):  # every exam fact but the criteria names
-        return len(loc) < 2 or not str(loc[1]).endswith("criteria")
-    return False
-
-
-def _close(word: str, choices: list[str]) -> str | None:
-    folded = {c.lower(): c for c in choices}
-    match = difflib.get_close_matches(word.lower(), list(folded), n=1, cutoff=0.6)
-    return f"did you mean {folded[match[0]]}?" if match else None
-
-
-def _range_field(loc: Loc) -> str:
-    """Return the name a plausible range is known by: the key, or "brachial" for its sides."""
-    if loc[:2] == ("pressures", "brachial"):
-        return "brachial"
-    return str(loc[-1]) if loc else ""
-
-
-def _range_rule(name: str, schema: dict[str, Any]) -> str:
-    """Return the rule of a plausible range, from the schema's bounds."""
-    label, unit = _RANGE_LABELS[name]
-    high = _num(schema["maximum"])
-    if "exclusiveMinimum" in schema:
-        span = f"above {_num(schema['exclusiveMinimum'])} and at most {high}{unit}"
-    else:
-        span = f"between {_num(schema['minimum'])} and {high}{unit}"
-    return f"is refused: {label} must be {span} to be plausible."
-
-
 _SURROGATE = re.compile("[\ud800-\udfff]")
-_SHORT_ENUMS = {  # the trade's short forms of enum words
-    "m": "male", "f": "female", "man": "male", "woman": "female", "u": "unknown",
-    "tri": "triphasic", "bi": "biphasic", "mono": "monophasic",
-    "ante": "antegrade", "retro": "retrograde", "calc": "calcified",
-}  # fmt: skip
-_UNIT = re.compile(
-    r"([-+]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+))\s*"
-    r"(cm/s|cm/sec|cms|m/s|mm/s|mmhg|mm hg|cm|mm|°|deg|degrees|hz|khz|mhz)\.?",
-    re.IGNORECASE,
-)
-_UNITS = {  # the unit each kind of field is always in, as the study file says it
-    "cm/s": ({"psv", "edv", "proximal_psv"}, "velocities are in cm/s"),
-    "mmHg": ({"pt", "dp", "toe", "right", "left"}, "pressures are in mmHg"),
-    "cm": ({"length_cm", "from_cm"}, "lengths are in cm"),
-    "degrees": ({"angle"}, "angles are in degrees"),
-    "Hz": ({"prf_hz", "shift_hz"}, "this frequency is in Hz"),
-    "MHz": ({"f0_mhz"}, "the transmit frequency is in MHz"),
-}
-_UNIT_WORDS = {
-    "cm/s": "cm/s", "cm/sec": "cm/s", "cms": "cm/s", "m/s": "m/s", "mm/s": "mm/s",
-    "mmhg": "mmHg", "mm hg": "mmHg", "cm": "cm", "mm": "mm",
-    "°": "degrees", "deg": "degrees", "degrees": "degrees",
-    "hz": "Hz", "khz": "kHz", "mhz": "MHz",
-}  # fmt: skip
-_CONVERT = {("m/s", "cm/s"): 100.0, ("mm/s", "cm/s"): 0.1, ("mm", "cm"): 0.1, ("kHz", "Hz"): 1e3}
-_NC = re.compile(r"n\.?\s*/?\s*c\.?|non-?\s*compress(ible)?|incompressible|>\s*[0-9]+", re.I)
-NONCOMPRESSIBLE_HINT = (
-    "a vessel the cuff could not compress has no pressure: leave {vessel} out and list it as "
-    "noncompressible: [{vessel}] under pressures.{side}; the ABI is then not given and the TBI "
-    "(toe pressure) is the index"
-)
-
-
-def _enum_hint(value: str, choices: list[str]) -> str | None:
-    word = _SHORT_ENUMS.get(value.strip().lower())
-    if word in choices:
-        return f"did you mean {word}?"
-    return _close(value, choices)
-
-
-def _unit_hint(loc: Loc, number: str, written: str) -> str:
-    unit = _UNIT_WORDS[written.lower()]
-    field_unit, why = next(
-        ((u, why) for u, (keys, why) in _UNITS.items() if str(loc[-1]) in keys),
-        (None, ""),
-    )
-    if field_unit is None:
-        return f"write the number alone: {number}"
-    if unit == field_unit:
-        return f"drop the unit and write {number}: {why}"
-    factor = _CONVERT.get((unit, field_unit))
-    if factor is not None:
-        converted = _num(round(float(number) * factor, 6))
-        return f"{why}: {number} {unit} is {converted} {field_unit}; write {converted}"
-    return f"{why}: give the number in {field_unit}, without the unit"
-
-
-def _date_hint(text: str) -> str | None:
-    """Return how to write a day-first or month-first date (the date itself is not echoed)."""
-    found = re.fullmatch(r"[0-9]{1,2}([/.\-])[0-9]{1,2}[/.\-][0-9]{2,4}", text.strip())
-    if found:
-        return (
-            f"e.g. 2026-11-02 for 2 November 2026: a day and month split by '{found.group(1)}' "
-            "are read day-first in some countries, month-first in others, so they are not "
-            "guessed; the date is not repeated here, as it can identify the patient"
-        )
-    return None
 
 
 class Checker:
@@ -254,7 +130,7 @@ class Checker:
         return None
 
     def show(self, loc: Loc, value: object) -> str | None:
-        if _private(loc):
+        if private(loc):
             return None
         if loc in self.parsed.raw:
             return self.parsed.raw[loc][:40] or "(empty)"
@@ -269,7 +145,7 @@ class Checker:
         if isinstance(value, list):
             return "[...]"
         number = _number(value)
-        return _num(number) if number is not None else repr(value)
+        return number_text(number) if number is not None else repr(value)
 
     def report(
         self, loc: Loc, rule: str, value: object = _NO_VALUE, *, hint: str | None = None
@@ -335,80 +211,100 @@ class Checker:
 
     def schema_error(self, error: jsonschema.ValidationError) -> None:
         loc: Loc = tuple(error.absolute_path)
+        if self.key_error(loc, error):
+            return
+        rule, hint = self.schema_rule(loc, error)
+        if error.instance is None:
+            hint = "leave the key out when there is no value"
+        self.report(loc, rule, error.instance, hint=hint)
+        self.bad.add(loc)  # one problem per value: later checks skip it
+
+    def key_error(self, loc: Loc, error: jsonschema.ValidationError) -> bool:
+        """Report an unknown or a missing key of a mapping; return whether the error was one."""
         kind, schema, value = error.validator, error.schema, error.instance
         if kind == "additionalProperties" and isinstance(value, dict):
             allowed = list(schema.get("properties", {}))
             for key in value:
                 if key not in allowed:
-                    self.report((*loc, key), "is not a known key.", hint=_close(str(key), allowed))
+                    self.report(
+                        (*loc, key), "is not a known key.", hint=close_hint(str(key), allowed)
+                    )
                     self.bad.add((*loc, key))
-            return
+            return True
         if kind == "required" and isinstance(value, dict):
             for key in error.validator_value:
                 if key not in value:
                     self.report((*loc, key), "is required.")
-            return
+            return True
+        return False
+
+    def schema_rule(self, loc: Loc, error: jsonschema.ValidationError) -> tuple[str, str | None]:
+        """Return the rule a value breaks, in words, and a hint (None when there is none)."""
+        kind, schema, value = error.validator, error.schema, error.instance
         hint = None
         if kind != "type" and isinstance(value, float) and not math.isfinite(value):
             rule = "must be a finite number."
         elif "pattern" in schema and kind in ("type", "pattern", "maxLength"):
             rule = f"must be {schema['description']}."
             if loc[-1:] in (("date",), ("birth_date",)) and isinstance(value, str):
-                hint = _date_hint(value)
+                hint = date_hint(value)
         elif kind == "type":
             expected = str(error.validator_value)
-            rule = f"{_TYPE_RULES.get(expected, 'has the wrong type')}."
+            rule = f"{TYPE_RULES.get(expected, 'has the wrong type')}."
             hint = self.type_hint(loc, value, expected)
         elif kind == "enum":
             choices = [str(c) for c in error.validator_value]
             rule = f"must be one of {', '.join(choices)}."
-            hint = _enum_hint(value, choices) if isinstance(value, str) else None
+            hint = enum_hint(value, choices) if isinstance(value, str) else None
         elif kind == "const":
             rule = f"must be {error.validator_value}, the only study format this version reads."
         elif kind in ("minimum", "maximum") and loc[-1:] == ("angle",):
-            low, high = _num(schema["minimum"]), _num(schema["maximum"])
+            low, high = number_text(schema["minimum"]), number_text(schema["maximum"])
             rule = f"must be between {low} and {high} degrees."
-        elif kind in _BOUNDS and _range_field(loc) in _RANGE_LABELS:
-            rule = _range_rule(_range_field(loc), schema)
+        elif kind in BOUNDS and range_field(loc) in RANGE_LABELS:
+            rule = range_rule(range_field(loc), schema)
         elif kind == "minimum":
             limit = error.validator_value
-            rule = "must not be negative." if limit == 0 else f"must be at least {_num(limit)}."
+            rule = (
+                "must not be negative." if limit == 0 else f"must be at least {number_text(limit)}."
+            )
         elif kind == "exclusiveMinimum" and loc[-1:] in (("psv",), ("proximal_psv",)):
             rule = "must be greater than 0."
             hint = "record no flow with occluded: true or flow: absent"
         elif kind == "exclusiveMinimum":
-            rule = f"must be greater than {_num(error.validator_value)}."
+            rule = f"must be greater than {number_text(error.validator_value)}."
         elif kind == "maximum" and loc[:1] == ("pressures",):
-            limit = _num(error.validator_value)
+            limit = number_text(error.validator_value)
             rule = f"is refused: a pressure above {limit} mmHg is not physiological."
-        elif kind == "maximum" and loc[-1:] and str(loc[-1]) in _LIMIT_LABELS:
-            label, limit = _LIMIT_LABELS[str(loc[-1])], _num(error.validator_value)
+        elif kind == "maximum" and loc[-1:] and str(loc[-1]) in LIMIT_LABELS:
+            label, limit = LIMIT_LABELS[str(loc[-1])], number_text(error.validator_value)
             rule = f"is refused: {label} above {limit} cm/s is not physiological."
         elif kind == "maximum":
-            rule = f"must be at most {_num(error.validator_value)}."
+            rule = f"must be at most {number_text(error.validator_value)}."
         else:
             rule = f"breaks the schema rule {kind!r}."
-        if value is None:
-            hint = "leave the key out when there is no value"
-        self.report(loc, rule, value, hint=hint)
-        self.bad.add(loc)  # one problem per value: later checks skip it
+        return rule, hint
 
     def type_hint(self, loc: Loc, value: object, expected: str) -> str | None:
         raw = self.parsed.raw.get(loc, "")
         if isinstance(value, bool) and raw.lower() in _YAML_BOOLEAN_WORDS:
             advice = "quote text" if expected == "string" else f"give a {expected}"
-            if _private(loc):  # say it without echoing the value
+            if private(loc):  # say it without echoing the value
                 return f"YAML reads yes, no, on and off as true or false; {advice}"
             return f"YAML reads {raw} as {str(value).lower()}; {advice}"
         if expected == "number" and isinstance(value, str):
             text = value.strip()
-            if loc[:1] == ("pressures",) and loc[-1:] in (("pt",), ("dp",)) and _NC.fullmatch(text):
+            if (
+                loc[:1] == ("pressures",)
+                and loc[-1:] in (("pt",), ("dp",))
+                and NONCOMPRESSIBLE_WORDS.fullmatch(text)
+            ):
                 return NONCOMPRESSIBLE_HINT.format(side=loc[1], vessel=loc[-1])
-            unit = _UNIT.fullmatch(text)
+            unit = UNIT_WRITTEN.fullmatch(text)
             if unit:
-                return _unit_hint(loc, unit[1], unit[2])
+                return unit_hint(loc, unit[1], unit[2])
             if self.parsed.kind == "yaml" and re.fullmatch(r"[-+]?[0-9]+[eE][-+]?[0-9]+", text):
-                return f"YAML 1.1 reads {text} as text; write {_num(float(text))}"
+                return f"YAML 1.1 reads {text} as text; write {number_text(float(text))}"
             if _PLAIN_DECIMAL.fullmatch(text):
                 return "write the number without quotes"
         if expected == "string" and _number(value) is not None:
@@ -437,7 +333,7 @@ class Checker:
                     loc,
                     "must be written as a plain decimal number.",
                     value,
-                    hint=f"YAML 1.1 reads {raw} as {_num(value)}",
+                    hint=f"YAML 1.1 reads {raw} as {number_text(value)}",
                 )
 
     def date(self, loc: Loc, text: str) -> None:
@@ -522,7 +418,7 @@ class Checker:
         psv, edv = _number(sample.get("psv")), _number(sample.get("edv"))
         if psv is not None and edv is not None and edv > psv:
             self.refuse(
-                sample, loc, "edv", f"is above the PSV ({_num(psv)}): EDV cannot exceed PSV."
+                sample, loc, "edv", f"is above the PSV ({number_text(psv)}): EDV cannot exceed PSV."
             )
         for flag, why in (
             ("occluded", f"an occluded {noun} has no velocity"),
@@ -557,14 +453,14 @@ class Checker:
                 item,
                 loc,
                 "from_cm",
-                f"is beyond the end of {seg} (nominal length {_num(nominal)} cm).",
+                f"is beyond the end of {seg} (nominal length {number_text(nominal)} cm).",
             )
             return
         length = _number(item.get("length_cm"))
         remaining = anatomy.remaining_length_cm(seg, start or 0.0)
         if length is not None and length > remaining:
-            where = f"{seg} at {_num(start)} cm" if start else f"the start of {seg}"
-            rule = f"is longer than the limb: {_num(remaining)} cm remain below {where}"
+            where = f"{seg} at {number_text(start)} cm" if start else f"the start of {seg}"
+            rule = f"is longer than the limb: {number_text(remaining)} cm remain below {where}"
             rule += " (nominal lengths)."
             self.refuse(item, loc, "length_cm", rule)
 

@@ -147,6 +147,27 @@ class _FreeText:
         )
 
 
+def _removed(study: Study) -> list[Category]:
+    """Return the kinds of identifier the study holds (each is removed from the case)."""
+    p, e = study.patient, study.exam
+    return [
+        cat
+        for cat, value in (
+            (Category.NAME, p.name),
+            (Category.PATIENT_ID, p.id),
+            (Category.BIRTH_DATE, p.birth_date),
+            (Category.EXAM_DATE, e.date),
+            (Category.ACCESSION, e.accession),
+            (Category.SITE, e.site),
+            (Category.OPERATOR, e.operator),
+            (Category.REFERRER, e.referrer),
+            (Category.STUDY_UID, e.study_uid),
+            (Category.PRIOR, study.prior),
+        )
+        if value
+    ]
+
+
 def deidentify(
     study: Study,
     case_id: str,
@@ -163,22 +184,7 @@ def deidentify(
     _check_criteria(study)
     text = _FreeText(ids or identifiers_of(study), keep_text)
     p, e = study.patient, study.exam
-    removed = [
-        cat
-        for cat, value in (
-            (Category.NAME, p.name),
-            (Category.PATIENT_ID, p.id),
-            (Category.BIRTH_DATE, p.birth_date),
-            (Category.EXAM_DATE, e.date),
-            (Category.ACCESSION, e.accession),
-            (Category.SITE, e.site),
-            (Category.OPERATOR, e.operator),
-            (Category.REFERRER, e.referrer),
-            (Category.STUDY_UID, e.study_uid),
-            (Category.PRIOR, study.prior),
-        )
-        if value
-    ]
+    removed = _removed(study)
     clean_study = replace(
         study,
         source=f"{case_id}.yaml",
