@@ -16,6 +16,7 @@ import subprocess
 import sys
 import tempfile
 from collections.abc import Iterator
+from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
 
@@ -72,10 +73,10 @@ return [s.x, s.y];
 """
 
 
-@pytest.fixture
-def editor(tmp_path: Path) -> Iterator[tuple[str, Path]]:
-    study = tmp_path / "claudicant.yaml"
-    shutil.copy(ROOT / "examples" / "claudicant-sfa.yaml", study)
+@contextmanager
+def running_editor(study: Path) -> Iterator[str]:
+    """Run ``limbchart edit STUDY --no-browser`` and yield the page's address; stop it with
+    Ctrl-C afterwards and expect no traceback."""
     process = subprocess.Popen(
         [sys.executable, "-m", "diagram", "edit", str(study), "--no-browser"],
         stdout=subprocess.PIPE,
@@ -86,11 +87,19 @@ def editor(tmp_path: Path) -> Iterator[tuple[str, Path]]:
     url = process.stdout.readline().strip()
     try:
         assert url.startswith("http://127.0.0.1:"), url
-        yield url, study
+        yield url
     finally:
         process.send_signal(signal.SIGINT)
         _, err = process.communicate(timeout=30)
         assert "Traceback" not in err, err
+
+
+@pytest.fixture
+def editor(tmp_path: Path) -> Iterator[tuple[str, Path]]:
+    study = tmp_path / "claudicant.yaml"
+    shutil.copy(ROOT / "examples" / "claudicant-sfa.yaml", study)
+    with running_editor(study) as url:
+        yield url, study
 
 
 @pytest.fixture
@@ -286,15 +295,8 @@ def test_a_new_study_typed_from_empty_is_saved_and_exported_as_pdf(
         "Browser.setDownloadBehavior", {"behavior": "allow", "downloadPath": str(downloads)}
     )
     study_file = tmp_path / "new-exam.yaml"
-    process = subprocess.Popen(
-        [sys.executable, "-m", "diagram", "edit", str(study_file), "--no-browser"],
-        stdout=subprocess.PIPE,
-        stderr=subprocess.PIPE,
-        text=True,
-    )
-    assert process.stdout is not None
-    try:
-        browser.get(process.stdout.readline().strip())
+    with running_editor(study_file) as url:
+        browser.get(url)
         wait(browser, lambda d: d.find_elements(By.CSS_SELECTOR, "#map svg"))
         assert fill_of(browser, "right", "CFA") == "url(#band-not-assessed)"
         # keyboard only: walk from the aorta to the right CFA and type its sample
@@ -313,9 +315,6 @@ def test_a_new_study_typed_from_empty_is_saved_and_exported_as_pdf(
         wait(browser, lambda d: pdf.exists() and pdf.stat().st_size > 1000, 60)
         errors = [e for e in browser.get_log("browser") if e["level"] == "SEVERE"]
         assert errors == []
-    finally:
-        process.send_signal(signal.SIGINT)
-        process.communicate(timeout=30)
     saved = load_study(study_file)
     cfa = saved.limbs[Side.RIGHT].segments["CFA"]
     assert (cfa.psv, cfa.waveform) == (110, "triphasic")
@@ -351,15 +350,8 @@ def test_edit_a_graft_and_a_stent_the_map_redraws_and_save_keeps_the_comments(
     )
     study_file = tmp_path / "stent-and-graft.yaml"
     study_file.write_text(text, "utf-8")
-    process = subprocess.Popen(
-        [sys.executable, "-m", "diagram", "edit", str(study_file), "--no-browser"],
-        stdout=subprocess.PIPE,
-        stderr=subprocess.PIPE,
-        text=True,
-    )
-    assert process.stdout is not None
-    try:
-        browser.get(process.stdout.readline().strip())
+    with running_editor(study_file) as url:
+        browser.get(url)
         wait(browser, lambda d: d.find_elements(By.CSS_SELECTOR, "#map svg"))
         assert graft_fill(browser, "distal_anastomosis").endswith("band-graft-highest)")
 
@@ -439,9 +431,6 @@ def test_edit_a_graft_and_a_stent_the_map_redraws_and_save_keeps_the_comments(
         assert shot.stat().st_size > 10_000
         errors = [e for e in browser.get_log("browser") if e["level"] == "SEVERE"]
         assert errors == []
-    finally:
-        process.send_signal(signal.SIGINT)
-        process.communicate(timeout=30)
 
     saved_text = study_file.read_text("utf-8")
     assert "pressures:   # supine, after 10 min rest\n" in saved_text
