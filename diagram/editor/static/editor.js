@@ -414,9 +414,9 @@
       band.dataset.band = seg.band;
       band.textContent = bandLabel(seg.band);
       line.append(band);
-      const parts = [];
-      if (seg.vr !== null) parts.push(`Vr ${seg.vr}`);
-      parts.push(seg.basis);
+      // the basis names the ratio when the band rests on it; otherwise the ratio stands before it
+      const vr = seg.vr !== null ? `Vr ${Number(seg.vr).toFixed(2)}` : null;
+      const parts = vr && !seg.basis.startsWith(vr) ? [vr, seg.basis] : [seg.basis];
       line.append(" " + parts.join(" · "));
     }
     const mine = res.warnings.filter((w) => w.segment === segment && (w.side === drawnSide || drawnSide === "midline" || !w.side));
