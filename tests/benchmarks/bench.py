@@ -454,6 +454,15 @@ SECTIONS = {
 
 if __name__ == "__main__":
     wanted = sys.argv[1:] or list(SECTIONS)
+    unknown = [name for name in wanted if name not in SECTIONS]
+    if unknown:
+        print(
+            f"usage: python tests/benchmarks/bench.py [SECTION ...]; sections: "
+            f"{', '.join(SECTIONS)} (all of them when none is named)"
+            + ("" if unknown[0] in ("-h", "--help") else f"; not a section: {', '.join(unknown)}"),
+            file=sys.stderr,
+        )
+        sys.exit(0 if unknown[0] in ("-h", "--help") else 2)
     for name in wanted:
         SECTIONS[name]()
         print()
