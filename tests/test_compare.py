@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import datetime as dt
+from pathlib import Path
 
 import pytest
 
@@ -266,3 +267,69 @@ def test_prior_dated_after_the_current_exam_is_refused() -> None:
         "round?)"
     ]
     assert check_prior(study(), prior_of(date=CURRENT_DATE)) == []
+
+
+@pytest.mark.parametrize(
+    ("current", "prior", "field"),
+    [
+        (Exam(date=CURRENT_DATE, accession="ACC-7"), Exam(date=PRIOR_DATE, accession="acc-7"),
+         "exam.accession"),
+        (Exam(date=CURRENT_DATE, study_uid="1.2.3"), Exam(date=PRIOR_DATE, study_uid="1.2.3"),
+         "exam.study_uid"),
+    ],
+)  # fmt: skip
+def test_a_prior_that_is_the_current_exam_is_refused(
+    current: Exam, prior: Exam, field: str
+) -> None:
+    from dataclasses import replace
+
+    problems = check_prior(replace(study(), exam=current), replace(prior_of(), exam=prior))
+    assert [p.field for p in problems] == [field]
+    text = str(problems[0])
+    assert f"is the same as the current exam's {field}: a prior is an earlier exam" in text
+    assert "ACC-7" not in text and "acc-7" not in text and "1.2.3" not in text  # never echoed
+
+
+def test_a_copy_with_both_the_accession_and_the_uid_gets_one_line() -> None:
+    from dataclasses import replace
+
+    exam = Exam(date=CURRENT_DATE, accession="ACC-7", study_uid="1.2.3")
+    problems = check_prior(replace(study(), exam=exam), replace(prior_of(), exam=exam))
+    assert [p.field for p in problems] == ["exam.accession"]
+
+
+@pytest.mark.parametrize(
+    ("current", "prior"),
+    [
+        (Exam(accession="ACC-7"), Exam(accession="ACC-6")),
+        (Exam(accession="ACC-7"), Exam()),  # one side has none: nothing to compare
+        (Exam(study_uid="1.2.3"), Exam(study_uid="1.2.30")),
+    ],
+)
+def test_a_prior_with_its_own_accession_or_uid_is_accepted(current: Exam, prior: Exam) -> None:
+    from dataclasses import replace
+
+    now = replace(study(), exam=replace(current, date=CURRENT_DATE))
+    then = replace(prior_of(), exam=replace(prior, date=PRIOR_DATE))
+    assert check_prior(now, then) == []
+
+
+def test_the_study_named_as_its_own_prior_is_refused_in_one_line(tmp_path: Path) -> None:
+    import shutil
+    import subprocess
+    import sys
+
+    example = Path(__file__).resolve().parent.parent / "examples" / "normal.yaml"
+    study_file = tmp_path / "exam.yaml"
+    shutil.copy(example, study_file)
+    out = tmp_path / "map.pdf"
+    run = subprocess.run(
+        [sys.executable, "-m", "diagram", "draw", str(study_file), "--prior",
+         str(tmp_path / "." / "exam.yaml"), "-o", str(out)],
+        capture_output=True, text=True, timeout=120, cwd=tmp_path,
+    )  # fmt: skip
+    assert run.returncode == 2 and not out.exists()
+    lines = run.stderr.strip().splitlines()
+    assert "--prior" in lines[0] and "names the study's own file" in lines[0], run.stderr
+    assert "give the file of the earlier exam" in lines[0]
+    assert "Traceback" not in run.stderr

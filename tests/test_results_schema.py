@@ -1,7 +1,7 @@
 """The results schema is strict: every object closed, every field typed and described.
 
-Every example's results document (alone, compared with itself as the prior, and the follow-up
-pair with its real prior) validates; a copy damaged at any one position does not: an unknown key
+Every example's results document (alone, compared with its own findings as the prior, and the
+follow-up pair with its real prior) validates; a copy damaged at any one position does not: an unknown key
 injected into an object, a number turned into a string, a string into a number, a boolean into a
 string. Positions that share one place in the layout (the same path, list items alike) are
 tried once; ``LIMBCHART_EVERY_POSITION=1`` tries every position of every document instead.
@@ -40,11 +40,16 @@ def validator():  # type: ignore[no-untyped-def]
 
 
 def _documents() -> list[tuple[str, dict[str, Any]]]:
-    """Return every example's results: alone, with itself as prior, and with its own prior."""
+    """Return every example's results: alone, with its findings as a prior (the exam's own
+    accession and UID taken off: a copy of the study is refused as its prior), and with its own
+    prior."""
+    from dataclasses import replace
+
     docs = []
     for path in EXAMPLES:
         study = load_study(path)
-        runs = [("alone", None), ("self-prior", study)]
+        same = replace(study, exam=replace(study.exam, accession=None, study_uid=None))
+        runs = [("alone", None), ("self-prior", same)]
         own = load_prior(study)
         if own is not None:
             runs.append(("own-prior", own))

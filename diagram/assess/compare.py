@@ -221,6 +221,15 @@ def check_prior(current: Study, prior: Study) -> list[Problem]:
         for field, a, b, why in checks
         if not _same(a, b)
     ]
+    for field, a, b in (
+        ("exam.accession", current.exam.accession, prior.exam.accession),
+        ("exam.study_uid", current.exam.study_uid, prior.exam.study_uid),
+    ):
+        if a and b and _same(a, b):  # one line for a copy, which has both
+            rule = f"is the same as the current exam's {field}: a prior is an earlier exam."
+            hint = "is the prior a copy of the current study?"
+            problems.append(Problem(file, None, field, None, rule, hint))
+            break
     interval = _interval(current, prior)
     if interval is not None and interval < 0:
         problems.append(

@@ -89,10 +89,14 @@ def load_prior(study: Study, override: str | Path | None = None) -> Study | None
             path = Path(study.source).parent / path
     else:
         return None
+    shown = repr(str(override)) if override is not None else repr(study.prior)
+    field = "--prior" if override is not None else "prior"
     if not path.is_file():
-        shown = repr(str(override)) if override is not None else repr(study.prior)
-        field = "--prior" if override is not None else "prior"
         raise StudyError([Problem(study.source, None, field, shown, "names no study file.")])
+    if path.resolve() == Path(study.source).resolve():
+        rule = "names the study's own file: a prior is an earlier exam's study file."
+        hint = "give the file of the earlier exam"
+        raise StudyError([Problem(study.source, None, field, shown, rule, hint)])
     return load_study(path)
 
 
