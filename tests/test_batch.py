@@ -308,7 +308,9 @@ def test_a_file_made_by_someone_else_during_the_batch_is_never_replaced(
         return real(task)
 
     monkeypatch.setattr(batch, "draw_one", another_process_first)
-    studies = [str(EXAMPLES / n) for n in ("normal.yaml", "claudicant-sfa.yaml", "normal.yaml")]
+    studies = [
+        str(EXAMPLES / n) for n in ("normal.yaml", "claudicant-sfa.yaml", "clti-multilevel.yaml")
+    ]
     code, err = run(["draw", *studies, "-o", f"{out}/", "--format", "json", "--jobs", "1"], capsys)
     assert code == 2
     assert f"{out / 'map-0002.json'}: exists already and was left as it was" in err
@@ -498,3 +500,65 @@ def test_check_takes_a_structured_report_in_a_folder(
     out = capsys.readouterr().out
     assert not done.value.code
     assert f"== {folder / 'exam.dcm'}" in out and "SFA-M" in out
+
+
+def _twice(tmp_path: Path, how: str) -> tuple[list[str], Path, Path]:
+    """Return the inputs naming one study twice in the way ``how`` says, the path the study
+    is first named by and the one it is named again by."""
+    folder = tmp_path / "studies"
+    folder.mkdir()
+    study = folder / "exam.yaml"
+    shutil.copy(EXAMPLES / "normal.yaml", study)
+    shutil.copy(EXAMPLES / "claudicant-sfa.yaml", folder / "other.yaml")
+    if how == "the same path":
+        return [str(study), str(study)], study, study
+    if how == "another path":
+        again = folder / ".." / "studies" / "exam.yaml"
+        return [str(study), str(again)], study, again
+    if how == "a folder and a file in it":
+        return [str(folder), str(study)], study, study
+    if how == "a list":
+        listing = tmp_path / "batch.txt"
+        listing.write_text("studies/other.yaml\nstudies/exam.yaml\n", "utf-8")
+        return [str(study), str(listing)], study, tmp_path / "studies" / "exam.yaml"
+    link = tmp_path / "link.yaml"  # a symbolic link to the file
+    link.symlink_to(study)
+    return [str(study), str(link)], study, link
+
+
+@pytest.mark.parametrize(
+    "how", ["the same path", "another path", "a folder and a file in it", "a list", "a link"]
+)
+@pytest.mark.parametrize("command", ["draw", "teach"])
+def test_a_study_named_twice_is_refused_before_anything_is_written(
+    how: str, command: str, tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    inputs, first, again = _twice(tmp_path, how)
+    out = tmp_path / "out"
+    code, err = run([command, *inputs, "-o", f"{out}/"], capsys)
+    assert code == 2 and not out.exists()
+    if command == "draw":
+        assert err.splitlines()[0] == (
+            f"{again}: (file): is given twice (also as {first}): a batch takes each study once. "
+            "(name each study once)"
+        )
+    else:  # a teaching run names no study file: a file name may name the patient
+        assert "is given twice: a batch takes each study once. (name each study once)" in err
+        assert "exam.yaml" not in err and str(tmp_path) not in err
+    assert len(err.splitlines()) <= 2  # the one problem (and no traceback or summary of maps)
+
+
+def test_studies_named_once_each_by_a_folder_and_a_list_are_drawn(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    folder = tmp_path / "a"
+    folder.mkdir()
+    shutil.copy(EXAMPLES / "normal.yaml", folder / "one.yaml")
+    (tmp_path / "b").mkdir()
+    shutil.copy(EXAMPLES / "normal.yaml", tmp_path / "b" / "copy.yaml")  # same content, own file
+    listing = tmp_path / "more.txt"
+    listing.write_text("b/copy.yaml\n", "utf-8")
+    out = tmp_path / "out"
+    code, _ = run(["draw", str(folder), str(listing), "-o", f"{out}/", "--format", "json"], capsys)
+    assert code == 0
+    assert len(list(out.glob("*.json"))) == 3  # two maps and the manifest

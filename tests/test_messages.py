@@ -377,7 +377,9 @@ def test_check_takes_folders_and_lists_like_draw(
     folder.mkdir()
     (folder / "a.yaml").write_text((EXAMPLES / "normal.yaml").read_text())
     (folder / "b.yaml").write_text("format: 1\npatient: {sex: M}\n")
-    (tmp_path / "list.txt").write_text("in/a.yaml\n")
+    (tmp_path / "more").mkdir()
+    (tmp_path / "more" / "c.yaml").write_text((EXAMPLES / "normal.yaml").read_text())
+    (tmp_path / "list.txt").write_text("more/c.yaml\n")
     code, out, err = run(["check", str(folder), str(tmp_path / "list.txt")], capsys)
     assert code == 2
     assert err.splitlines() == [
@@ -385,7 +387,7 @@ def test_check_takes_folders_and_lists_like_draw(
         "(did you mean male?)"
     ]
     heads = [line for line in out.splitlines() if line.startswith("== ")]
-    assert heads == [f"== {folder / 'a.yaml'}", f"== {tmp_path / 'in' / 'a.yaml'}"]
+    assert heads == [f"== {folder / 'a.yaml'}", f"== {tmp_path / 'more' / 'c.yaml'}"]
     assert out.count("Schematic aid for the report") == 1
     code, out, _ = run(["check", str(folder), "--json"], capsys)
     assert code == 2

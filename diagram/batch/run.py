@@ -13,7 +13,7 @@ import os
 import signal
 import sys
 from collections import deque
-from collections.abc import Callable, Iterable
+from collections.abc import Callable
 from concurrent.futures import (
     FIRST_COMPLETED,
     CancelledError,
@@ -28,14 +28,11 @@ from types import FrameType
 from typing import TYPE_CHECKING, Any, Protocol
 
 from diagram.batch.names import DEFAULT_NAME, Unnamed, plan_names
-from diagram.errors import DiagramError, ExportError, Problem, StudyError
-from diagram.reading.formats import study_suffixes
+from diagram.errors import DiagramError, ExportError
 
 if TYPE_CHECKING:
     from diagram.drawing.labprofile import LabProfile
     from diagram.output.export import Renderer
-
-MANIFEST_SUFFIXES = (".txt", ".list", ".manifest")  # lists of study paths, one a line
 
 
 @dataclass(frozen=True)
@@ -104,33 +101,6 @@ class BatchSummary:
         if self.interrupted:
             return 128 + (self.signal or signal.SIGINT)
         return 2 if self.failed else 0
-
-
-def expand_inputs(inputs: Iterable[Path]) -> list[Path]:
-    """Return the study files named by ``inputs``: files, folders, and manifests of paths."""
-    out: list[Path] = []
-    problems: list[Problem] = []
-    for item in inputs:
-        if item.is_dir():
-            found = sorted(p for p in item.iterdir() if p.suffix.lower() in study_suffixes())
-            if not found:
-                problems.append(
-                    Problem(str(item), None, "", None, "is a folder with no study files in it.")
-                )
-            out.extend(found)
-        elif item.suffix.lower() in MANIFEST_SUFFIXES and item.is_file():
-            for raw in item.read_text("utf-8").splitlines():
-                text = raw.strip()
-                if not text or text.startswith("#"):
-                    continue
-                path = Path(text)
-                # a missing file is reported with the rest of the batch, not here
-                out.append(path if path.is_absolute() else item.parent / path)
-        else:
-            out.append(item)
-    if problems:
-        raise StudyError(problems)
-    return out
 
 
 def draw_one(task: BatchTask) -> BatchResult:

@@ -266,13 +266,8 @@ def _draw_batch(
     quiet: bool,
     scheduler: str | None = None,
 ) -> None:
-    from diagram.batch.run import (
-        BatchResult,
-        default_jobs,
-        draw_batch,
-        expand_inputs,
-        show_progress,
-    )
+    from diagram.batch.gather import expand_inputs
+    from diagram.batch.run import BatchResult, default_jobs, draw_batch, show_progress
 
     paths = expand_inputs(studies)
     bar_wanted = show_progress(quiet)

@@ -57,7 +57,7 @@ def check(
     several studies each is headed by its file; a study with problems is reported and the rest
     are checked (exit status 2). --json prints the results document (a list for several).
     """
-    from diagram.batch.run import expand_inputs
+    from diagram.batch.gather import expand_inputs
     from diagram.errors import DiagramError
     from diagram.output.results import results_document, results_json, results_table
 

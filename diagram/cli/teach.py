@@ -142,11 +142,11 @@ def _source_studies(inputs: tuple[Path, ...], output: Path) -> list[Path]:
     """Return the study files given, refusing any inside the output folder; make the folder."""
     from dataclasses import replace
 
-    from diagram.batch.run import expand_inputs
+    from diagram.batch.gather import expand_inputs
     from diagram.errors import ExportError, InputError
 
     try:
-        paths = expand_inputs(inputs)
+        paths = expand_inputs(inputs, echo_paths=False)
     except InputError as exc:  # name an input by its place: a file name may name the patient
         place = {str(p): k for k, p in enumerate(inputs, start=1)}
         raise InputError(
