@@ -338,11 +338,7 @@
       const line = $(".device-result", node);
       line.textContent = "";
       if (graft) {
-        const band = document.createElement("b");
-        band.className = `band band-${graft.band}`;
-        band.dataset.band = graft.band;
-        band.textContent = bandLabel(graft.band);
-        line.append(band, ` ${graft.basis}`);
+        line.append(bandBadge(graft.band), ` ${graft.basis}`);
       }
       for (const row of $$(".site", node)) {
         const found = graft && (graft.sites || []).find((s) => s.site === row.dataset.site);
@@ -400,6 +396,15 @@
     return band ? band.label : id;
   }
 
+  // a band's label in its own colours (editor.css), as shown beside a segment or a graft
+  function bandBadge(id) {
+    const badge = document.createElement("b");
+    badge.className = `band band-${id}`;
+    badge.dataset.band = id;
+    badge.textContent = bandLabel(id);
+    return badge;
+  }
+
   function showResults() {
     const res = state.results;
     if (!res) return;
@@ -409,11 +414,7 @@
     const line = $("#segment-result");
     line.textContent = "";
     if (seg) {
-      const band = document.createElement("b");
-      band.className = `band band-${seg.band}`;
-      band.dataset.band = seg.band;
-      band.textContent = bandLabel(seg.band);
-      line.append(band);
+      line.append(bandBadge(seg.band));
       // the basis names the ratio when the band rests on it; otherwise the ratio stands before it
       const vr = seg.vr !== null ? `Vr ${Number(seg.vr).toFixed(2)}` : null;
       const parts = vr && !seg.basis.startsWith(vr) ? [vr, seg.basis] : [seg.basis];
