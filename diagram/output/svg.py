@@ -27,6 +27,7 @@ from diagram.drawing.scene import (
     make_id,
 )
 from diagram.drawing.style import BandStyle, Hatch
+from diagram.drawing.textmetrics import text_width
 
 if TYPE_CHECKING:
     import svgwrite
@@ -217,25 +218,20 @@ def _children(
     return out
 
 
-def _space(run: Text) -> float:
-    from diagram.drawing.textmetrics import text_width
-
-    return text_width(" ", run.size, run.weight is Weight.BOLD)
-
-
 def _join(before: Text, after: Text) -> tuple[int, int] | None:
     """Return how many spaces end ``before`` and begin ``after`` when ``after`` follows on from
     ``before`` on its line (up to five in all, each in its run's own font), else None."""
-    from diagram.drawing.textmetrics import text_width
-
     if after.anchor.value != "start" or after.y != before.y:
         return None
     end = before.x + text_width(clean_text(before.text), before.size, before.weight is Weight.BOLD)
     gap = after.x - end
+    if gap < -_FOLLOW_TOLERANCE_PT:
+        return None
+    space_before = text_width(" ", before.size, before.weight is Weight.BOLD)
+    space_after = text_width(" ", after.size, after.weight is Weight.BOLD)
     for trailing in range(_MOST_SPACES + 1):
         for leading in range(_MOST_SPACES + 1 - trailing):
-            spaces = trailing * _space(before) + leading * _space(after)
-            if abs(gap - spaces) <= _FOLLOW_TOLERANCE_PT:
+            if abs(gap - trailing * space_before - leading * space_after) <= _FOLLOW_TOLERANCE_PT:
                 return trailing, leading
     return None
 
