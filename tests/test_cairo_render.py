@@ -69,29 +69,31 @@ def _pages(png: bytes, scenes: tuple[Scene, ...]) -> list[Image.Image]:
     return out
 
 
-# Runs on one baseline this close are one line of the SVG (its <text> of <tspan>s, the header's
-# fields five spaces apart): CairoSVG's hinted widths add up along the whole line.
-LINE_GAP_PT = 13.0
-
-
 def _text_boxes(scene: Scene) -> list[tuple[float, float, float, float]]:
-    """Return the pixel box of every line of text: runs on one baseline that follow on merged,
-    then padded by 6% of the line's width (CairoSVG's hinted widths) and 3 pixels."""
+    """Return the pixel box of every line of text, padded by 6% of its width (CairoSVG's hinted
+    widths) and 3 pixels: texts on one baseline that touch are merged, and so are the runs the
+    SVG writes as one line (``follows_on``: there CairoSVG's widths add up along the line)."""
+    from diagram.output.svg import follows_on
+
     k, pad = DPI / 72, 3.0
-    rows: dict[float, list[list[float]]] = {}
+    rows: dict[float, list[tuple[list[float], Text, float]]] = {}
     for item, scale, dx, dy in sorted(_texts(scene), key=lambda t: t[0].x * t[1] + t[2]):
         b = bounds(item)
         if b is None or not item.text.strip():
             continue
         box = [b.x * scale + dx, b.y * scale + dy, b.right * scale + dx, b.bottom * scale + dy]
         line = rows.setdefault(round(item.y * scale + dy, 1), [])
-        if line and box[0] - line[-1][2] <= LINE_GAP_PT * scale:
-            last = line[-1]
-            line[-1] = [last[0], min(last[1], box[1]), max(last[2], box[2]), max(last[3], box[3])]
-        else:
-            line.append(box)
+        if line:
+            last, before, before_scale = line[-1]
+            grow = (last[2] - last[0]) * 0.06 + pad / k
+            joined = before_scale == scale and follows_on(before, item) is not None
+            if joined or box[0] <= last[2] + grow:
+                merged = [last[0], min(last[1], box[1]), max(last[2], box[2]), max(last[3], box[3])]
+                line[-1] = (merged, item, scale)
+                continue
+        line.append((box, item, scale))
     boxes = []
-    for x, y, right, bottom in (b for line in rows.values() for b in line):
+    for (x, y, right, bottom), _, _ in (entry for line in rows.values() for entry in line):
         grow = (right - x) * 0.06
         boxes.append(
             ((x - grow) * k - pad, y * k - pad, (right + grow) * k + pad, bottom * k + pad)

@@ -202,7 +202,7 @@ def _children(
     line: list[Text] = []
     spaces: list[tuple[int, int]] = []  # (trailing, leading) between each run and the next
     for item in items:
-        if isinstance(item, Text) and line and (joined := _join(line[-1], item)) is not None:
+        if isinstance(item, Text) and line and (joined := follows_on(line[-1], item)) is not None:
             line.append(item)
             spaces.append(joined)
             continue
@@ -218,7 +218,7 @@ def _children(
     return out
 
 
-def _join(before: Text, after: Text) -> tuple[int, int] | None:
+def follows_on(before: Text, after: Text) -> tuple[int, int] | None:
     """Return how many spaces end ``before`` and begin ``after`` when ``after`` follows on from
     ``before`` on its line (up to five in all, each in its run's own font), else None."""
     if after.anchor.value != "start" or after.y != before.y:
